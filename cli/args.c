@@ -1,0 +1,150 @@
+/* args.c — option parsing, error printing and exit-code mapping for cli/. */
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "cli.h"
+#include "date.h"
+
+int cli_exit_for(int code)
+{
+    switch (code) {
+    case CC_OK: return EXIT_OK;
+    case CC_EINPUT: return EXIT_REJECTED;
+    case CC_EUSAGE: return EXIT_USAGE;
+    case CC_ENOTFOUND: return EXIT_NOTFOUND;
+    default: return EXIT_IO;
+    }
+}
+
+int cli_fail(const cc_error *err)
+{
+    fprintf(stderr, "concord: %s\n", err->msg[0] ? err->msg : "unknown error");
+    return cli_exit_for(err->code);
+}
+
+int cli_usage(const char *command, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    fprintf(stderr, "concord %s: ", command);
+    vfprintf(stderr, fmt, ap);
+    fprintf(stderr, "\n(see 'concord %s --help')\n", command);
+    va_end(ap);
+    return EXIT_USAGE;
+}
+
+static cli_opt *find(cli_opt *opts, int n, const char *name, size_t len, char shortname)
+{
+    for (int i = 0; i < n; i++)
+        if (shortname ? opts[i].shortname == shortname
+                      : strlen(opts[i].name) == len && memcmp(opts[i].name, name, len) == 0)
+            return &opts[i];
+    return NULL;
+}
+
+int cli_parse(int argc, char **argv, cli_opt *opts, int n_opts, char **pos, int *n_pos,
+              int *help, const char *command)
+{
+    int only_pos = 0;
+    *n_pos = 0;
+    *help = 0;
+    for (int i = 1; i < argc; i++) {
+        const char *a = argv[i];
+        if (only_pos || a[0] != '-' || strcmp(a, "-") == 0) {
+            pos[(*n_pos)++] = argv[i];
+            continue;
+        }
+        if (strcmp(a, "--") == 0) {
+            only_pos = 1;
+            continue;
+        }
+        if (strcmp(a, "--help") == 0 || strcmp(a, "-h") == 0) {
+            *help = 1;
+            continue;
+        }
+        cli_opt *o;
+        const char *value = NULL;
+        if (a[1] == '-') {
+            const char *eq = strchr(a + 2, '=');
+            size_t len = eq ? (size_t)(eq - a - 2) : strlen(a + 2);
+            o = find(opts, n_opts, a + 2, len, 0);
+            if (eq)
+                value = eq + 1;
+        } else {
+            o = a[2] == '\0' ? find(opts, n_opts, NULL, 0, a[1]) : NULL;
+        }
+        if (!o) {
+            cli_usage(command, "unknown option '%s'", a);
+            return -1;
+        }
+        if (o->takes_value) {
+            if (!value) {
+                if (i + 1 >= argc) {
+                    cli_usage(command, "option '--%s' needs a value", o->name);
+                    return -1;
+                }
+                value = argv[++i];
+            }
+            o->value = value;
+        } else {
+            if (value) {
+                cli_usage(command, "option '--%s' takes no value", o->name);
+                return -1;
+            }
+            o->value = "1";
+        }
+    }
+    return 0;
+}
+
+const char *cli_get(const cli_opt *opts, int n_opts, const char *name)
+{
+    for (int i = 0; i < n_opts; i++)
+        if (strcmp(opts[i].name, name) == 0)
+            return opts[i].value;
+    return NULL;
+}
+
+int cli_date(const char *command, const char *opt, const char *text, int64_t *day)
+{
+    if (cc_parse_date(text, day) == 0)
+        return 0;
+    cli_usage(command, "--%s '%s' is not a date of the form YYYY-MM-DD", opt, text);
+    return -1;
+}
+
+void cli_free_names(char **names, int n)
+{
+    for (int i = 0; names && i < n; i++)
+        free(names[i]);
+    free(names);
+}
+
+char **cli_split_names(const char *text, int *n)
+{
+    int count = 1;
+    for (const char *p = text; *p; p++)
+        count += *p == ',';
+    char **out = calloc((size_t)count, sizeof *out);
+    const char *start = text;
+    *n = 0;
+    for (int i = 0; out && i < count; i++) {
+        const char *end = strchr(start, ',');
+        size_t len = end ? (size_t)(end - start) : strlen(start);
+        if (len == 0 || len > 64 || !(out[i] = strndup(start, len))) {
+            cli_free_names(out, i);
+            return NULL;
+        }
+        (*n)++;
+        start = end ? end + 1 : start + len;
+    }
+    for (int i = 0; out && i < count; i++)
+        for (int j = i + 1; j < count; j++)
+            if (strcmp(out[i], out[j]) == 0) {
+                cli_free_names(out, count);
+                return NULL;
+            }
+    return out;
+}

@@ -1,0 +1,64 @@
+/* cli.h — what the command files share: the command table entry, exit
+ * codes, option parsing and the single place that prints errors. Only cli/
+ * prints to the terminal or decides the exit status. */
+#ifndef CC_CLI_H
+#define CC_CLI_H
+
+#include <stdint.h>
+
+#include "error.h"
+
+/* Exit codes (documented in the README). */
+enum {
+    EXIT_OK = 0,
+    EXIT_REJECTED = 1,   /* some input lines were refused (the rest is stored) */
+    EXIT_USAGE = 2,      /* bad command line */
+    EXIT_IO = 3,         /* file or database failure */
+    EXIT_NOTFOUND = 4,   /* unknown model, or nothing in the range */
+};
+
+typedef struct cli_command {
+    const char *name;
+    int (*run)(int argc, char **argv);
+    const char *summary;
+    const char *help;
+} cli_command;
+
+/* Options: "--name VALUE", "--name=VALUE", or flags. Positional arguments
+ * stay in order. A spec lists the options a command accepts. */
+typedef struct cli_opt {
+    const char *name;    /* without dashes */
+    char shortname;      /* 0 for none */
+    int takes_value;
+    const char *value;   /* filled: last value given, or "1" for a flag */
+} cli_opt;
+
+/* Parses argv[1..]; on error prints a message and returns -1. "--help"/-h
+ * sets *help. Positional arguments go to pos (caller-sized argc). */
+int cli_parse(int argc, char **argv, cli_opt *opts, int n_opts, char **pos, int *n_pos,
+              int *help, const char *command);
+const char *cli_get(const cli_opt *opts, int n_opts, const char *name);
+
+/* Prints "concord: message" to stderr and maps the error code to an exit code. */
+int cli_fail(const cc_error *err);
+int cli_usage(const char *command, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+int cli_exit_for(int code);
+
+/* "YYYY-MM-DD" -> day; prints a usage error on failure. */
+int cli_date(const char *command, const char *opt, const char *text, int64_t *day);
+
+/* Splits "a,b,c" into a malloc'd array of malloc'd strings; NULL on empty names. */
+char **cli_split_names(const char *text, int *n);
+void cli_free_names(char **names, int n);
+
+int cmd_ingest(int argc, char **argv);
+int cmd_label(int argc, char **argv);
+int cmd_baseline(int argc, char **argv);
+int cmd_report(int argc, char **argv);
+int cmd_verify(int argc, char **argv);
+int cmd_demo(int argc, char **argv);
+
+extern const char help_ingest[], help_label[], help_baseline[], help_report[], help_verify[],
+    help_demo[];
+
+#endif

@@ -1,0 +1,164 @@
+/* cmd_ingest.c — `concord ingest` and `concord label`: files in, a tally
+ * and the first rejected lines out. */
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "cli.h"
+#include "ingest.h"
+
+const char help_ingest[] =
+    "usage: concord ingest --db FILE [--model NAME] [--classes A,B,...] [--members X,Y,...]\n"
+    "                      [--strict] [--batch N] [--quiet] FILE...\n\n"
+    "Reads prediction events, one JSON object per line ('-' reads standard input), and\n"
+    "stores each with the per-day summaries it adds to. Lines that fail validation are\n"
+    "refused with the file, line and reason, recorded in the database's rejects table,\n"
+    "and the rest is stored. An id already stored for the model is counted as a\n"
+    "duplicate and skipped, so re-reading a file is safe.\n\n"
+    "  --db FILE        database (created when missing)\n"
+    "  --model NAME     model for lines without a \"model\" key (default: default)\n"
+    "  --classes LIST   class names, when this run creates the model\n"
+    "  --members LIST   member names, when this run creates the model\n"
+    "  --strict         store nothing at all when any line is bad\n"
+    "  --batch N        lines per transaction (default 20000)\n"
+    "  --quiet          print rejected lines' reasons only in the tally\n\n"
+    "exit: 0 all lines stored or duplicates, 1 some lines rejected (with --strict:\n"
+    "nothing stored), 2 usage, 3 file or database error\n";
+
+const char help_label[] =
+    "usage: concord label --db FILE [--model NAME] [--quiet] FILE...\n\n"
+    "Reads delayed labels, one {\"id\": ..., \"label\": CLASS} per line (CLASS an index or\n"
+    "a class name; optional \"model\"), and adds each to the labelled part of its event's\n"
+    "day. A label that differs from an earlier one replaces it exactly. A label whose\n"
+    "event is not stored yet waits and is applied when the event is ingested.\n\n"
+    "exit: 0 ok, 1 some lines rejected, 2 usage, 3 file or database error\n";
+
+#define SHOWN_REJECTS 20
+
+typedef struct tally {
+    int64_t shown;
+    int quiet;
+} tally;
+
+static void on_reject(void *payload, const char *source, int64_t line, const char *reason)
+{
+    tally *t = payload;
+    if (!t->quiet && t->shown < SHOWN_REJECTS)
+        fprintf(stderr, "%s:%lld: rejected: %s\n", source, (long long)line, reason);
+    t->shown++;
+}
+
+static int run(int argc, char **argv, cc_record_kind kind)
+{
+    const char *command = kind == CC_RECORD_EVENTS ? "ingest" : "label";
+    cli_opt opts[] = {
+        {"db", 0, 1, NULL},      {"model", 0, 1, NULL}, {"classes", 0, 1, NULL},
+        {"members", 0, 1, NULL}, {"strict", 0, 0, NULL}, {"batch", 0, 1, NULL},
+        {"quiet", 'q', 0, NULL},
+    };
+    int n_opts = (int)(sizeof opts / sizeof *opts), n_pos, help;
+    char **pos = calloc((size_t)argc + 1, sizeof *pos);
+    if (!pos || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, command)) {
+        free(pos);
+        return EXIT_USAGE;
+    }
+    if (help) {
+        fputs(kind == CC_RECORD_EVENTS ? help_ingest : help_label, stdout);
+        free(pos);
+        return EXIT_OK;
+    }
+    const char *db = cli_get(opts, n_opts, "db");
+    int rc = EXIT_OK, n_classes = 0, n_members = 0;
+    char **classes = NULL, **members = NULL;
+    if (!db)
+        rc = cli_usage(command, "--db FILE is required");
+    else if (n_pos == 0)
+        rc = cli_usage(command, "no input files (use '-' for standard input)");
+    else if (kind == CC_RECORD_LABELS &&
+             (cli_get(opts, n_opts, "classes") || cli_get(opts, n_opts, "members") ||
+              cli_get(opts, n_opts, "strict")))
+        rc = cli_usage(command, "--classes, --members and --strict belong to 'ingest'");
+    const char *cv = cli_get(opts, n_opts, "classes"), *mv = cli_get(opts, n_opts, "members");
+    if (!rc && cv && !(classes = cli_split_names(cv, &n_classes)))
+        rc = cli_usage(command, "--classes needs distinct, non-empty names up to 64 bytes");
+    if (!rc && mv && !(members = cli_split_names(mv, &n_members)))
+        rc = cli_usage(command, "--members needs distinct, non-empty names up to 64 bytes");
+    cc_ingest_opts io = CC_INGEST_OPTS_INIT;
+    const char *bv = cli_get(opts, n_opts, "batch");
+    if (!rc && bv && (io.batch = atoi(bv)) < 1)
+        rc = cli_usage(command, "--batch must be a positive number");
+    if (rc) {
+        cli_free_names(classes, n_classes);
+        cli_free_names(members, n_members);
+        free(pos);
+        return rc;
+    }
+
+    tally t = {0, cli_get(opts, n_opts, "quiet") != NULL};
+    if (cli_get(opts, n_opts, "model"))
+        io.model = cli_get(opts, n_opts, "model");
+    io.classes = classes;
+    io.n_classes = n_classes;
+    io.members = members;
+    io.n_members = n_members;
+    io.strict = cli_get(opts, n_opts, "strict") != NULL;
+    io.on_reject = on_reject;
+    io.payload = &t;
+
+    cc_error err = CC_ERROR_INIT;
+    cc_store *store = NULL;
+    cc_ingest *ing = NULL;
+    int e = cc_store_open(&store, db, 1, &err);
+    if (!e)
+        e = cc_ingest_create(&ing, store, &io, &err);
+    for (int i = 0; !e && i < n_pos; i++)
+        e = cc_ingest_file(ing, pos[i], kind, &err);
+    if (!e)
+        e = cc_ingest_finish(ing, &err);
+    if (e) {
+        rc = cli_fail(&err);
+        if (ing && cc_ingest_get_stats(ing)->accepted > 0)
+            fprintf(stderr, "concord %s: batches committed before the error are kept; "
+                            "re-running the same files is safe\n", command);
+    } else {
+        const cc_ingest_stats *s = cc_ingest_get_stats(ing);
+        if (t.shown > SHOWN_REJECTS && !t.quiet)
+            fprintf(stderr, "... and %lld more rejected lines\n",
+                    (long long)(t.shown - SHOWN_REJECTS));
+        if (kind == CC_RECORD_EVENTS)
+            fprintf(stderr, "%s: %lld lines, %lld events stored, %lld duplicates skipped, %lld "
+                            "rejected",
+                    command, (long long)s->lines, (long long)s->accepted,
+                    (long long)s->duplicates, (long long)s->rejected);
+        else
+            fprintf(stderr, "%s: %lld lines, %lld labels applied (%lld replaced an earlier "
+                            "label), %lld unchanged, %lld waiting for their event, %lld rejected",
+                    command, (long long)s->lines, (long long)s->labels_set,
+                    (long long)s->labels_changed, (long long)s->labels_unchanged,
+                    (long long)s->labels_pending, (long long)s->rejected);
+        if (kind == CC_RECORD_EVENTS && s->labels_set > 0)
+            fprintf(stderr, ", %lld waiting labels applied", (long long)s->labels_set);
+        fputc('\n', stderr);
+        if (s->empty_files > 0)
+            fprintf(stderr, "%s: warning: %lld input file(s) had no lines\n", command,
+                    (long long)s->empty_files);
+        if (s->rejected > 0) {
+            if (io.strict)
+                fprintf(stderr, "%s: --strict: nothing was stored; the rejected lines are in "
+                                "the rejects table\n", command);
+            else
+                fprintf(stderr, "%s: rejected lines and their reasons are in the rejects "
+                                "table of %s\n", command, db);
+            rc = EXIT_REJECTED;
+        }
+    }
+    cc_ingest_free(ing);
+    cc_store_close(store);
+    cli_free_names(classes, n_classes);
+    cli_free_names(members, n_members);
+    free(pos);
+    return rc;
+}
+
+int cmd_ingest(int argc, char **argv) { return run(argc, argv, CC_RECORD_EVENTS); }
+int cmd_label(int argc, char **argv) { return run(argc, argv, CC_RECORD_LABELS); }

@@ -1,0 +1,50 @@
+/* main.c — concord's entry point: dispatches to one command per file. */
+#include <stdio.h>
+#include <string.h>
+
+#include "cli.h"
+
+static const cli_command commands[] = {
+    {"ingest", cmd_ingest, "read prediction events (JSON Lines) into the database", help_ingest},
+    {"label", cmd_label, "attach delayed ground-truth labels to stored events", help_label},
+    {"baseline", cmd_baseline, "mark the baseline period of a model", help_baseline},
+    {"report", cmd_report, "diversity, uncertainty and accuracy per day, week or range",
+     help_report},
+    {"verify", cmd_verify, "check that stored summaries match the event rows", help_verify},
+    {"demo", cmd_demo, "run the whole job on an invented fruit-grading ensemble", help_demo},
+};
+
+static void usage(FILE *f)
+{
+    fprintf(f, "usage: concord COMMAND [OPTIONS] [FILE...]\n\n"
+               "Monitors an ensemble of classifiers from the per-member predictions it logs.\n\n"
+               "commands:\n");
+    for (size_t i = 0; i < sizeof commands / sizeof *commands; i++)
+        fprintf(f, "  %-9s %s\n", commands[i].name, commands[i].summary);
+    fprintf(f, "\n'concord COMMAND --help' describes a command.\n"
+               "exit codes: 0 ok, 1 some input lines rejected, 2 usage error,\n"
+               "            3 file or database error, 4 unknown model or nothing to report\n");
+}
+
+int main(int argc, char **argv)
+{
+    if (argc < 2) {
+        usage(stderr);
+        return EXIT_USAGE;
+    }
+    if (strcmp(argv[1], "--help") == 0 || strcmp(argv[1], "-h") == 0 ||
+        strcmp(argv[1], "help") == 0) {
+        usage(stdout);
+        return EXIT_OK;
+    }
+    if (strcmp(argv[1], "--version") == 0) {
+        printf("concord 0.1.0\n");
+        return EXIT_OK;
+    }
+    for (size_t i = 0; i < sizeof commands / sizeof *commands; i++)
+        if (strcmp(argv[1], commands[i].name) == 0)
+            return commands[i].run(argc - 1, argv + 1);
+    fprintf(stderr, "concord: unknown command '%s'\n\n", argv[1]);
+    usage(stderr);
+    return EXIT_USAGE;
+}

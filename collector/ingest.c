@@ -1,0 +1,515 @@
+/* ingest.c — the write path: line -> parse -> validate against the model ->
+ * event row + summary delta, batched into transactions. */
+#include "ingest.h"
+
+#include <errno.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "date.h"
+#include "event_parse.h"
+#include "line_reader.h"
+#include "summary.h"
+
+typedef struct day_delta {
+    int64_t day;
+    cc_summary *delta;
+    int dirty;
+} day_delta;
+
+typedef struct model_state {
+    cc_model *model;
+    day_delta *days;
+    int n_days, cap_days, last;
+    float *probs; /* m*k scratch */
+} model_state;
+
+typedef struct strict_reject {
+    char *source, *reason, *text;
+    size_t text_len;
+    int64_t line;
+    const char *kind;
+} strict_reject;
+
+struct cc_ingest {
+    cc_store *store;
+    cc_ingest_opts opts;
+    cc_ingest_stats stats;
+    cc_parser *parser;
+    model_state *models;
+    int n_models;
+    int in_tx;
+    int64_t since_commit;
+    strict_reject *held;
+    size_t n_held, cap_held;
+};
+
+static void model_state_clear(model_state *ms)
+{
+    for (int i = 0; i < ms->n_days; i++)
+        cc_summary_free(ms->days[i].delta);
+    free(ms->days);
+    free(ms->probs);
+    cc_model_free(ms->model);
+}
+
+static int begin(cc_ingest *ing, cc_error *err)
+{
+    int rc = cc_store_begin(ing->store, err);
+    ing->in_tx = rc == 0;
+    return rc;
+}
+
+int cc_ingest_create(cc_ingest **out, cc_store *store, const cc_ingest_opts *opts,
+                     cc_error *err)
+{
+    cc_ingest *ing = calloc(1, sizeof *ing);
+    *out = NULL;
+    if (!ing || !(ing->parser = cc_parser_create())) {
+        free(ing);
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    }
+    ing->store = store;
+    ing->opts = *opts;
+    if (!ing->opts.model)
+        ing->opts.model = "default";
+    if (ing->opts.batch < 1)
+        ing->opts.batch = 20000;
+    int rc = begin(ing, err);
+    if (rc) {
+        cc_ingest_free(ing);
+        return rc;
+    }
+    *out = ing;
+    return 0;
+}
+
+const cc_ingest_stats *cc_ingest_get_stats(const cc_ingest *ing) { return &ing->stats; }
+
+static int names_differ(char *const *a, char *const *b, int n)
+{
+    for (int i = 0; i < n; i++)
+        if (strcmp(a[i], b[i]) != 0)
+            return 1;
+    return 0;
+}
+
+/* The model named name, from the cache, the store, or created from the
+ * first event (m, k > 0). Returns NULL with why filled when it cannot be
+ * had; a database failure also fills err and sets *fatal. */
+static model_state *model_for(cc_ingest *ing, const char *name, int m, int k, char *why,
+                              size_t why_len, int *fatal, cc_error *err)
+{
+    for (int i = 0; i < ing->n_models; i++)
+        if (strcmp(ing->models[i].model->name, name) == 0)
+            return &ing->models[i];
+    cc_model *model = NULL;
+    cc_error local = CC_ERROR_INIT;
+    int rc = cc_store_model_get(ing->store, name, &model, &local);
+    if (rc == -CC_ENOTFOUND) {
+        if (m <= 0) {
+            snprintf(why, why_len, "field 'model': no model '%s' in the database", name);
+            return NULL;
+        }
+        const cc_ingest_opts *o = &ing->opts;
+        if (o->classes && o->n_classes != k) {
+            snprintf(why, why_len,
+                     "field 'probs': %d classes, but --classes names %d; model '%s' not created",
+                     k, o->n_classes, name);
+            return NULL;
+        }
+        if (o->members && o->n_members != m) {
+            snprintf(why, why_len,
+                     "field 'probs': %d members, but --members names %d; model '%s' not created",
+                     m, o->n_members, name);
+            return NULL;
+        }
+        rc = cc_store_model_create(ing->store, name, m, k, o->classes, o->members, &model, err);
+    } else if (rc == 0) {
+        if (ing->opts.classes && (ing->opts.n_classes != model->k ||
+                                  names_differ(ing->opts.classes, model->classes, model->k))) {
+            snprintf(why, why_len, "model '%s' already has other class names than --classes",
+                     name);
+            cc_model_free(model);
+            return NULL;
+        }
+        if (ing->opts.members && (ing->opts.n_members != model->m ||
+                                  names_differ(ing->opts.members, model->members, model->m))) {
+            snprintf(why, why_len, "model '%s' already has other member names than --members",
+                     name);
+            cc_model_free(model);
+            return NULL;
+        }
+    } else {
+        *err = local;
+    }
+    if (rc) {
+        *fatal = 1;
+        return NULL;
+    }
+    model_state *grown = realloc(ing->models, (size_t)(ing->n_models + 1) * sizeof *grown);
+    float *probs = malloc((size_t)model->m * (size_t)model->k * sizeof *probs);
+    if (!grown || !probs) {
+        if (grown)
+            ing->models = grown;
+        free(probs);
+        cc_model_free(model);
+        cc_error_set(err, CC_ENOMEM, "out of memory");
+        *fatal = 1;
+        return NULL;
+    }
+    ing->models = grown;
+    model_state *ms = &ing->models[ing->n_models++];
+    memset(ms, 0, sizeof *ms);
+    ms->model = model;
+    ms->probs = probs;
+    return ms;
+}
+
+static cc_summary *delta_for(model_state *ms, int64_t day)
+{
+    if (ms->last < ms->n_days && ms->days[ms->last].day == day)
+        return ms->days[ms->last].delta;
+    for (int i = 0; i < ms->n_days; i++)
+        if (ms->days[i].day == day) {
+            ms->last = i;
+            return ms->days[i].delta;
+        }
+    if (ms->n_days == ms->cap_days) {
+        int cap = ms->cap_days ? 2 * ms->cap_days : 8;
+        day_delta *grown = realloc(ms->days, (size_t)cap * sizeof *grown);
+        if (!grown)
+            return NULL;
+        ms->days = grown;
+        ms->cap_days = cap;
+    }
+    cc_summary *d = cc_summary_create(ms->model->m, ms->model->k);
+    if (!d)
+        return NULL;
+    ms->days[ms->n_days] = (day_delta){day, d, 0};
+    ms->last = ms->n_days++;
+    return d;
+}
+
+static void mark_dirty(model_state *ms) { ms->days[ms->last].dirty = 1; }
+
+static int flush(cc_ingest *ing, cc_error *err)
+{
+    for (int i = 0; i < ing->n_models; i++) {
+        model_state *ms = &ing->models[i];
+        for (int j = 0; j < ms->n_days; j++) {
+            day_delta *dd = &ms->days[j];
+            if (!dd->dirty)
+                continue;
+            int rc = cc_store_summary_add(ing->store, ms->model, dd->day, dd->delta, err);
+            if (rc)
+                return rc;
+            cc_summary_clear(dd->delta);
+            dd->dirty = 0;
+        }
+    }
+    return 0;
+}
+
+static void discard_deltas(cc_ingest *ing)
+{
+    for (int i = 0; i < ing->n_models; i++)
+        for (int j = 0; j < ing->models[i].n_days; j++) {
+            cc_summary_clear(ing->models[i].days[j].delta);
+            ing->models[i].days[j].dirty = 0;
+        }
+}
+
+static int commit_batch(cc_ingest *ing, cc_error *err)
+{
+    int rc = flush(ing, err);
+    if (!rc)
+        rc = cc_store_commit(ing->store, err);
+    ing->in_tx = 0;
+    if (rc)
+        return rc;
+    ing->since_commit = 0;
+    return begin(ing, err);
+}
+
+static int reject(cc_ingest *ing, const char *kind, const char *source, const cc_line *ln,
+                  const char *reason, cc_error *err)
+{
+    ing->stats.rejected++;
+    if (ing->opts.on_reject)
+        ing->opts.on_reject(ing->opts.payload, source, ln->number, reason);
+    if (!ing->opts.strict)
+        return cc_store_reject_add(ing->store, kind, source, ln->number, reason, ln->text,
+                                   ln->len, err);
+    /* strict: hold the reject until the run's transaction is rolled back */
+    if (ing->n_held == ing->cap_held) {
+        size_t cap = ing->cap_held ? 2 * ing->cap_held : 64;
+        strict_reject *grown = realloc(ing->held, cap * sizeof *grown);
+        if (!grown)
+            return cc_error_set(err, CC_ENOMEM, "out of memory");
+        ing->held = grown;
+        ing->cap_held = cap;
+    }
+    strict_reject *h = &ing->held[ing->n_held++];
+    size_t keep = ing->n_held <= 1000 ? (ln->len < 4096 ? ln->len : 4096) : 0;
+    h->source = strdup(source);
+    h->reason = strdup(reason);
+    h->text = malloc(keep + 1);
+    if (h->text)
+        memcpy(h->text, ln->text, keep);
+    h->text_len = keep;
+    h->line = ln->number;
+    h->kind = kind;
+    return h->source && h->reason && h->text ? 0 : cc_error_set(err, CC_ENOMEM, "out of memory");
+}
+
+/* Applies a label to a stored event, or parks it until the event arrives. */
+static int apply_label(cc_ingest *ing, model_state *ms, const char *id, int id_len, int label,
+                       cc_error *err)
+{
+    int found, old;
+    int64_t day;
+    int rc = cc_store_event_get(ing->store, ms->model, id, id_len, &found, &day, &old,
+                                ms->probs, err);
+    if (rc)
+        return rc;
+    if (!found) {
+        ing->stats.labels_pending++;
+        return cc_store_pending_label_add(ing->store, ms->model, id, id_len, label, err);
+    }
+    if (old == label) {
+        ing->stats.labels_unchanged++;
+        return 0;
+    }
+    cc_summary *d = delta_for(ms, day);
+    if (!d)
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    if (old >= 0) {
+        cc_summary_add_labeled(d, ms->probs, old, -1);
+        ing->stats.labels_changed++;
+    }
+    cc_summary_add_labeled(d, ms->probs, label, 1);
+    mark_dirty(ms);
+    ing->stats.labels_set++;
+    return cc_store_event_set_label(ing->store, ms->model, id, id_len, label, err);
+}
+
+static int resolve_label(const cc_model *model, int label, const char *name, int *out,
+                         char *why, size_t why_len)
+{
+    if (name) {
+        *out = cc_model_class_index(model, name, (int)strlen(name));
+        if (*out < 0) {
+            snprintf(why, why_len, "field 'label': unknown class name '%.64s' for model '%s'",
+                     name, model->name);
+            return -1;
+        }
+        return 0;
+    }
+    if (label >= model->k) {
+        snprintf(why, why_len, "field 'label': %d is out of range 0..%d for model '%s'", label,
+                 model->k - 1, model->name);
+        return -1;
+    }
+    *out = label;
+    return 0;
+}
+
+static int take_event(cc_ingest *ing, const char *source, const cc_line *ln, cc_error *err)
+{
+    char why[256];
+    cc_event ev;
+    int fatal = 0, label = -1;
+    if (cc_parse_event(ing->parser, ln->text, ln->len, &ev, why, sizeof why))
+        return reject(ing, "event", source, ln, why, err);
+    const char *name = ev.model ? ev.model : ing->opts.model;
+    model_state *ms = model_for(ing, name, ev.m, ev.k, why, sizeof why, &fatal, err);
+    if (!ms)
+        return fatal ? -1 : reject(ing, "event", source, ln, why, err);
+    const cc_model *model = ms->model;
+    if (ev.m != model->m || ev.k != model->k) {
+        snprintf(why, sizeof why,
+                 "field 'probs': %d members x %d classes, but model '%s' has %d x %d", ev.m,
+                 ev.k, model->name, model->m, model->k);
+        return reject(ing, "event", source, ln, why, err);
+    }
+    if ((ev.label >= 0 || ev.label_name) &&
+        resolve_label(model, ev.label, ev.label_name, &label, why, sizeof why))
+        return reject(ing, "event", source, ln, why, err);
+
+    size_t n = (size_t)model->m * (size_t)model->k;
+    for (size_t i = 0; i < n; i++)
+        ms->probs[i] = (float)ev.probs[i];
+    double avg[CC_MAX_CLASSES] = {0};
+    for (int i = 0; i < model->m; i++)
+        for (int c = 0; c < model->k; c++)
+            avg[c] += ms->probs[(size_t)i * model->k + c];
+    int pred = cc_argmax_d(avg, model->k);
+
+    int inserted;
+    if (cc_store_event_insert(ing->store, model, ev.id, ev.id_len, ev.ts, ev.segment,
+                              ev.segment_len, pred, label, ms->probs, &inserted, err))
+        return -1;
+    if (!inserted) {
+        ing->stats.duplicates++;
+        return 0;
+    }
+    cc_summary *d = delta_for(ms, cc_day_of_unix(ev.ts));
+    if (!d)
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    cc_summary_add_unlabeled(d, ms->probs, 1);
+    if (label >= 0)
+        cc_summary_add_labeled(d, ms->probs, label, 1);
+    mark_dirty(ms);
+    ing->stats.accepted++;
+    return 0;
+}
+
+static int take_label(cc_ingest *ing, const char *source, const cc_line *ln, cc_error *err)
+{
+    char why[256];
+    cc_label_line lab;
+    int fatal = 0, label;
+    if (cc_parse_label(ing->parser, ln->text, ln->len, &lab, why, sizeof why))
+        return reject(ing, "label", source, ln, why, err);
+    const char *name = lab.model ? lab.model : ing->opts.model;
+    model_state *ms = model_for(ing, name, 0, 0, why, sizeof why, &fatal, err);
+    if (!ms)
+        return fatal ? -1 : reject(ing, "label", source, ln, why, err);
+    if (resolve_label(ms->model, lab.label, lab.label_name, &label, why, sizeof why))
+        return reject(ing, "label", source, ln, why, err);
+    return apply_label(ing, ms, lab.id, lab.id_len, label, err);
+}
+
+static int is_blank(const char *s, size_t n)
+{
+    for (size_t i = 0; i < n; i++)
+        if (s[i] != ' ' && s[i] != '\t' && s[i] != '\r')
+            return 0;
+    return 1;
+}
+
+int cc_ingest_file(cc_ingest *ing, const char *path, cc_record_kind kind, cc_error *err)
+{
+    int from_stdin = strcmp(path, "-") == 0;
+    const char *source = from_stdin ? "<stdin>" : path;
+    const char *kind_name = kind == CC_RECORD_EVENTS ? "event" : "label";
+    FILE *f = from_stdin ? stdin : fopen(path, "rb");
+    if (!f)
+        return cc_error_set(err, CC_EIO, "%s: cannot open: %s", path, strerror(errno));
+    if (!ing->in_tx) {
+        int rc = begin(ing, err);
+        if (rc) {
+            if (!from_stdin)
+                fclose(f);
+            return rc;
+        }
+    }
+    cc_line_reader *r = cc_line_reader_create(f);
+    int rc = r ? 0 : cc_error_set(err, CC_ENOMEM, "out of memory");
+    int64_t lines_here = 0;
+    cc_line ln;
+    while (!rc) {
+        int got = cc_line_reader_next(r, &ln);
+        if (got == 0)
+            break;
+        if (got < 0) {
+            rc = cc_error_set(err, CC_EIO, "%s: read error after line %lld: %s", source,
+                              (long long)ln.number, strerror(errno));
+            break;
+        }
+        if (ln.too_long) {
+            char why[160];
+            snprintf(why, sizeof why, "line is %zu bytes, longer than the limit of %u bytes",
+                     ln.full_len, CC_LINE_MAX);
+            ing->stats.lines++;
+            lines_here++;
+            rc = reject(ing, kind_name, source, &ln, why, err);
+            continue;
+        }
+        if (is_blank(ln.text, ln.len))
+            continue;
+        ing->stats.lines++;
+        lines_here++;
+        rc = kind == CC_RECORD_EVENTS ? take_event(ing, source, &ln, err)
+                                      : take_label(ing, source, &ln, err);
+        if (!rc && !ing->opts.strict && ++ing->since_commit >= ing->opts.batch)
+            rc = commit_batch(ing, err);
+    }
+    if (!rc && lines_here == 0)
+        ing->stats.empty_files++;
+    cc_line_reader_free(r);
+    if (!from_stdin)
+        fclose(f);
+    return rc;
+}
+
+static int drain_one(void *payload, const char *id, int id_len, int label)
+{
+    void **ctx = payload;
+    return apply_label(ctx[0], ctx[1], id, id_len, label, ctx[2]) ? 1 : 0;
+}
+
+int cc_ingest_finish(cc_ingest *ing, cc_error *err)
+{
+    int rc = 0;
+    if (ing->opts.strict && ing->stats.rejected > 0) {
+        cc_store_rollback(ing->store);
+        ing->in_tx = 0;
+        discard_deltas(ing);
+        /* the rejects themselves are still worth keeping */
+        if ((rc = cc_store_begin(ing->store, err)))
+            return rc;
+        for (size_t i = 0; !rc && i < ing->n_held; i++) {
+            strict_reject *h = &ing->held[i];
+            rc = cc_store_reject_add(ing->store, h->kind, h->source, h->line, h->reason,
+                                     h->text, h->text_len, err);
+        }
+        if (!rc)
+            rc = cc_store_commit(ing->store, err);
+        else
+            cc_store_rollback(ing->store);
+        return rc;
+    }
+    if (!ing->in_tx && (rc = begin(ing, err)))
+        return rc;
+    for (int i = 0; !rc && i < ing->n_models; i++) {
+        cc_error inner = CC_ERROR_INIT;
+        void *ctx[3] = {ing, &ing->models[i], &inner};
+        rc = cc_store_pending_label_drain(ing->store, ing->models[i].model, drain_one, ctx,
+                                          err);
+        if (rc > 0) {
+            if (err)
+                *err = inner;
+            rc = -inner.code;
+        }
+    }
+    if (!rc)
+        rc = flush(ing, err);
+    if (!rc)
+        rc = cc_store_commit(ing->store, err);
+    ing->in_tx = 0;
+    if (!rc)
+        ing->stats.committed = 1;
+    return rc;
+}
+
+void cc_ingest_free(cc_ingest *ing)
+{
+    if (!ing)
+        return;
+    if (ing->in_tx)
+        cc_store_rollback(ing->store);
+    for (int i = 0; i < ing->n_models; i++)
+        model_state_clear(&ing->models[i]);
+    free(ing->models);
+    for (size_t i = 0; i < ing->n_held; i++) {
+        free(ing->held[i].source);
+        free(ing->held[i].reason);
+        free(ing->held[i].text);
+    }
+    free(ing->held);
+    cc_parser_free(ing->parser);
+    free(ing);
+}

@@ -1,0 +1,67 @@
+/* ingest.h — reading prediction events and delayed labels into the store.
+ *
+ * Events and labels are written in batches; each batch is one transaction
+ * holding the event rows, the label updates and the per-day summary deltas
+ * they cause, so a crash at any point leaves rows and summaries consistent,
+ * and re-reading the same file adds nothing twice (ids are unique per model). */
+#ifndef CC_COLLECTOR_INGEST_H
+#define CC_COLLECTOR_INGEST_H
+
+#include <stdint.h>
+
+#include "error.h"
+#include "store.h"
+
+typedef enum cc_record_kind { CC_RECORD_EVENTS, CC_RECORD_LABELS } cc_record_kind;
+
+/* Called for each rejected line (reason names the field). */
+typedef void (*cc_reject_fn)(void *payload, const char *source, int64_t line,
+                             const char *reason);
+
+typedef struct cc_ingest_opts {
+    const char *model;          /* default model for lines without "model" */
+    char *const *classes;       /* names for models this run creates, or NULL */
+    int n_classes;
+    char *const *members;
+    int n_members;
+    int strict;                 /* any bad line: store nothing */
+    int batch;                  /* lines per transaction */
+    cc_reject_fn on_reject;
+    void *payload;
+} cc_ingest_opts;
+
+#define CC_INGEST_OPTS_INIT {"default", NULL, 0, NULL, 0, 0, 20000, NULL, NULL}
+
+typedef struct cc_ingest_stats {
+    int64_t lines;              /* non-blank lines read */
+    int64_t accepted;           /* new events stored */
+    int64_t duplicates;         /* events whose id was already stored */
+    int64_t rejected;           /* lines refused (see rejects table) */
+    int64_t labels_set;         /* labels applied to stored events */
+    int64_t labels_changed;     /* of which replaced a different earlier label */
+    int64_t labels_unchanged;   /* same label again */
+    int64_t labels_pending;     /* labels whose event is not stored yet */
+    int64_t empty_files;
+    int committed;              /* 1 when the run's writes are committed */
+} cc_ingest_stats;
+
+typedef struct cc_ingest cc_ingest;
+
+/* Starts a run; the first transaction opens here. */
+int cc_ingest_create(cc_ingest **out, cc_store *store, const cc_ingest_opts *opts,
+                     cc_error *err);
+
+/* Reads one file ("-" = standard input). Bad lines are rejected and
+ * recorded; only I/O and database failures return an error. */
+int cc_ingest_file(cc_ingest *ing, const char *path, cc_record_kind kind, cc_error *err);
+
+/* Applies waiting labels, flushes summaries and commits (or, in strict mode
+ * with rejected lines, rolls everything back). */
+int cc_ingest_finish(cc_ingest *ing, cc_error *err);
+
+const cc_ingest_stats *cc_ingest_get_stats(const cc_ingest *ing);
+
+/* Rolls back whatever is not committed and frees. Accepts NULL. */
+void cc_ingest_free(cc_ingest *ing);
+
+#endif

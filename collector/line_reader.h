@@ -1,0 +1,30 @@
+/* line_reader.h — buffered reading of newline-terminated records with a
+ * length cap, so one huge line cannot exhaust memory. */
+#ifndef CC_COLLECTOR_LINE_READER_H
+#define CC_COLLECTOR_LINE_READER_H
+
+#include <stdio.h>
+#include <stddef.h>
+#include <stdint.h>
+
+#define CC_LINE_MAX (1u << 20) /* 1 MiB: far above any real event */
+
+typedef struct cc_line_reader cc_line_reader;
+
+typedef struct cc_line {
+    const char *text;   /* without the newline; valid until the next call */
+    size_t len;         /* bytes kept (0 when too_long) */
+    size_t full_len;    /* bytes the line really had */
+    int64_t number;     /* 1-based */
+    int too_long;       /* line exceeded CC_LINE_MAX and was skipped */
+    int no_newline;     /* last line of the file lacked its newline */
+} cc_line;
+
+/* Reads from f (not closed by the reader). NULL on out of memory. */
+cc_line_reader *cc_line_reader_create(FILE *f);
+void cc_line_reader_free(cc_line_reader *r);
+
+/* 1 and *out filled, 0 at end of file, -1 on a read error (errno set). */
+int cc_line_reader_next(cc_line_reader *r, cc_line *out);
+
+#endif

@@ -1,0 +1,133 @@
+/* packhouse.c — generator of the invented fruit-grading scenario.
+ *
+ * Each piece of fruit has a true grade drawn from the day's grade mix. The
+ * camera image makes it look like a blurred grade vector a ~ Dirichlet around
+ * the true grade (with leakage to neighbouring grades). Each member sees the
+ * fruit its own way: b_m ~ Dirichlet around the true grade, and answers
+ * p_m ~ Dirichlet(gamma (w a + (1-w) b_m)). Incidents change gamma, w and the
+ * grade mix. Random numbers: GSL's mt19937 and gsl_ran_dirichlet. */
+#include "packhouse.h"
+
+#include <errno.h>
+#include <gsl/gsl_randist.h>
+#include <gsl/gsl_rng.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "date.h"
+
+#define K 6
+#define M 5
+
+static const double base_mix[K] = {0.10, 0.25, 0.30, 0.20, 0.10, 0.05};
+static const double late_mix[K] = {0.03, 0.10, 0.20, 0.30, 0.22, 0.15};
+
+/* Dirichlet parameter centred on grade y with leakage to its neighbours. */
+static void around(double *alpha, int y, double strength, double leak)
+{
+    double sum = 0.0;
+    for (int c = 0; c < K; c++) {
+        int dist = c > y ? c - y : y - c;
+        alpha[c] = dist == 0 ? 1.0 : dist == 1 ? leak : leak * 0.15;
+        sum += alpha[c];
+    }
+    for (int c = 0; c < K; c++)
+        alpha[c] = strength * alpha[c] / sum + 0.02;
+}
+
+static int draw_grade(gsl_rng *r, const double *mix)
+{
+    double u = gsl_rng_uniform(r), acc = 0.0;
+    for (int c = 0; c < K - 1; c++) {
+        acc += mix[c];
+        if (u < acc)
+            return c;
+    }
+    return K - 1;
+}
+
+int cc_demo_generate(const char *events_path, const char *labels_path, const cc_demo_opts *o,
+                     cc_demo_incidents *inc, cc_error *err)
+{
+    FILE *ev = fopen(events_path, "w");
+    if (!ev)
+        return cc_error_set(err, CC_EIO, "%s: %s", events_path, strerror(errno));
+    FILE *lab = fopen(labels_path, "w");
+    if (!lab) {
+        fclose(ev);
+        return cc_error_set(err, CC_EIO, "%s: %s", labels_path, strerror(errno));
+    }
+    gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+    gsl_rng_set(r, (unsigned long)o->seed);
+    static const char *const grade_names[K] = {"premium", "extra",  "class-1",
+                                               "class-2", "juice",  "cull"};
+
+    memset(inc, 0, sizeof *inc);
+    inc->fog_from = 9, inc->fog_to = 11;
+    inc->mix_from = 16, inc->mix_to = o->days;
+    inc->retrain_from = 23, inc->retrain_to = o->days;
+
+    double alpha[K], a[K], b[K], mixed[K], p[M][K];
+    for (int day = 1; day <= o->days; day++) {
+        int fog = day >= inc->fog_from && day <= inc->fog_to;
+        int late = day >= inc->mix_from && day <= inc->mix_to;
+        int copies = day >= inc->retrain_from && day <= inc->retrain_to;
+        int64_t t0 = (o->first_day + day - 1) * 86400;
+        for (int i = 0; i < o->per_day; i++) {
+            int y = draw_grade(r, late ? late_mix : base_mix);
+            around(alpha, y, fog ? 4.0 : 9.0, 0.45);
+            gsl_ran_dirichlet(r, K, alpha, a);
+            for (int m = 0; m < M; m++) {
+                double gamma = 25.0, w = 0.5;
+                if (copies) {
+                    gamma = 600.0;
+                    w = 0.98;
+                } else if (fog) {
+                    gamma = 3.0;
+                    w = 0.3;
+                }
+                around(alpha, y, 8.0, 0.35);
+                gsl_ran_dirichlet(r, K, alpha, b);
+                for (int c = 0; c < K; c++)
+                    mixed[c] = gamma * (w * a[c] + (1.0 - w) * b[c]) + 1e-3;
+                gsl_ran_dirichlet(r, K, mixed, p[m]);
+            }
+            int64_t ts = t0 + (int64_t)((double)i * 86400.0 / o->per_day);
+            int y_, mo, d;
+            cc_civil_from_days(cc_day_of_unix(ts), &y_, &mo, &d);
+            int sec = (int)(ts % 86400);
+            fprintf(ev, "{\"id\":\"d%02d-%05d\",\"ts\":\"%04d-%02d-%02dT%02d:%02d:%02dZ\","
+                        "\"segment\":\"line-%d\",\"probs\":[",
+                    day, i, y_, mo, d, sec / 3600, sec / 60 % 60, sec % 60, 1 + i % 3);
+            for (int m = 0; m < M; m++) {
+                fputc('[', ev);
+                for (int c = 0; c < K; c++)
+                    fprintf(ev, "%s%.5f", c ? "," : "", p[m][c]);
+                fputs(m + 1 < M ? "]," : "]", ev);
+            }
+            fputc(']', ev);
+            double u = gsl_rng_uniform(r);
+            if (u < o->label_share / 2) {
+                fprintf(ev, ",\"label\":%d", y); /* checked at the line at once */
+                inc->inline_labels++;
+            } else if (u < o->label_share) {
+                /* arrives later; every other one by class name */
+                if (i % 2)
+                    fprintf(lab, "{\"id\":\"d%02d-%05d\",\"label\":\"%s\"}\n", day, i,
+                            grade_names[y]);
+                else
+                    fprintf(lab, "{\"id\":\"d%02d-%05d\",\"label\":%d}\n", day, i, y);
+                inc->delayed_labels++;
+            }
+            fputs("}\n", ev);
+            inc->events++;
+        }
+    }
+    gsl_rng_free(r);
+    int bad = ferror(ev) | ferror(lab);
+    bad |= fclose(ev) != 0;
+    bad |= fclose(lab) != 0;
+    if (bad)
+        return cc_error_set(err, CC_EIO, "%s: write failed", events_path);
+    return 0;
+}

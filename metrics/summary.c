@@ -1,0 +1,353 @@
+/* summary.c — layout, arithmetic and per-event contributions of the mergeable
+ * per-day summary (see summary.h for the contract). */
+#include "summary.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "uncertainty.h"
+
+struct cc_summary {
+    cc_layout lay;
+    int64_t *v;
+};
+
+int cc_layout_init(cc_layout *out, int m, int k)
+{
+    if (m < 1 || m > CC_MAX_MEMBERS || k < 2 || k > CC_MAX_CLASSES)
+        return -1;
+    memset(out, 0, sizeof *out);
+    out->m = m;
+    out->k = k;
+    out->pairs = m * (m - 1) / 2;
+    size_t M = (size_t)m, K = (size_t)k, P = (size_t)out->pairs, B = CC_HIST_BINS,
+           C = CC_CALIB_BINS, at = 0;
+#define SECTION(name, count) do { out->name = at; at += (count); } while (0)
+    SECTION(n_events, 1);
+    SECTION(vote_ties, 1);
+    SECTION(pred_counts, K);
+    SECTION(member_pred, M * K);
+    SECTION(pair_table, P * K * K);
+    SECTION(fleiss_sumsq, 1);
+    SECTION(tu_fx, 1);
+    SECTION(au_fx, 1);
+    SECTION(contested, K * K);
+    SECTION(hist_maxprob, B);
+    SECTION(hist_entropy, B);
+    SECTION(hist_mi, B);
+    SECTION(hist_class, K * B);
+    SECTION(n_labeled, 1);
+    SECTION(label_counts, K);
+    SECTION(confusion, K * K);
+    SECTION(member_correct, M);
+    SECTION(ens_correct, 1);
+    SECTION(vote_correct, 1);
+    SECTION(vote_ties_labeled, 1);
+    SECTION(oracle_correct, 1);
+    SECTION(pair_oracle, P * 4);
+    SECTION(n_right_hist, M + 1);
+    SECTION(ens_only, M);
+    SECTION(member_only, M);
+    SECTION(calib, C * 3);
+    SECTION(brier_fx, 1);
+    SECTION(nll_fx, 1);
+    SECTION(member_calib, M * C * 3);
+    SECTION(member_brier_fx, M);
+    SECTION(member_nll_fx, M);
+#undef SECTION
+    out->len = at;
+    return 0;
+}
+
+int cc_pair_index(int m, int i, int j)
+{
+    /* pairs before row i: sum_{r<i} (m-1-r) */
+    return i * (2 * m - i - 1) / 2 + (j - i - 1);
+}
+
+cc_summary *cc_summary_create(int m, int k)
+{
+    cc_summary *s = malloc(sizeof *s);
+    if (!s)
+        return NULL;
+    if (cc_layout_init(&s->lay, m, k) != 0) {
+        free(s);
+        return NULL;
+    }
+    s->v = calloc(s->lay.len, sizeof *s->v);
+    if (!s->v) {
+        free(s);
+        return NULL;
+    }
+    return s;
+}
+
+void cc_summary_free(cc_summary *s)
+{
+    if (!s)
+        return;
+    free(s->v);
+    free(s);
+}
+
+void cc_summary_clear(cc_summary *s) { memset(s->v, 0, s->lay.len * sizeof *s->v); }
+const cc_layout *cc_summary_layout(const cc_summary *s) { return &s->lay; }
+const int64_t *cc_summary_data(const cc_summary *s) { return s->v; }
+int64_t *cc_summary_data_mut(cc_summary *s) { return s->v; }
+
+int cc_summary_merge_signed(cc_summary *dst, const cc_summary *src, int sign)
+{
+    if (dst->lay.m != src->lay.m || dst->lay.k != src->lay.k)
+        return -1;
+    for (size_t i = 0; i < dst->lay.len; i++)
+        dst->v[i] += sign * src->v[i];
+    return 0;
+}
+
+int cc_summary_merge(cc_summary *dst, const cc_summary *src)
+{
+    return cc_summary_merge_signed(dst, src, 1);
+}
+
+int cc_summary_equal(const cc_summary *a, const cc_summary *b)
+{
+    return a->lay.m == b->lay.m && a->lay.k == b->lay.k &&
+           memcmp(a->v, b->v, a->lay.len * sizeof *a->v) == 0;
+}
+
+int cc_argmax_f(const float *x, int n)
+{
+    int best = 0;
+    for (int i = 1; i < n; i++)
+        if (x[i] > x[best])
+            best = i;
+    return best;
+}
+
+int cc_argmax_d(const double *x, int n)
+{
+    int best = 0;
+    for (int i = 1; i < n; i++)
+        if (x[i] > x[best])
+            best = i;
+    return best;
+}
+
+/* Histogram scales. Probabilities: logit(p) clamped to [-16, 16] in
+ * CC_HIST_BINS equal steps (width 0.125 in logit; near p = 0.99 a bin is
+ * about 0.0012 wide). Nats: bin 0 holds [0, 1e-6); bins 1..B-1 split
+ * log10 h over [-6, log10 16] equally. */
+#define LOGIT_LO (-16.0)
+#define LOGIT_HI 16.0
+#define NATS_LO_LOG10 (-6.0)
+#define NATS_HI_LOG10 1.2041199826559248 /* log10(16) */
+
+int cc_hist_bin_prob(double p)
+{
+    double l;
+    if (!(p > 0.0))
+        return 0;
+    if (p >= 1.0)
+        return CC_HIST_BINS - 1;
+    l = log(p) - log1p(-p);
+    int b = (int)floor((l - LOGIT_LO) / (LOGIT_HI - LOGIT_LO) * CC_HIST_BINS);
+    return b < 0 ? 0 : b >= CC_HIST_BINS ? CC_HIST_BINS - 1 : b;
+}
+
+double cc_hist_edge_prob(int b)
+{
+    if (b >= CC_HIST_BINS - 1)
+        return 1.0;
+    double l = LOGIT_LO + (LOGIT_HI - LOGIT_LO) * (b + 1) / CC_HIST_BINS;
+    return 1.0 / (1.0 + exp(-l));
+}
+
+int cc_hist_bin_nats(double h)
+{
+    if (!(h >= 1e-6))
+        return 0;
+    double t = (log10(h) - NATS_LO_LOG10) / (NATS_HI_LOG10 - NATS_LO_LOG10);
+    int b = 1 + (int)floor(t * (CC_HIST_BINS - 1));
+    return b < 1 ? 1 : b >= CC_HIST_BINS ? CC_HIST_BINS - 1 : b;
+}
+
+double cc_hist_edge_nats(int b)
+{
+    if (b <= 0)
+        return 1e-6;
+    if (b >= CC_HIST_BINS - 1)
+        return INFINITY;
+    double t = (double)b / (CC_HIST_BINS - 1);
+    return pow(10.0, NATS_LO_LOG10 + t * (NATS_HI_LOG10 - NATS_LO_LOG10));
+}
+
+static int64_t fx(double x) { return llround(x * CC_FIXED_SCALE); }
+
+/* Plurality vote over member argmaxes, ties to the lowest class. *tie is set
+ * when another class has the same top count. votes: k ints, scratch. */
+static int plurality(const int *member_top, int m, int k, int *votes, int *tie)
+{
+    memset(votes, 0, (size_t)k * sizeof *votes);
+    for (int i = 0; i < m; i++)
+        votes[member_top[i]]++;
+    int best = 0;
+    for (int c = 1; c < k; c++)
+        if (votes[c] > votes[best])
+            best = c;
+    *tie = 0;
+    for (int c = best + 1; c < k; c++)
+        if (votes[c] == votes[best])
+            *tie = 1;
+    return best;
+}
+
+/* Calibration bin of a confidence in (0, 1]: B_b = (b/C, (b+1)/C], so a
+ * value on an edge goes to the lower bin (Guo et al. 2017). */
+static int calib_bin(double conf)
+{
+    int b = (int)ceil(conf * CC_CALIB_BINS) - 1;
+    return b < 0 ? 0 : b >= CC_CALIB_BINS ? CC_CALIB_BINS - 1 : b;
+}
+
+typedef struct event_view {
+    int top[CC_MAX_MEMBERS];
+    double avg[CC_MAX_CLASSES];
+    int ens;
+} event_view;
+
+static void view_event(event_view *e, const float *probs, int m, int k)
+{
+    for (int c = 0; c < k; c++)
+        e->avg[c] = 0.0;
+    for (int i = 0; i < m; i++) {
+        const float *row = probs + (size_t)i * (size_t)k;
+        e->top[i] = cc_argmax_f(row, k);
+        for (int c = 0; c < k; c++)
+            e->avg[c] += row[c];
+    }
+    for (int c = 0; c < k; c++)
+        e->avg[c] /= m;
+    e->ens = cc_argmax_d(e->avg, k);
+}
+
+void cc_summary_add_unlabeled(cc_summary *s, const float *probs, int sign)
+{
+    const cc_layout *L = &s->lay;
+    int64_t *v = s->v;
+    const int m = L->m, k = L->k;
+    event_view e;
+    int votes[CC_MAX_CLASSES], tie;
+
+    view_event(&e, probs, m, k);
+    plurality(e.top, m, k, votes, &tie);
+
+    v[L->n_events] += sign;
+    v[L->vote_ties] += sign * tie;
+    v[L->pred_counts + e.ens] += sign;
+    for (int i = 0; i < m; i++)
+        v[L->member_pred + (size_t)i * k + e.top[i]] += sign;
+    int64_t sumsq = 0;
+    for (int c = 0; c < k; c++)
+        sumsq += (int64_t)votes[c] * votes[c];
+    v[L->fleiss_sumsq] += sign * sumsq;
+
+    int differ = 0;
+    for (int i = 0; i < m; i++)
+        for (int j = i + 1; j < m; j++) {
+            size_t p = (size_t)cc_pair_index(m, i, j);
+            v[L->pair_table + p * k * k + (size_t)e.top[i] * k + e.top[j]] += sign;
+            differ |= e.top[i] != e.top[j];
+        }
+
+    cc_uncertainty u;
+    cc_uncertainty_split(&u, probs, m, k, NULL);
+    v[L->tu_fx] += sign * fx(u.total_nats);
+    v[L->au_fx] += sign * fx(u.expected_nats);
+
+    if (differ) {
+        /* top two of the averaged output, second-best ties to lowest index */
+        int a = e.ens, b = -1;
+        for (int c = 0; c < k; c++)
+            if (c != a && (b < 0 || e.avg[c] > e.avg[b]))
+                b = c;
+        int lo = a < b ? a : b, hi = a < b ? b : a;
+        v[L->contested + (size_t)lo * k + hi] += sign;
+    }
+
+    v[L->hist_maxprob + cc_hist_bin_prob(e.avg[e.ens])] += sign;
+    v[L->hist_entropy + cc_hist_bin_nats(u.total_nats)] += sign;
+    v[L->hist_mi + cc_hist_bin_nats(u.mutual_nats)] += sign;
+    for (int c = 0; c < k; c++)
+        v[L->hist_class + (size_t)c * CC_HIST_BINS + cc_hist_bin_prob(e.avg[c])] += sign;
+}
+
+/* Adds a probability vector's calibration terms to (calib, brier, nll). */
+static void add_calibration(int64_t *calib, int64_t *brier, int64_t *nll, const double *p,
+                            int k, int label, int sign)
+{
+    int top = cc_argmax_d(p, k);
+    int b = calib_bin(p[top]);
+    calib[b * 3 + 0] += sign;
+    calib[b * 3 + 1] += sign * (top == label);
+    calib[b * 3 + 2] += sign * fx(p[top]);
+    double bs = 0.0;
+    for (int c = 0; c < k; c++) {
+        double d = p[c] - (c == label ? 1.0 : 0.0);
+        bs += d * d;
+    }
+    *brier += sign * fx(bs);
+    double py = p[label];
+    if (py < CC_NLL_EPS)
+        py = CC_NLL_EPS;
+    if (py > 1.0 - CC_NLL_EPS)
+        py = 1.0 - CC_NLL_EPS;
+    *nll += sign * fx(-log(py));
+}
+
+void cc_summary_add_labeled(cc_summary *s, const float *probs, int label, int sign)
+{
+    const cc_layout *L = &s->lay;
+    int64_t *v = s->v;
+    const int m = L->m, k = L->k;
+    event_view e;
+    int votes[CC_MAX_CLASSES], tie, right[CC_MAX_MEMBERS], nright = 0;
+
+    if (label < 0 || label >= k)
+        return;
+    view_event(&e, probs, m, k);
+    int vote = plurality(e.top, m, k, votes, &tie);
+    int ens_right = e.ens == label;
+
+    v[L->n_labeled] += sign;
+    v[L->label_counts + label] += sign;
+    v[L->confusion + (size_t)e.ens * k + label] += sign;
+    v[L->ens_correct] += sign * ens_right;
+    v[L->vote_correct] += sign * (vote == label);
+    v[L->vote_ties_labeled] += sign * tie;
+    for (int i = 0; i < m; i++) {
+        right[i] = e.top[i] == label;
+        nright += right[i];
+        v[L->member_correct + i] += sign * right[i];
+        v[L->ens_only + i] += sign * (ens_right && !right[i]);
+        v[L->member_only + i] += sign * (!ens_right && right[i]);
+    }
+    v[L->oracle_correct] += sign * (nright > 0);
+    v[L->n_right_hist + nright] += sign;
+    for (int i = 0; i < m; i++)
+        for (int j = i + 1; j < m; j++) {
+            size_t p = (size_t)cc_pair_index(m, i, j);
+            int cell = right[i] ? (right[j] ? 0 : 1) : (right[j] ? 2 : 3);
+            v[L->pair_oracle + p * 4 + cell] += sign;
+        }
+
+    add_calibration(v + L->calib, v + L->brier_fx, v + L->nll_fx, e.avg, k, label, sign);
+    double row[CC_MAX_CLASSES];
+    for (int i = 0; i < m; i++) {
+        for (int c = 0; c < k; c++)
+            row[c] = probs[(size_t)i * k + c];
+        add_calibration(v + L->member_calib + (size_t)i * CC_CALIB_BINS * 3,
+                        v + L->member_brier_fx + i, v + L->member_nll_fx + i, row, k, label,
+                        sign);
+    }
+}

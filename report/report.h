@@ -1,0 +1,46 @@
+/* report.h — windows of days read from stored summaries, their metrics, and
+ * the two renderings: the JSON contract (other tools read it; fields are
+ * only ever added) and a text table for people. Reads summaries, never rows. */
+#ifndef CC_REPORT_REPORT_H
+#define CC_REPORT_REPORT_H
+
+#include <stdint.h>
+
+#include "error.h"
+#include "store.h"
+#include "window.h"
+
+typedef enum cc_grouping { CC_BY_DAY, CC_BY_WEEK, CC_BY_ALL } cc_grouping;
+
+typedef struct cc_report_opts {
+    const char *model;
+    int has_from, has_to;
+    int64_t from, to;           /* UTC day numbers, inclusive */
+    cc_grouping by;
+} cc_report_opts;
+
+typedef struct cc_report_window {
+    int64_t from, to;           /* days */
+    cc_summary *summary;
+    cc_window_metrics metrics;
+} cc_report_window;
+
+typedef struct cc_report {
+    cc_model *model;
+    int has_baseline;
+    int64_t baseline_from, baseline_to, baseline_events;
+    cc_report_window *windows;
+    int n_windows;
+} cc_report;
+
+/* Builds the report; *out is NULL on error. An unknown model is
+ * -CC_ENOTFOUND. A range without events yields zero windows, not an error. */
+int cc_report_build(cc_report **out, cc_store *store, const cc_report_opts *opts,
+                    cc_error *err);
+void cc_report_free(cc_report *r);
+
+/* Renderings; malloc'd NUL-terminated text, NULL on out of memory. */
+char *cc_report_json(const cc_report *r);
+char *cc_report_text(const cc_report *r);
+
+#endif

@@ -1,0 +1,180 @@
+/* report_text.c — the report for people: one row per window with the
+ * headline figures, the class mix per window, and, for a single window, the
+ * pair matrices, member accuracies and contested pairs. "-" = undefined. */
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "date.h"
+#include "report.h"
+
+static void fnum(FILE *f, int width, int prec, double x)
+{
+    if (isfinite(x))
+        fprintf(f, " %*.*f", width, prec, x);
+    else
+        fprintf(f, " %*s", width, "-");
+}
+
+static void window_label(FILE *f, const cc_report_window *w)
+{
+    char a[11], b[11];
+    cc_format_date(w->from, a);
+    cc_format_date(w->to, b);
+    if (w->from == w->to)
+        fprintf(f, "%-23s", a);
+    else
+        fprintf(f, "%s..%s", a, b + 5);
+}
+
+static void headline(FILE *f, const cc_report *r)
+{
+    const cc_model *m = r->model;
+    fprintf(f, "%-23s %7s %7s %8s %6s %6s %7s %7s %6s %6s %6s %6s  %s\n", "window", "events",
+            "labeled", "disagree", "kappa", "fleiss", "entropy", "mutual", "ens", "best", "vote",
+            "oracle", "top contested pair");
+    fprintf(f, "%-23s %7s %7s %8s %6s %6s %7s %7s %6s %6s %6s %6s\n", "", "", "", "(mean)",
+            "(mean)", "", "(nats)", "(nats)", "acc", "acc", "acc", "acc");
+    for (int i = 0; i < r->n_windows; i++) {
+        const cc_report_window *w = &r->windows[i];
+        const cc_window_metrics *x = &w->metrics;
+        window_label(f, w);
+        fprintf(f, " %7lld %7lld", (long long)x->events, (long long)x->labeled);
+        fnum(f, 8, 3, x->disagreement.mean);
+        fnum(f, 6, 3, x->kappa.mean);
+        fnum(f, 6, 3, x->fleiss_kappa);
+        fnum(f, 7, 3, x->entropy);
+        fnum(f, 7, 3, x->mutual_information);
+        if (x->has_labels) {
+            fnum(f, 6, 3, x->ensemble_accuracy);
+            fnum(f, 6, 3, x->best_member >= 0 ? x->member_accuracy[x->best_member] : NAN);
+            fnum(f, 6, 3, x->vote_accuracy);
+            fnum(f, 6, 3, x->oracle_accuracy);
+        } else {
+            fprintf(f, " %6s %6s %6s %6s", "-", "-", "-", "-");
+        }
+        if (x->n_contested > 0)
+            fprintf(f, "  %s/%s (%lld)", m->classes[x->contested[0].a],
+                    m->classes[x->contested[0].b], (long long)x->contested[0].count);
+        fputc('\n', f);
+    }
+}
+
+static void class_mix(FILE *f, const cc_report *r, int labels)
+{
+    const cc_model *m = r->model;
+    fprintf(f, "\n%s\n", labels ? "label mix (% of labelled events)"
+                                 : "class mix of the ensemble's predictions (% of events)");
+    fprintf(f, "%-23s", "window");
+    for (int c = 0; c < m->k; c++)
+        fprintf(f, " %7.7s", m->classes[c]);
+    fputc('\n', f);
+    for (int i = 0; i < r->n_windows; i++) {
+        const cc_report_window *w = &r->windows[i];
+        const cc_layout *lay = cc_summary_layout(w->summary);
+        const int64_t *v = cc_summary_data(w->summary);
+        const int64_t *cnt = v + (labels ? lay->label_counts : lay->pred_counts);
+        int64_t n = labels ? v[lay->n_labeled] : v[lay->n_events];
+        window_label(f, w);
+        for (int c = 0; c < m->k; c++)
+            fnum(f, 7, 1, n > 0 ? 100.0 * (double)cnt[c] / (double)n : NAN);
+        fputc('\n', f);
+    }
+}
+
+static void matrix(FILE *f, const char *title, const cc_pair_matrix *pm, const cc_model *m)
+{
+    fprintf(f, "\n%s (mean ", title);
+    if (isfinite(pm->mean))
+        fprintf(f, "%.3f over %d pairs)\n", pm->mean, pm->defined_pairs);
+    else
+        fprintf(f, "undefined)\n");
+    fprintf(f, "%8s", "");
+    for (int j = 0; j < m->m; j++)
+        fprintf(f, " %7.7s", m->members[j]);
+    fputc('\n', f);
+    for (int i = 0; i < m->m; i++) {
+        fprintf(f, "%8.8s", m->members[i]);
+        for (int j = 0; j < m->m; j++)
+            fnum(f, 7, 3, pm->pairs && i != j ? pm->pairs[i * m->m + j] : NAN);
+        fputc('\n', f);
+    }
+}
+
+static void detail(FILE *f, const cc_report *r, const cc_report_window *w)
+{
+    const cc_model *m = r->model;
+    const cc_window_metrics *x = &w->metrics;
+    fprintf(f, "\ndetail of ");
+    window_label(f, w);
+    fputc('\n', f);
+    if (m->m > 1) {
+        matrix(f, "disagreement of predicted classes", &x->disagreement, m);
+        matrix(f, "Cohen's kappa", &x->kappa, m);
+    }
+    if (x->has_labels) {
+        if (m->m > 1) {
+            matrix(f, "Yule's Q on right/wrong", &x->q, m);
+            matrix(f, "double fault", &x->double_fault, m);
+        }
+        fprintf(f, "\naccuracy on %lld labelled events\n", (long long)x->labeled);
+        for (int i = 0; i < m->m; i++)
+            fprintf(f, "  %-10s %.4f%s\n", m->members[i], x->member_accuracy[i],
+                    i == x->best_member ? "  (best member)" : "");
+        fprintf(f, "  %-10s %.4f\n  %-10s %.4f  (%lld ties broken to the lowest class)\n"
+                   "  %-10s %.4f  (any member right)\n",
+                "ensemble", x->ensemble_accuracy, "vote", x->vote_accuracy,
+                (long long)x->vote_ties_labeled, "oracle", x->oracle_accuracy);
+        fprintf(f, "  McNemar, ensemble vs %s: ensemble only right %lld, member only right "
+                   "%lld, exact p = ",
+                m->members[x->best_member], (long long)x->mcnemar_ensemble_only,
+                (long long)x->mcnemar_best_only);
+        fprintf(f, isfinite(x->mcnemar_p) ? "%.4g\n" : "-\n", x->mcnemar_p);
+        fprintf(f, "  KW variance %.4f, entropy E %.4f, interrater kappa %.4f, difficulty "
+                   "%.4f, generalized diversity %.4f\n",
+                x->nonpairwise.kw_variance, x->nonpairwise.entropy_e,
+                x->nonpairwise.interrater_kappa, x->nonpairwise.difficulty,
+                x->nonpairwise.generalized_diversity);
+    }
+    if (x->n_contested > 0) {
+        fprintf(f, "\ncontested class pairs (members' top classes differ; averaged top two)\n");
+        for (int i = 0; i < x->n_contested && i < 10; i++)
+            fprintf(f, "  %-12s %-12s %lld\n", m->classes[x->contested[i].a],
+                    m->classes[x->contested[i].b], (long long)x->contested[i].count);
+    }
+}
+
+char *cc_report_text(const cc_report *r)
+{
+    char *buf = NULL;
+    size_t len = 0;
+    FILE *f = open_memstream(&buf, &len);
+    if (!f)
+        return NULL;
+    const cc_model *m = r->model;
+    fprintf(f, "model %s: %d members, %d classes\n", m->name, m->m, m->k);
+    if (r->has_baseline) {
+        char a[11], b[11];
+        cc_format_date(r->baseline_from, a);
+        cc_format_date(r->baseline_to, b);
+        fprintf(f, "baseline %s..%s, %lld events\n", a, b, (long long)r->baseline_events);
+    } else {
+        fprintf(f, "no baseline set\n");
+    }
+    if (r->n_windows == 0) {
+        fprintf(f, "no events in the requested range\n");
+    } else {
+        fputc('\n', f);
+        headline(f, r);
+        class_mix(f, r, 0);
+        class_mix(f, r, 1);
+        if (r->n_windows == 1)
+            detail(f, r, &r->windows[0]);
+    }
+    if (fclose(f) != 0) {
+        free(buf);
+        return NULL;
+    }
+    return buf;
+}
