@@ -661,24 +661,27 @@ static void scenario_unlabeled(check_log *log)
 
 static void scenario_contested(check_log *log)
 {
-    /* contested counts (1,2): 3, (0,1): 2, (0,2): 2, and ties broken by a, b */
-    events ev = {.m = 2, .k = 3, .n = 0};
-    static const int want[3][2] = {{1, 2}, {0, 1}, {0, 2}};
-    static const int times[3] = {3, 2, 2};
-    for (int t = 2; t >= 0; t--)
+    /* contested counts (2,3): 3, then three pairs with count 2 whose order
+     * depends on a, then b: (0,1), (0,3), (1,2). */
+    events ev = {.m = 2, .k = 4, .n = 0};
+    static const int want[4][2] = {{2, 3}, {0, 1}, {0, 3}, {1, 2}};
+    static const int times[4] = {3, 2, 2, 2};
+    for (int t = 3; t >= 0; t--)
         for (int r = 0; r < times[t]; r++) {
-            int a = want[t][0], b = want[t][1], o = 3 - a - b;
-            float p[6];
-            p[a] = 0.7f, p[b] = 0.2f, p[o] = 0.1f;
-            p[3 + b] = 0.6f, p[3 + a] = 0.3f, p[3 + o] = 0.1f;
-            add_event(&ev, p, r % 3);
+            int a = want[t][0], b = want[t][1];
+            float p[8];
+            for (int c = 0; c < 8; c++)
+                p[c] = 0.05f;
+            p[a] = 0.7f, p[b] = 0.2f;
+            p[4 + b] = 0.6f, p[4 + a] = 0.3f;
+            add_event(&ev, p, r % 4);
         }
     cc_window_metrics w;
     cc_summary *s;
     if (run(log, "contested", &ev, &w, &s) != 0)
         return;
-    if (check_int(log, "contested n", w.n_contested, 3, "constructed"))
-        for (int t = 0; t < 3; t++) {
+    if (check_int(log, "contested n", w.n_contested, 4, "constructed"))
+        for (int t = 0; t < 4; t++) {
             char name[80];
             snprintf(name, sizeof name, "contested[%d] = (%d,%d)", t, want[t][0], want[t][1]);
             check_int(log, name, w.contested[t].a * 10 + w.contested[t].b,

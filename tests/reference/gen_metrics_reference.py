@@ -199,7 +199,7 @@ def mcnemar_cases(rng):
             mid = 1.0 - 0.5 * point
         else:
             mid = 2.0 * scipy_stats.binom.cdf(k, n, 0.5) - point
-        cases.append({
+        case = {
             "inputs": {"b": b, "c": c},
             "expected": {
                 "exact_p": num(exact.pvalue),
@@ -214,7 +214,13 @@ def mcnemar_cases(rng):
                 "mid_p": "scipy.stats.binom: 2 cdf(min) - pmf(min); b = c: 1 - pmf/2 "
                          "(Fagerland et al. 2013)",
             },
-        })
+        }
+        if b + c > 2**32:
+            # Binomial tails evaluated in double precision (scipy/Boost, GSL)
+            # agree only to about 1e-5 relative at n ~ 5e9: lgamma of n
+            # carries an absolute error of order n * machine epsilon.
+            case["rel_tol"] = 1e-4
+        cases.append(case)
     return cases
 
 
