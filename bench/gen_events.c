@@ -1,7 +1,6 @@
 /* gen_events.c — concord-gen: writes synthetic ensemble prediction events as
  * JSON Lines, for benchmarks and for trying concord on a realistic volume. */
 #include <errno.h>
-#include <inttypes.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>

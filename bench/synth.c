@@ -199,7 +199,7 @@ int synth_write(FILE *out, const synth_opts *o)
 
         int truth = rng_below(&r, k);
         int rival = (truth + 1 + rng_below(&r, k - 1)) % k;
-        double margin = 0.5 + 3.5 * rng_unit(&r), pull = 1.5 * rng_unit(&r);
+        double margin = 1.0 + 3.5 * rng_unit(&r), pull = 1.5 * rng_unit(&r);
         for (int c = 0; c < k; c++)
             shared[c] = 0.8 * rng_bell(&r);
         shared[truth] += margin;

@@ -1,0 +1,623 @@
+/* bench_ingest.c — concord-bench: how fast events are parsed and ingested,
+ * how long a report over the stored day summaries takes, and how much memory
+ * each of those phases needs. Every phase runs in its own forked child so the
+ * peak RSS that wait4() reports belongs to that phase alone. */
+#define _DEFAULT_SOURCE /* wait4, struct rusage on glibc */
+
+#include <errno.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/resource.h>
+#include <sys/stat.h>
+#include <sys/time.h>
+#include <sys/types.h>
+#include <sys/wait.h>
+#include <time.h>
+#include <unistd.h>
+
+#include "error.h"
+#include "event_parse.h"
+#include "ingest.h"
+#include "line_reader.h"
+#include "report.h"
+#include "store.h"
+#include "summary.h"
+#include "synth.h"
+
+#define MAX_REPS 1000
+#define PATH_CAP 4096
+
+typedef struct bench {
+    synth_opts synth;
+    const char *input;  /* NULL: generate */
+    const char *parent; /* where the temporary directory goes */
+    int keep, reps, batch;
+    char dir[PATH_CAP - 64], events[PATH_CAP], db[PATH_CAP];
+} bench;
+
+/* What a child sends back through its pipe. */
+typedef struct phase_out {
+    int failed;
+    char msg[512];
+    int64_t items; /* events generated / parsed / stored */
+    int64_t rejected, duplicates;
+    int m, k;
+    double wall; /* seconds of the measured section */
+    int reps;
+    double rep_ms[MAX_REPS];
+    int windows;
+    int64_t report_events;
+    size_t json_bytes;
+} phase_out;
+
+typedef struct phase_result {
+    phase_out out;
+    int ran;
+    double cpu; /* user + system seconds of the whole child */
+    long maxrss_kib;
+} phase_result;
+
+typedef void (*phase_fn)(const bench *b, phase_out *out, int arg);
+
+static double now(void)
+{
+    struct timespec t;
+    clock_gettime(CLOCK_MONOTONIC, &t);
+    return (double)t.tv_sec + (double)t.tv_nsec * 1e-9;
+}
+
+static void note(phase_out *out, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+static void note(phase_out *out, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(out->msg, sizeof out->msg, fmt, ap);
+    va_end(ap);
+}
+
+#define fail(out, ...) ((out)->failed = 1, note((out), __VA_ARGS__))
+
+static void phase_idle(const bench *b, phase_out *out, int arg)
+{
+    (void)b;
+    (void)out;
+    (void)arg;
+}
+
+static void phase_generate(const bench *b, phase_out *out, int arg)
+{
+    (void)arg;
+    double t0 = now();
+    FILE *f = fopen(b->events, "wb");
+    if (!f) {
+        fail(out, "%s: %s", b->events, strerror(errno));
+        return;
+    }
+    int rc = synth_write(f, &b->synth);
+    if (fclose(f) != 0)
+        rc = -1;
+    out->wall = now() - t0;
+    if (rc) {
+        fail(out, "writing %s: %s", b->events, strerror(errno));
+        return;
+    }
+    out->items = b->synth.n;
+    out->m = b->synth.members;
+    out->k = b->synth.classes;
+}
+
+static void phase_parse(const bench *b, phase_out *out, int arg)
+{
+    (void)arg;
+    double t0 = now();
+    FILE *f = fopen(b->events, "rb");
+    cc_line_reader *r = f ? cc_line_reader_create(f) : NULL;
+    cc_parser *p = cc_parser_create();
+    if (!f || !r || !p) {
+        fail(out, "%s: %s", b->events,
+                 f ? "out of memory" : strerror(errno));
+    }
+    cc_line ln;
+    cc_event ev;
+    char why[256];
+    int got = 0;
+    while (!out->failed && (got = cc_line_reader_next(r, &ln)) > 0) {
+        if (ln.too_long) {
+            out->rejected++;
+            continue;
+        }
+        size_t i = 0;
+        while (i < ln.len && (ln.text[i] == ' ' || ln.text[i] == '\t' || ln.text[i] == '\r'))
+            i++;
+        if (i == ln.len)
+            continue;
+        if (cc_parse_event(p, ln.text, ln.len, &ev, why, sizeof why) != 0) {
+            if (out->rejected++ == 0)
+                note(out, "line %lld: %s", (long long)ln.number, why);
+            continue;
+        }
+        if (out->items++ == 0) {
+            out->m = ev.m;
+            out->k = ev.k;
+        }
+    }
+    if (got < 0) {
+        fail(out, "reading %s: %s", b->events, strerror(errno));
+    }
+    cc_parser_free(p);
+    cc_line_reader_free(r);
+    if (f)
+        fclose(f);
+    out->wall = now() - t0;
+}
+
+static void remove_db(const bench *b)
+{
+    static const char *const suffix[] = {"", "-wal", "-shm", "-journal"};
+    char path[PATH_CAP + 16];
+    for (size_t i = 0; i < sizeof suffix / sizeof *suffix; i++) {
+        snprintf(path, sizeof path, "%s%s", b->db, suffix[i]);
+        unlink(path);
+    }
+}
+
+static void phase_ingest(const bench *b, phase_out *out, int arg)
+{
+    (void)arg;
+    remove_db(b);
+    cc_error err = CC_ERROR_INIT;
+    cc_store *s = NULL;
+    cc_ingest *ing = NULL;
+    cc_ingest_opts opts = CC_INGEST_OPTS_INIT;
+    if (b->batch > 0)
+        opts.batch = b->batch;
+
+    double t0 = now();
+    int rc = cc_store_open(&s, b->db, 1, &err);
+    if (!rc)
+        rc = cc_ingest_create(&ing, s, &opts, &err);
+    if (!rc)
+        rc = cc_ingest_file(ing, b->events, CC_RECORD_EVENTS, &err);
+    if (!rc)
+        rc = cc_ingest_finish(ing, &err);
+    if (ing) {
+        const cc_ingest_stats *st = cc_ingest_get_stats(ing);
+        out->items = st->accepted;
+        out->rejected = st->rejected;
+        out->duplicates = st->duplicates;
+    }
+    cc_ingest_free(ing);
+    cc_store_close(s);
+    out->wall = now() - t0;
+    if (rc) {
+        fail(out, "%s", err.msg);
+    }
+}
+
+static void phase_report(const bench *b, phase_out *out, int by)
+{
+    cc_error err = CC_ERROR_INIT;
+    cc_store *s = NULL;
+    if (cc_store_open(&s, b->db, 0, &err)) {
+        fail(out, "%s", err.msg);
+        return;
+    }
+    cc_report_opts ro = {"default", 0, 0, 0, 0, (cc_grouping)by};
+    double start = now();
+    for (int i = 0; i < b->reps; i++) {
+        double t0 = now();
+        cc_report *r = NULL;
+        char *json = NULL;
+        if (cc_report_build(&r, s, &ro, &err) || !(json = cc_report_json(r))) {
+            fail(out, "%s", r ? "cc_report_json: out of memory"
+                                                         : err.msg);
+            cc_report_free(r);
+            break;
+        }
+        out->rep_ms[out->reps++] = (now() - t0) * 1e3;
+        if (i == 0) {
+            out->windows = r->n_windows;
+            out->m = r->model->m;
+            out->k = r->model->k;
+            out->json_bytes = strlen(json);
+            for (int w = 0; w < r->n_windows; w++) {
+                const cc_summary *sum = r->windows[w].summary;
+                out->report_events += cc_summary_data(sum)[cc_summary_layout(sum)->n_events];
+            }
+        }
+        free(json);
+        cc_report_free(r);
+    }
+    out->wall = now() - start;
+    out->items = out->report_events;
+    cc_store_close(s);
+}
+
+static int write_all(int fd, const void *data, size_t n)
+{
+    const char *p = data;
+    while (n) {
+        ssize_t w = write(fd, p, n);
+        if (w < 0 && errno == EINTR)
+            continue;
+        if (w <= 0)
+            return -1;
+        p += w;
+        n -= (size_t)w;
+    }
+    return 0;
+}
+
+static size_t read_all(int fd, void *data, size_t n)
+{
+    char *p = data;
+    size_t got = 0;
+    while (got < n) {
+        ssize_t r = read(fd, p + got, n - got);
+        if (r < 0 && errno == EINTR)
+            continue;
+        if (r <= 0)
+            break;
+        got += (size_t)r;
+    }
+    return got;
+}
+
+static void run_phase(const bench *b, phase_fn fn, int arg, phase_result *res)
+{
+    static phase_out child_out;
+    memset(res, 0, sizeof *res);
+    res->ran = 1;
+    int fds[2];
+    if (pipe(fds) != 0) {
+        res->out.failed = 1;
+        snprintf(res->out.msg, sizeof res->out.msg, "pipe: %s", strerror(errno));
+        return;
+    }
+    fflush(stdout);
+    fflush(stderr);
+    pid_t pid = fork();
+    if (pid < 0) {
+        res->out.failed = 1;
+        snprintf(res->out.msg, sizeof res->out.msg, "fork: %s", strerror(errno));
+        close(fds[0]);
+        close(fds[1]);
+        return;
+    }
+    if (pid == 0) {
+        close(fds[0]);
+        memset(&child_out, 0, sizeof child_out);
+        fn(b, &child_out, arg);
+        _exit(write_all(fds[1], &child_out, sizeof child_out) ? 1 : 0);
+    }
+    close(fds[1]);
+    size_t got = read_all(fds[0], &res->out, sizeof res->out);
+    close(fds[0]);
+    int status = 0;
+    struct rusage ru;
+    memset(&ru, 0, sizeof ru);
+    while (wait4(pid, &status, 0, &ru) < 0 && errno == EINTR)
+        ;
+    res->cpu = (double)ru.ru_utime.tv_sec + (double)ru.ru_utime.tv_usec * 1e-6 +
+               (double)ru.ru_stime.tv_sec + (double)ru.ru_stime.tv_usec * 1e-6;
+    res->maxrss_kib = ru.ru_maxrss;
+    if (got != sizeof res->out || !WIFEXITED(status) || WEXITSTATUS(status) != 0) {
+        res->out.failed = 1;
+        if (WIFSIGNALED(status))
+            snprintf(res->out.msg, sizeof res->out.msg, "child killed by signal %d",
+                     WTERMSIG(status));
+        else if (got != sizeof res->out)
+            snprintf(res->out.msg, sizeof res->out.msg, "child sent no result");
+    }
+}
+
+static int cmp_double(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+    return (x > y) - (x < y);
+}
+
+/* Median and minimum of the repetitions (sorts a copy). */
+static void rep_stats(const phase_out *o, double *median, double *min)
+{
+    double v[MAX_REPS];
+    int n = o->reps;
+    memcpy(v, o->rep_ms, (size_t)n * sizeof *v);
+    qsort(v, (size_t)n, sizeof *v, cmp_double);
+    *min = n ? v[0] : 0.0;
+    *median = n == 0 ? 0.0 : n % 2 ? v[n / 2] : 0.5 * (v[n / 2 - 1] + v[n / 2]);
+}
+
+/* 1234567 -> "1,234,567" */
+static const char *grouped(char *buf, size_t cap, double value)
+{
+    char digits[32];
+    snprintf(digits, sizeof digits, "%.0f", value < 0 ? 0.0 : value);
+    size_t n = strlen(digits), j = 0;
+    for (size_t i = 0; i < n && j + 2 < cap; i++) {
+        if (i && (n - i) % 3 == 0)
+            buf[j++] = ',';
+        buf[j++] = digits[i];
+    }
+    buf[j] = '\0';
+    return buf;
+}
+
+static double file_mib(const char *path)
+{
+    struct stat st;
+    return stat(path, &st) == 0 ? (double)st.st_size / 1048576.0 : 0.0;
+}
+
+static double db_mib(const bench *b)
+{
+    char wal[PATH_CAP + 8];
+    snprintf(wal, sizeof wal, "%s-wal", b->db);
+    return file_mib(b->db) + file_mib(wal);
+}
+
+static void print_row(const char *name, const phase_result *r, int rate)
+{
+    char rate_txt[32] = "-", wall[16], cpu[16], rss[16];
+    if (!r->ran) {
+        printf("  %-28s %9s %9s %13s %12s\n", name, "-", "-", "-", "(skipped)");
+        return;
+    }
+    if (rate && r->out.wall > 0)
+        grouped(rate_txt, sizeof rate_txt, (double)r->out.items / r->out.wall);
+    snprintf(wall, sizeof wall, "%.3f", r->out.wall);
+    snprintf(cpu, sizeof cpu, "%.3f", r->cpu);
+    snprintf(rss, sizeof rss, "%.1f", (double)r->maxrss_kib / 1024.0);
+    printf("  %-28s %9s %9s %13s %12s\n", name, wall, cpu, rate_txt, rss);
+}
+
+static void usage(FILE *f)
+{
+    fputs("usage: concord-bench [options]\n"
+          "\n"
+          "Measures, each phase in its own child process:\n"
+          "  generate   write N synthetic events (skipped with --input)\n"
+          "  parse      line reader + cc_parse_event over the file, nothing stored\n"
+          "  ingest     fresh database: cc_store_open, cc_ingest_create/_file/_finish\n"
+          "  report     cc_report_build + cc_report_json over every stored day,\n"
+          "             by day and as one window, repeated --reps times\n"
+          "and prints wall time, CPU time, events/s and peak RSS per phase.\n"
+          "\n"
+          "options:\n"
+          "  --n N              events to generate (default 1000000)\n"
+          "  --members M        members (default 5)\n"
+          "  --classes K        classes (default 10)\n"
+          "  --days D           days the events spread over (default 28)\n"
+          "  --seed S           generator seed (default 1)\n"
+          "  --label-share F    fraction of events with a label (default 0.3)\n"
+          "  --input FILE       use this JSON Lines file instead of generating one\n"
+          "  --reps R           report repetitions, 1..1000 (default 20)\n"
+          "  --batch B          lines per ingest transaction (default: the library's)\n"
+          "  --dir DIR          where to create the temporary directory\n"
+          "                     (default $TMPDIR or /tmp)\n"
+          "  --keep             keep the temporary directory (events file, database)\n"
+          "  -h, --help         show this text\n",
+          f);
+}
+
+static int parse_i64(const char *s, int64_t *out)
+{
+    char *end;
+    errno = 0;
+    long long v = strtoll(s, &end, 10);
+    if (errno || end == s || *end)
+        return -1;
+    *out = v;
+    return 0;
+}
+
+static int parse_int(const char *s, int *out)
+{
+    int64_t v;
+    if (parse_i64(s, &v) || v < -1000000000 || v > 1000000000)
+        return -1;
+    *out = (int)v;
+    return 0;
+}
+
+static int parse_args(int argc, char **argv, bench *b)
+{
+    for (int i = 1; i < argc; i++) {
+        const char *a = argv[i];
+        if (!strcmp(a, "-h") || !strcmp(a, "--help")) {
+            usage(stdout);
+            exit(0);
+        }
+        if (!strcmp(a, "--keep")) {
+            b->keep = 1;
+            continue;
+        }
+        static const char *const valued[] = {"--n",    "--members", "--classes",
+                                             "--days", "--seed",    "--label-share",
+                                             "--input", "--reps",   "--batch",
+                                             "--dir"};
+        int known = 0;
+        for (size_t j = 0; j < sizeof valued / sizeof *valued; j++)
+            known |= !strcmp(a, valued[j]);
+        if (!known) {
+            fprintf(stderr, "concord-bench: unknown option '%s' (see --help)\n", a);
+            return -1;
+        }
+        if (i + 1 >= argc) {
+            fprintf(stderr, "concord-bench: %s needs a value\n", a);
+            return -1;
+        }
+        const char *v = argv[++i];
+        int bad = 0;
+        int64_t seed;
+        char *end;
+        if (!strcmp(a, "--n"))
+            bad = parse_i64(v, &b->synth.n) || b->synth.n < 1;
+        else if (!strcmp(a, "--members"))
+            bad = parse_int(v, &b->synth.members);
+        else if (!strcmp(a, "--classes"))
+            bad = parse_int(v, &b->synth.classes);
+        else if (!strcmp(a, "--days"))
+            bad = parse_int(v, &b->synth.days);
+        else if (!strcmp(a, "--seed")) {
+            bad = parse_i64(v, &seed) || seed < 0;
+            b->synth.seed = (uint64_t)seed;
+        } else if (!strcmp(a, "--label-share")) {
+            errno = 0;
+            b->synth.label_share = strtod(v, &end);
+            bad = errno || end == v || *end;
+        } else if (!strcmp(a, "--input"))
+            b->input = v;
+        else if (!strcmp(a, "--reps"))
+            bad = parse_int(v, &b->reps) || b->reps < 1 || b->reps > MAX_REPS;
+        else if (!strcmp(a, "--batch"))
+            bad = parse_int(v, &b->batch) || b->batch < 1;
+        else
+            b->parent = v;
+        if (bad) {
+            fprintf(stderr, "concord-bench: %s: bad value '%s'\n", a, v);
+            return -1;
+        }
+    }
+    const char *problem = synth_check(&b->synth);
+    if (problem) {
+        fprintf(stderr, "concord-bench: %s\n", problem);
+        return -1;
+    }
+    return 0;
+}
+
+static int report_failure(const char *phase, const phase_result *r)
+{
+    if (!r->ran || !r->out.failed)
+        return 0;
+    fprintf(stderr, "concord-bench: %s failed: %s\n", phase, r->out.msg);
+    return 1;
+}
+
+int main(int argc, char **argv)
+{
+    static bench b;
+    synth_defaults(&b.synth);
+    b.reps = 20;
+    const char *tmpdir = getenv("TMPDIR");
+    b.parent = tmpdir && *tmpdir ? tmpdir : "/tmp";
+    if (parse_args(argc, argv, &b))
+        return 2;
+
+    if (snprintf(b.dir, sizeof b.dir, "%s/concord-bench.XXXXXX", b.parent) >=
+            (int)sizeof b.dir ||
+        !mkdtemp(b.dir)) {
+        fprintf(stderr, "concord-bench: cannot create a directory in %s: %s\n", b.parent,
+                strerror(errno));
+        return 1;
+    }
+    snprintf(b.db, sizeof b.db, "%s/bench.db", b.dir);
+    if (b.input)
+        snprintf(b.events, sizeof b.events, "%s", b.input);
+    else
+        snprintf(b.events, sizeof b.events, "%s/events.jsonl", b.dir);
+
+    static phase_result idle, gen, parse, ingest, by_day, by_all;
+    int failed = 0;
+    run_phase(&b, phase_idle, 0, &idle);
+    if (!b.input) {
+        run_phase(&b, phase_generate, 0, &gen);
+        failed |= report_failure("generate", &gen);
+    }
+    if (!failed) {
+        run_phase(&b, phase_parse, 0, &parse);
+        failed |= report_failure("parse", &parse);
+    }
+    if (!failed) {
+        run_phase(&b, phase_ingest, 0, &ingest);
+        failed |= report_failure("ingest", &ingest);
+    }
+    if (!failed) {
+        run_phase(&b, phase_report, CC_BY_DAY, &by_day);
+        failed |= report_failure("report by day", &by_day);
+    }
+    if (!failed) {
+        run_phase(&b, phase_report, CC_BY_ALL, &by_all);
+        failed |= report_failure("report all", &by_all);
+    }
+
+    if (!failed) {
+        char n_txt[32], g1[32], g2[32];
+        int64_t lines = parse.out.items + parse.out.rejected;
+        printf("concord-bench: N = %s events, M = %d members, K = %d classes",
+               grouped(n_txt, sizeof n_txt, (double)lines), parse.out.m, parse.out.k);
+        if (b.input)
+            printf(" (from %s)\n", b.input);
+        else
+            printf(", %d days, label share %.2f, seed %llu\n", b.synth.days,
+                   b.synth.label_share, (unsigned long long)b.synth.seed);
+        printf("events file %.1f MiB, database %.1f MiB; each phase in its own child process\n\n",
+               file_mib(b.events), db_mib(&b));
+        printf("  %-28s %9s %9s %13s %12s\n", "phase", "wall s", "CPU s", "events/s",
+               "peak RSS MiB");
+        printf("  %-28s %9s %9s %13s %12s\n", "----------------------------", "---------",
+               "---------", "-------------", "------------");
+        print_row("idle child (floor)", &idle, 0);
+        if (!b.input)
+            print_row("generate", &gen, 1);
+        print_row("parse only", &parse, 1);
+        print_row("ingest end to end", &ingest, 1);
+        char label[64];
+        snprintf(label, sizeof label, "report by day x%d", b.reps);
+        print_row(label, &by_day, 0);
+        snprintf(label, sizeof label, "report all x%d", b.reps);
+        print_row(label, &by_all, 0);
+
+        double med_day, min_day, med_all, min_all;
+        rep_stats(&by_day.out, &med_day, &min_day);
+        rep_stats(&by_all.out, &med_all, &min_all);
+        printf("\n  report (cc_report_build + cc_report_json), %d runs each:\n", b.reps);
+        printf("    by day: median %8.2f ms  min %8.2f ms  first %8.2f ms  %d windows, "
+               "%s events, JSON %.1f KiB\n",
+               med_day, min_day, by_day.out.rep_ms[0], by_day.out.windows,
+               grouped(g1, sizeof g1, (double)by_day.out.report_events),
+               (double)by_day.out.json_bytes / 1024.0);
+        printf("    all:    median %8.2f ms  min %8.2f ms  first %8.2f ms  %d window,  "
+               "%s events, JSON %.1f KiB\n",
+               med_all, min_all, by_all.out.rep_ms[0], by_all.out.windows,
+               grouped(g2, sizeof g2, (double)by_all.out.report_events),
+               (double)by_all.out.json_bytes / 1024.0);
+
+        double parse_rate = parse.out.wall > 0 ? (double)parse.out.items / parse.out.wall : 0;
+        double ingest_rate =
+            ingest.out.wall > 0 ? (double)ingest.out.items / ingest.out.wall : 0;
+        printf("\n  ingest/parse rate ratio: %.3f (ingest takes %.2fx the parse-only time per "
+               "event)\n",
+               parse_rate > 0 ? ingest_rate / parse_rate : 0.0,
+               ingest_rate > 0 ? parse_rate / ingest_rate : 0.0);
+        printf("  targets: ingest >= 150,000 events/s: %s; 28-day report < 100 ms: %s\n",
+               ingest_rate >= 150000 ? "met" : "NOT met", med_day < 100.0 ? "met" : "NOT met");
+
+        if (parse.out.rejected)
+            printf("  warning: %lld lines did not parse (first: %s)\n",
+                   (long long)parse.out.rejected, parse.out.msg);
+        if (ingest.out.items != parse.out.items || ingest.out.rejected || ingest.out.duplicates)
+            printf("  warning: ingest stored %lld, rejected %lld, duplicates %lld; parse "
+                   "accepted %lld\n",
+                   (long long)ingest.out.items, (long long)ingest.out.rejected,
+                   (long long)ingest.out.duplicates, (long long)parse.out.items);
+        if (by_day.out.report_events != ingest.out.items ||
+            by_all.out.report_events != ingest.out.items)
+            printf("  warning: reports count %lld / %lld events, ingest stored %lld\n",
+                   (long long)by_day.out.report_events, (long long)by_all.out.report_events,
+                   (long long)ingest.out.items);
+    }
+
+    if (b.keep) {
+        printf("\n  kept: %s\n", b.dir);
+    } else {
+        if (!b.input)
+            unlink(b.events);
+        remove_db(&b);
+        rmdir(b.dir);
+    }
+    return failed ? 1 : 0;
+}

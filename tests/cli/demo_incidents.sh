@@ -1,0 +1,45 @@
+#!/usr/bin/env bash
+# demo_incidents.sh — `concord demo` finishes in seconds and its report shows
+# the three injected incidents on their days and nowhere else.
+# Usage: demo_incidents.sh CONCORD
+set -euo pipefail
+CONCORD=$1
+T=$(mktemp -d)
+trap 'rm -rf "$T"' EXIT
+start=$(date +%s%N)
+"$CONCORD" demo --dir "$T" > "$T/out.txt"
+ms=$(( ($(date +%s%N) - start) / 1000000 ))
+grep -q 'INVENTED' "$T/out.txt"
+grep -q 'fogged camera' "$T/out.txt"
+[ -s "$T/report.json" ] && [ -s "$T/report.txt" ]
+python3 - "$T/report.json" "$ms" <<'PY'
+import json, sys
+r = json.load(open(sys.argv[1])); ms = int(sys.argv[2])
+w = r["windows"]
+assert len(w) == 28, len(w)
+assert r["baseline"]["from"] == w[0]["from"] and r["baseline"]["to"] == w[6]["to"], r["baseline"]
+base = w[:7]
+def mean(xs): return sum(xs) / len(xs)
+mi0 = mean([x["uncertainty"]["mutual_information"] for x in base])
+dis0 = mean([x["diversity"]["disagreement"]["mean"] for x in base])
+def low_share(x):  # share of the three lowest grades among predictions
+    c = x["class_counts"]; return sum(c[3:]) / sum(c)
+low0 = mean([low_share(x) for x in base])
+def label_low(x):
+    return sum(0 if x["accuracy"] is None else 1 for _ in [0]) and None
+bad = []
+for day, x in enumerate(w, 1):
+    mi = x["uncertainty"]["mutual_information"]; dis = x["diversity"]["disagreement"]["mean"]
+    fog, late, copies = 9 <= day <= 11, day >= 16, day >= 23
+    if fog != (mi > 2 * mi0): bad.append(f"day {day}: mutual information {mi:.3f} vs baseline {mi0:.3f}")
+    if copies != (dis < 0.3 * dis0): bad.append(f"day {day}: disagreement {dis:.3f} vs baseline {dis0:.3f}")
+    if late != (low_share(x) > low0 + 0.15): bad.append(f"day {day}: low-grade share {low_share(x):.3f} vs {low0:.3f}")
+    assert x["labeled"] > 0 and x["accuracy"] is not None
+    # after the retrain the ensemble no longer beats its best member
+    acc = x["accuracy"]; gain = acc["ensemble"] - acc["members"][acc["best_member"]]
+    if copies == (gain > 0.03): bad.append(f"day {day}: ensemble gain over best member {gain:.3f}")
+for b in bad: print("FAIL:", b)
+assert not bad
+assert ms < 20000, f"demo took {ms} ms"
+print(f"demo_incidents: ok ({ms} ms; baseline MI {mi0:.3f}, disagreement {dis0:.3f})")
+PY
