@@ -19,13 +19,16 @@ static void fnum(FILE *f, int width, int prec, double x)
 
 static void window_label(FILE *f, const cc_report_window *w)
 {
-    char a[11], b[11];
+    char a[11], b[11], both[24];
     cc_format_date(w->from, a);
     cc_format_date(w->to, b);
     if (w->from == w->to)
-        fprintf(f, "%-23s", a);
+        snprintf(both, sizeof both, "%s", a);
+    else if (memcmp(a, b, 4) == 0)
+        snprintf(both, sizeof both, "%s..%s", a, b + 5);
     else
-        fprintf(f, "%s..%s", a, b + 5);
+        snprintf(both, sizeof both, "%s..%s", a, b);
+    fprintf(f, "%-23s", both);
 }
 
 static void headline(FILE *f, const cc_report *r)
