@@ -14,7 +14,8 @@ static void usage(FILE *f)
           "\n"
           "Writes synthetic prediction events of an ensemble as JSON Lines, one event\n"
           "per line, to standard output or FILE:\n"
-          "  {\"id\":\"e0000001\",\"ts\":\"2026-11-02T00:00:01Z\",\"probs\":[[...],...],\"label\":3}\n"
+          "  {\"id\":\"e0000001\",\"ts\":\"2026-11-02T00:00:01Z\",\"probs\":[[...],...],\n"
+          "   \"label\":3}\n"
           "Members share a per-event signal plus their own noise, bias and sharpness,\n"
           "so they mostly agree without being identical. Every probability row is in\n"
           "[0, 1] and sums to 1. The same options and seed give the same bytes.\n"
@@ -78,8 +79,8 @@ static int parse_double(const char *s, double *out)
 
 int main(int argc, char **argv)
 {
-    synth_opts o;
-    synth_defaults(&o);
+    cc_synth_opts o;
+    cc_synth_defaults(&o);
     const char *output = NULL;
 
     for (int i = 1; i < argc; i++) {
@@ -136,7 +137,7 @@ int main(int argc, char **argv)
             return 2;
         }
     }
-    const char *problem = synth_check(&o);
+    const char *problem = cc_synth_check(&o);
     if (problem) {
         fprintf(stderr, "concord-gen: %s\n", problem);
         return 2;
@@ -147,7 +148,7 @@ int main(int argc, char **argv)
         fprintf(stderr, "concord-gen: %s: %s\n", output, strerror(errno));
         return 1;
     }
-    int rc = synth_write(out, &o);
+    int rc = cc_synth_write(out, &o);
     int saved = errno;
     if (out != stdout && fclose(out) != 0 && !rc) {
         rc = -1;

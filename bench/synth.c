@@ -66,7 +66,7 @@ static inline double rng_bell(rng *r)
     return (s / 65536.0 - 2.0) * 1.7320508075688772;
 }
 
-void synth_defaults(synth_opts *o)
+void cc_synth_defaults(cc_synth_opts *o)
 {
     o->n = 1000000;
     o->members = 5;
@@ -77,13 +77,13 @@ void synth_defaults(synth_opts *o)
     o->start_day = cc_days_from_civil(2026, 11, 2);
 }
 
-const char *synth_check(const synth_opts *o)
+const char *cc_synth_check(const cc_synth_opts *o)
 {
     if (o->n < 0)
         return "--n must be >= 0";
-    if (o->members < 1 || o->members > SYNTH_MAX_MEMBERS)
+    if (o->members < 1 || o->members > CC_SYNTH_MAX_MEMBERS)
         return "--members must be in 1..64";
-    if (o->classes < 2 || o->classes > SYNTH_MAX_CLASSES)
+    if (o->classes < 2 || o->classes > CC_SYNTH_MAX_CLASSES)
         return "--classes must be in 2..256";
     if (o->days < 1 || o->days > 3660)
         return "--days must be in 1..3660";
@@ -130,7 +130,7 @@ static char *put_prob(char *p, int q)
 /* Softmax of z[0..k-1] into five-decimal integers summing to PROB_SCALE. */
 static void quantize_softmax(const double *z, int k, int *q)
 {
-    double e[SYNTH_MAX_CLASSES], mx = z[0], sum = 0.0;
+    double e[CC_SYNTH_MAX_CLASSES], mx = z[0], sum = 0.0;
     for (int c = 1; c < k; c++)
         if (z[c] > mx)
             mx = z[c];
@@ -146,7 +146,7 @@ static void quantize_softmax(const double *z, int k, int *q)
     q[top] += PROB_SCALE - total;
 }
 
-int synth_write(FILE *out, const synth_opts *o)
+int cc_synth_write(FILE *out, const cc_synth_opts *o)
 {
     const int m = o->members, k = o->classes;
     int id_width = 7;
@@ -156,7 +156,7 @@ int synth_write(FILE *out, const synth_opts *o)
     size_t cap = max_line * 4 > (1u << 20) ? max_line * 4 : (1u << 20);
     char *buf = malloc(cap);
     double *bias = malloc((size_t)m * (size_t)k * sizeof *bias);
-    double sharp[SYNTH_MAX_MEMBERS], noise[SYNTH_MAX_MEMBERS];
+    double sharp[CC_SYNTH_MAX_MEMBERS], noise[CC_SYNTH_MAX_MEMBERS];
     if (!buf || !bias) {
         free(buf);
         free(bias);
@@ -177,8 +177,8 @@ int synth_write(FILE *out, const synth_opts *o)
     const int64_t t0 = o->start_day * 86400;
     int64_t cached_day = INT64_MIN;
     char date[16] = {0};
-    double shared[SYNTH_MAX_CLASSES], z[SYNTH_MAX_CLASSES];
-    int q[SYNTH_MAX_CLASSES];
+    double shared[CC_SYNTH_MAX_CLASSES], z[CC_SYNTH_MAX_CLASSES];
+    int q[CC_SYNTH_MAX_CLASSES];
     char *p = buf;
     int rc = 0;
 

@@ -8,27 +8,27 @@
 #include <stdint.h>
 #include <stdio.h>
 
-#define SYNTH_MAX_MEMBERS 64
-#define SYNTH_MAX_CLASSES 256
+#define CC_SYNTH_MAX_MEMBERS 64
+#define CC_SYNTH_MAX_CLASSES 256
 
-typedef struct synth_opts {
+typedef struct cc_synth_opts {
     int64_t n;          /* events */
     int members, classes;
     int days;           /* events are spread evenly over this many UTC days */
     uint64_t seed;
     double label_share; /* fraction of events carrying "label" */
     int64_t start_day;  /* UTC day number of the first day */
-} synth_opts;
+} cc_synth_opts;
 
 /* n = 1,000,000, 5 members, 10 classes, 28 days, seed 1, label share 0.3,
  * starting 2026-11-02. */
-void synth_defaults(synth_opts *o);
+void cc_synth_defaults(cc_synth_opts *o);
 
 /* Checks ranges; returns NULL or a message naming the bad option. */
-const char *synth_check(const synth_opts *o);
+const char *cc_synth_check(const cc_synth_opts *o);
 
 /* Writes o->n JSON lines to out. Returns 0, or -1 on a write error or out of
  * memory (errno set). */
-int synth_write(FILE *out, const synth_opts *o);
+int cc_synth_write(FILE *out, const cc_synth_opts *o);
 
 #endif
