@@ -22,36 +22,43 @@ double cc_disagreement(const int64_t *table, int k)
     return (double)(n - same) / (double)n;
 }
 
-/* Cohen (1960), Educ. Psych. Meas. 20:37-46:
- * p_o = sum_a n_aa / n, p_e = sum_a n_a. n_.a / n^2,
- * kappa = (p_o - p_e) / (1 - p_e), written as
- * (n sum_a n_aa - sum_a n_a. n_.a) / (n^2 - sum_a n_a. n_.a).
+/* Cohen (1960), Educ. Psych. Meas. 20:37-46, from what a summary keeps:
+ * n items, agree = items on which the two raters give the same class, and
+ * each rater's class counts (the margins of their K x K table):
+ * p_o = agree / n, p_e = sum_a row_a col_a / n^2,
+ * kappa = (p_o - p_e) / (1 - p_e) = (n agree - sum_a row_a col_a) / (n^2 - sum_a row_a col_a).
  * p_e = 1 exactly when both raters put every item in the same single class. */
-double cc_cohen_kappa(const int64_t *table, int k)
+double cc_cohen_kappa_margins(int64_t n, int64_t agree, const int64_t *row, const int64_t *col,
+                              int k)
 {
-    int64_t n = 0, diag = 0;
-    for (int a = 0; a < k; a++)
-        for (int b = 0; b < k; b++) {
-            n += table[(size_t)a * k + b];
-            if (a == b)
-                diag += table[(size_t)a * k + b];
-        }
     if (n <= 0)
         return NAN;
-
     double chance = 0.0;
     for (int a = 0; a < k; a++) {
-        int64_t row = 0, col = 0;
-        for (int b = 0; b < k; b++) {
-            row += table[(size_t)a * k + b];
-            col += table[(size_t)b * k + a];
-        }
-        if (row == n && col == n)
+        if (row[a] == n && col[a] == n)
             return NAN;
-        chance += (double)row * (double)col;
+        chance += (double)row[a] * (double)col[a];
     }
     double nn = (double)n * (double)n;
-    return ((double)n * (double)diag - chance) / (nn - chance);
+    return ((double)n * (double)agree - chance) / (nn - chance);
+}
+
+/* The same from a full K x K table (row-major, table[a*k+b]). */
+double cc_cohen_kappa(const int64_t *table, int k)
+{
+    int64_t n = 0, diag = 0, row[CC_KAPPA_MAX_K] = {0}, col[CC_KAPPA_MAX_K] = {0};
+    if (k > CC_KAPPA_MAX_K)
+        return NAN;
+    for (int a = 0; a < k; a++)
+        for (int b = 0; b < k; b++) {
+            int64_t x = table[(size_t)a * k + b];
+            n += x;
+            row[a] += x;
+            col[b] += x;
+            if (a == b)
+                diag += x;
+        }
+    return cc_cohen_kappa_margins(n, diag, row, col, k);
 }
 
 /* Fleiss (1971), Psych. Bull. 76:378-382, from sufficient statistics:

@@ -10,9 +10,17 @@
  * K x K table (row-major, table[a*k+b]). NAN when the table is empty. */
 double cc_disagreement(const int64_t *table, int k);
 
-/* Cohen (1960): kappa = (p_o - p_e) / (1 - p_e) from a K x K table.
- * NAN when the table is empty or p_e = 1. */
+#define CC_KAPPA_MAX_K 256
+
+/* Cohen (1960): kappa = (p_o - p_e) / (1 - p_e) from a K x K table
+ * (k <= CC_KAPPA_MAX_K). NAN when the table is empty or p_e = 1. */
 double cc_cohen_kappa(const int64_t *table, int k);
+
+/* The same from n, the count of items on which the raters agree, and each
+ * rater's k class counts (the table's row and column sums). This is what a
+ * summary keeps, so kappa needs O(K) counters per pair, not O(K^2). */
+double cc_cohen_kappa_margins(int64_t n, int64_t agree, const int64_t *row, const int64_t *col,
+                              int k);
 
 /* Fleiss (1971) from sufficient statistics, so it merges across days:
  * n items each rated by m raters; sumsq = sum over items of sum_j n_ij^2;

@@ -28,7 +28,7 @@ int cc_layout_init(cc_layout *out, int m, int k)
     SECTION(vote_ties, 1);
     SECTION(pred_counts, K);
     SECTION(member_pred, M * K);
-    SECTION(pair_table, P * K * K);
+    SECTION(pair_agree, P);
     SECTION(fleiss_sumsq, 1);
     SECTION(tu_fx, 1);
     SECTION(au_fx, 1);
@@ -256,7 +256,7 @@ void cc_summary_add_unlabeled(cc_summary *s, const float *probs, int sign)
     for (int i = 0; i < m; i++)
         for (int j = i + 1; j < m; j++) {
             size_t p = (size_t)cc_pair_index(m, i, j);
-            v[L->pair_table + p * k * k + (size_t)e.top[i] * k + e.top[j]] += sign;
+            v[L->pair_agree + p] += sign * (e.top[i] == e.top[j]);
             differ |= e.top[i] != e.top[j];
         }
 

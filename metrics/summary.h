@@ -33,7 +33,7 @@ typedef struct cc_layout {
     size_t vote_ties;          /* 1: plurality vote had a tie, over all events */
     size_t pred_counts;        /* K: ensemble (averaged) argmax */
     size_t member_pred;        /* M*K: member m predicted class c */
-    size_t pair_table;         /* P*K*K: pair p, member i says a, member j says b */
+    size_t pair_agree;         /* P: members i and j of pair p predict the same class */
     size_t fleiss_sumsq;       /* 1: sum over events of sum_c n_c^2, n_c = members voting c */
     size_t tu_fx;              /* 1: sum of H(mean p) */
     size_t au_fx;              /* 1: sum of mean_m H(p_m) */

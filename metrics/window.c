@@ -91,13 +91,16 @@ static int fill_contested(cc_window_metrics *out, const int64_t *tab, int k)
 static void label_free_part(cc_window_metrics *out, const cc_layout *L, const int64_t *v)
 {
     const int m = L->m, k = L->k;
-    const size_t kk = (size_t)k * (size_t)k;
+    const int64_t n = v[L->n_events];
 
     for (int i = 0; i < m; i++)
         for (int j = i + 1; j < m; j++) {
-            const int64_t *tab = v + L->pair_table + (size_t)cc_pair_index(m, i, j) * kk;
-            pair_matrix_set(&out->disagreement, m, i, j, cc_disagreement(tab, k));
-            pair_matrix_set(&out->kappa, m, i, j, cc_cohen_kappa(tab, k));
+            int64_t agree = v[L->pair_agree + (size_t)cc_pair_index(m, i, j)];
+            pair_matrix_set(&out->disagreement, m, i, j,
+                            n > 0 ? (double)(n - agree) / (double)n : NAN);
+            pair_matrix_set(&out->kappa, m, i, j,
+                            cc_cohen_kappa_margins(n, agree, v + L->member_pred + (size_t)i * k,
+                                                   v + L->member_pred + (size_t)j * k, k));
         }
     pair_matrix_finish(&out->disagreement, m);
     pair_matrix_finish(&out->kappa, m);
@@ -112,9 +115,9 @@ static void label_free_part(cc_window_metrics *out, const cc_layout *L, const in
     out->fleiss_kappa = cc_fleiss_kappa(out->events, m, v[L->fleiss_sumsq], totals, k);
 
     if (out->events > 0) {
-        double n = (double)out->events;
-        out->entropy = (double)v[L->tu_fx] / CC_FIXED_SCALE / n;
-        out->expected_entropy = (double)v[L->au_fx] / CC_FIXED_SCALE / n;
+        double events = (double)out->events;
+        out->entropy = (double)v[L->tu_fx] / CC_FIXED_SCALE / events;
+        out->expected_entropy = (double)v[L->au_fx] / CC_FIXED_SCALE / events;
         double mi = out->entropy - out->expected_entropy;
         out->mutual_information = mi > 0.0 ? mi : 0.0;
     }
