@@ -1,7 +1,9 @@
-/* event_parse.c — JSON Lines records to events and labels, with cJSON. */
+/* event_parse.c — JSON Lines records to events and labels. A first pass
+ * checks the JSON syntax of the whole line; a second pass reads the known
+ * keys in place (json_scan.c), so a line costs no allocation. Duplicate keys:
+ * the first one counts. */
 #include "event_parse.h"
 
-#include <cjson/cJSON.h>
 #include <math.h>
 #include <stdarg.h>
 #include <stdio.h>
@@ -9,21 +11,33 @@
 #include <string.h>
 
 #include "date.h"
+#include "json_scan.h"
 #include "summary.h"
 
+#define NAME_MAX_BYTES 128
+
 struct cc_parser {
-    cJSON *doc;
-    double *vals;
-    size_t cap;
+    double *vals; /* CC_MAX_MEMBERS * CC_MAX_CLASSES */
+    char id[CC_ID_MAX + 1];
+    char model[NAME_MAX_BYTES + 1];
+    char segment[CC_SEGMENT_MAX + 1];
+    char label_name[NAME_MAX_BYTES + 1];
 };
 
-cc_parser *cc_parser_create(void) { return calloc(1, sizeof(cc_parser)); }
+cc_parser *cc_parser_create(void)
+{
+    cc_parser *p = calloc(1, sizeof *p);
+    if (p && !(p->vals = malloc(sizeof(double) * CC_MAX_MEMBERS * CC_MAX_CLASSES))) {
+        free(p);
+        return NULL;
+    }
+    return p;
+}
 
 void cc_parser_free(cc_parser *p)
 {
     if (!p)
         return;
-    cJSON_Delete(p->doc);
     free(p->vals);
     free(p);
 }
@@ -36,75 +50,6 @@ static int fail(char *why, size_t n, const char *fmt, ...)
     vsnprintf(why, n, fmt, ap);
     va_end(ap);
     return -1;
-}
-
-static int parse_doc(cc_parser *p, const char *line, size_t len, char *why, size_t n)
-{
-    const char *end = NULL;
-    cJSON_Delete(p->doc);
-    p->doc = cJSON_ParseWithLengthOpts(line, len, &end, 0);
-    if (!p->doc) {
-        const char *at = cJSON_GetErrorPtr();
-        long off = at && at >= line && at <= line + len ? (long)(at - line) : -1;
-        return fail(why, n, "malformed JSON near byte %ld", off);
-    }
-    for (const char *q = end; q && q < line + len; q++)
-        if (*q != ' ' && *q != '\t' && *q != '\r')
-            return fail(why, n, "malformed JSON: text after the object at byte %ld",
-                        (long)(q - line));
-    if (!cJSON_IsObject(p->doc))
-        return fail(why, n, "a line must hold one JSON object");
-    return 0;
-}
-
-static int get_id(const cJSON *doc, const char **id, int *id_len, char *why, size_t n)
-{
-    const cJSON *j = cJSON_GetObjectItemCaseSensitive(doc, "id");
-    if (!j)
-        return fail(why, n, "field 'id': missing");
-    if (!cJSON_IsString(j))
-        return fail(why, n, "field 'id': must be a string");
-    size_t len = strlen(j->valuestring);
-    if (len < 1 || len > CC_ID_MAX)
-        return fail(why, n, "field 'id': length %zu outside 1..%d bytes", len, CC_ID_MAX);
-    *id = j->valuestring;
-    *id_len = (int)len;
-    return 0;
-}
-
-static int get_model(const cJSON *doc, const char **model, char *why, size_t n)
-{
-    const cJSON *j = cJSON_GetObjectItemCaseSensitive(doc, "model");
-    *model = NULL;
-    if (!j || cJSON_IsNull(j))
-        return 0;
-    if (!cJSON_IsString(j) || !j->valuestring[0] || strlen(j->valuestring) > 128)
-        return fail(why, n, "field 'model': must be a string of 1..128 bytes");
-    *model = j->valuestring;
-    return 0;
-}
-
-static int get_label(const cJSON *doc, int required, int *label, const char **name, char *why,
-                     size_t n)
-{
-    const cJSON *j = cJSON_GetObjectItemCaseSensitive(doc, "label");
-    *label = -1;
-    *name = NULL;
-    if (!j || cJSON_IsNull(j))
-        return required ? fail(why, n, "field 'label': missing") : 0;
-    if (cJSON_IsString(j)) {
-        if (!j->valuestring[0])
-            return fail(why, n, "field 'label': empty class name");
-        *name = j->valuestring;
-        return 0;
-    }
-    if (!cJSON_IsNumber(j) || j->valuedouble != floor(j->valuedouble) ||
-        !isfinite(j->valuedouble))
-        return fail(why, n, "field 'label': must be a class index or a class name");
-    if (j->valuedouble < 0 || j->valuedouble > CC_MAX_CLASSES)
-        return fail(why, n, "field 'label': %g is out of range", j->valuedouble);
-    *label = (int)j->valuedouble;
-    return 0;
 }
 
 void cc_softmax(double *x, int k)
@@ -121,73 +66,263 @@ void cc_softmax(double *x, int k)
         x[c] /= sum;
 }
 
-/* Reads an array of M arrays of K finite numbers into p->vals. */
-static int get_matrix(cc_parser *p, const cJSON *arr, const char *field, int *m_out,
-                      int *k_out, char *why, size_t n)
+/* What the second pass found, before validation. */
+enum { F_ID, F_TS, F_MODEL, F_SEGMENT, F_LABEL, F_PROBS, F_LOGITS, F_COUNT };
+static const char *const field_names[F_COUNT] = {"id",    "ts",    "model", "segment",
+                                                 "label", "probs", "logits"};
+
+typedef struct found {
+    int seen[F_COUNT];
+    char type[F_COUNT];      /* 's' string, 'n' number, 'z' null, 'a' array, 'o' other */
+    double num[F_COUNT];
+    size_t len[F_COUNT];     /* decoded string length */
+    int nul[F_COUNT];        /* string held a NUL character */
+    char ts[64];
+    int m, k;
+    const char *matrix_err;  /* set when the array is not a rectangle of numbers */
+    char matrix_why[160];
+} found;
+
+static int field_of(const char *key, size_t len)
 {
-    if (!cJSON_IsArray(arr))
-        return fail(why, n, "field '%s': must be an array of member rows", field);
-    int m = cJSON_GetArraySize(arr), k = -1, i = 0;
-    if (m < 1 || m > CC_MAX_MEMBERS)
-        return fail(why, n, "field '%s': %d member rows (allowed 1..%d)", field, m,
-                    CC_MAX_MEMBERS);
-    const cJSON *row;
-    cJSON_ArrayForEach(row, arr)
-    {
-        if (!cJSON_IsArray(row))
-            return fail(why, n, "field '%s': row %d is not an array", field, i);
-        int rk = cJSON_GetArraySize(row);
-        if (k < 0) {
-            k = rk;
-            if (k < 2 || k > CC_MAX_CLASSES)
-                return fail(why, n, "field '%s': %d classes (allowed 2..%d)", field, k,
-                            CC_MAX_CLASSES);
-            size_t need = (size_t)m * (size_t)k;
-            if (need > p->cap) {
-                double *grown = realloc(p->vals, need * sizeof *grown);
-                if (!grown)
-                    return fail(why, n, "out of memory");
-                p->vals = grown;
-                p->cap = need;
-            }
-        } else if (rk != k) {
-            return fail(why, n, "field '%s': row %d has %d values, row 0 has %d", field, i, rk,
-                        k);
-        }
-        int c = 0;
-        const cJSON *x;
-        cJSON_ArrayForEach(x, row)
-        {
-            if (!cJSON_IsNumber(x) || !isfinite(x->valuedouble))
-                return fail(why, n, "field '%s': row %d value %d is not a finite number", field,
-                            i, c);
-            p->vals[(size_t)i * k + c++] = x->valuedouble;
-        }
-        i++;
+    for (int f = 0; f < F_COUNT; f++)
+        if (strlen(field_names[f]) == len && memcmp(field_names[f], key, len) == 0)
+            return f;
+    return -1;
+}
+
+static char value_type(const cc_js *s)
+{
+    char c = *s->p;
+    return c == '"' ? 's' : c == 'n' ? 'z' : c == '[' ? 'a' : (c == '-' || (c >= '0' && c <= '9')) ? 'n' : 'o';
+}
+
+/* Reads an array of member rows of numbers into p->vals. On a shape
+ * problem records it in fd and skips the rest of the value. */
+static int read_matrix(cc_js *s, cc_parser *p, found *fd, const char *field)
+{
+    int m = 0, k = -1;
+    s->p++; /* '[' */
+    cc_js_ws(s);
+    if (*s->p == ']') {
+        s->p++;
+        snprintf(fd->matrix_why, sizeof fd->matrix_why,
+                 "field '%s': 0 member rows (allowed 1..%d)", field, CC_MAX_MEMBERS);
+        fd->matrix_err = fd->matrix_why;
+        return 0;
     }
-    *m_out = m;
-    *k_out = k;
+    for (;;) {
+        cc_js_ws(s);
+        if (fd->matrix_err || *s->p != '[') {
+            if (!fd->matrix_err) {
+                snprintf(fd->matrix_why, sizeof fd->matrix_why, "field '%s': row %d is not an array",
+                         field, m);
+                fd->matrix_err = fd->matrix_why;
+            }
+            if (cc_js_skip(s))
+                return -1;
+        } else if (m >= CC_MAX_MEMBERS) {
+            snprintf(fd->matrix_why, sizeof fd->matrix_why,
+                     "field '%s': more than %d member rows", field, CC_MAX_MEMBERS);
+            fd->matrix_err = fd->matrix_why;
+            if (cc_js_skip(s))
+                return -1;
+        } else {
+            int c = 0;
+            s->p++;
+            cc_js_ws(s);
+            if (*s->p == ']') {
+                s->p++;
+            } else {
+                for (;;) {
+                    cc_js_ws(s);
+                    double x;
+                    if (fd->matrix_err) {
+                        if (cc_js_skip(s))
+                            return -1;
+                    } else if (value_type(s) != 'n') {
+                        snprintf(fd->matrix_why, sizeof fd->matrix_why,
+                                 "field '%s': row %d value %d is not a finite number", field, m, c);
+                        fd->matrix_err = fd->matrix_why;
+                        if (cc_js_skip(s))
+                            return -1;
+                    } else if (cc_js_number(s, &x)) {
+                        return -1;
+                    } else if (!isfinite(x)) {
+                        snprintf(fd->matrix_why, sizeof fd->matrix_why,
+                                 "field '%s': row %d value %d is not a finite number", field, m, c);
+                        fd->matrix_err = fd->matrix_why;
+                    } else if (c < CC_MAX_CLASSES) {
+                        p->vals[(size_t)m * CC_MAX_CLASSES + (size_t)c] = x;
+                    }
+                    c++;
+                    cc_js_ws(s);
+                    if (*s->p == ',') {
+                        s->p++;
+                        continue;
+                    }
+                    s->p++; /* ']' (syntax already checked) */
+                    break;
+                }
+            }
+            if (!fd->matrix_err) {
+                if (k < 0) {
+                    k = c;
+                    if (k < 2 || k > CC_MAX_CLASSES) {
+                        snprintf(fd->matrix_why, sizeof fd->matrix_why,
+                                 "field '%s': %d classes (allowed 2..%d)", field, k, CC_MAX_CLASSES);
+                        fd->matrix_err = fd->matrix_why;
+                    }
+                } else if (c != k) {
+                    snprintf(fd->matrix_why, sizeof fd->matrix_why,
+                             "field '%s': row %d has %d values, row 0 has %d", field, m, c, k);
+                    fd->matrix_err = fd->matrix_why;
+                }
+            }
+            m++;
+        }
+        cc_js_ws(s);
+        if (*s->p == ',') {
+            s->p++;
+            continue;
+        }
+        s->p++; /* ']' */
+        break;
+    }
+    fd->m = m;
+    fd->k = k;
+    return 0;
+}
+
+static int scan(cc_parser *p, const char *line, size_t len, found *fd, char *why, size_t n)
+{
+    long at;
+    memset(fd, 0, sizeof *fd);
+    if (cc_js_validate(line, len, &at)) {
+        cc_js s;
+        cc_js_init(&s, line, len);
+        if (cc_js_skip(&s) == 0)
+            return fail(why, n, "malformed JSON: text after the object at byte %ld", at);
+        return fail(why, n, "malformed JSON near byte %ld", at);
+    }
+    cc_js s;
+    cc_js_init(&s, line, len);
+    cc_js_ws(&s);
+    if (*s.p != '{')
+        return fail(why, n, "a line must hold one JSON object");
+    s.p++;
+    cc_js_ws(&s);
+    if (*s.p == '}')
+        return 0;
+    for (;;) {
+        char key[16];
+        size_t klen;
+        cc_js_ws(&s);
+        cc_js_string(&s, key, sizeof key, &klen);
+        cc_js_ws(&s);
+        s.p++; /* ':' */
+        cc_js_ws(&s);
+        int f = klen < sizeof key ? field_of(key, klen) : -1;
+        if (f < 0 || fd->seen[f]) {
+            cc_js_skip(&s);
+        } else {
+            fd->seen[f] = 1;
+            fd->type[f] = value_type(&s);
+            char *dst = NULL;
+            size_t cap = 0;
+            switch (f) {
+            case F_ID: dst = p->id, cap = sizeof p->id; break;
+            case F_MODEL: dst = p->model, cap = sizeof p->model; break;
+            case F_SEGMENT: dst = p->segment, cap = sizeof p->segment; break;
+            case F_LABEL: dst = p->label_name, cap = sizeof p->label_name; break;
+            case F_TS: dst = fd->ts, cap = sizeof fd->ts; break;
+            }
+            if (fd->type[f] == 's' && dst) {
+                cc_js_string(&s, dst, cap, &fd->len[f]);
+                fd->nul[f] = fd->len[f] < cap && strlen(dst) != fd->len[f];
+            } else if (fd->type[f] == 'n') {
+                cc_js_number(&s, &fd->num[f]);
+            } else if (fd->type[f] == 'a' && (f == F_PROBS || f == F_LOGITS) &&
+                       !(fd->seen[F_PROBS] && fd->seen[F_LOGITS])) {
+                if (read_matrix(&s, p, fd, field_names[f]))
+                    return fail(why, n, "malformed JSON in '%s'", field_names[f]);
+            } else {
+                cc_js_skip(&s);
+            }
+        }
+        cc_js_ws(&s);
+        if (*s.p == ',') {
+            s.p++;
+            continue;
+        }
+        break;
+    }
+    return 0;
+}
+
+static int take_string(const found *fd, int f, const char *buf, size_t max, const char **out,
+                       int required, char *why, size_t n)
+{
+    *out = NULL;
+    if (!fd->seen[f] || fd->type[f] == 'z')
+        return required ? fail(why, n, "field '%s': missing", field_names[f]) : 0;
+    if (fd->type[f] != 's')
+        return fail(why, n, "field '%s': must be a string", field_names[f]);
+    if (fd->len[f] < 1 || fd->len[f] > max)
+        return fail(why, n, "field '%s': length %zu outside 1..%zu bytes", field_names[f],
+                    fd->len[f], max);
+    if (fd->nul[f])
+        return fail(why, n, "field '%s': contains a NUL character", field_names[f]);
+    *out = buf;
+    return 0;
+}
+
+static int take_label(cc_parser *p, const found *fd, int required, int *label,
+                      const char **name, char *why, size_t n)
+{
+    *label = -1;
+    *name = NULL;
+    if (!fd->seen[F_LABEL] || fd->type[F_LABEL] == 'z')
+        return required ? fail(why, n, "field 'label': missing") : 0;
+    if (fd->type[F_LABEL] == 's') {
+        if (fd->len[F_LABEL] == 0)
+            return fail(why, n, "field 'label': empty class name");
+        if (fd->len[F_LABEL] > NAME_MAX_BYTES || fd->nul[F_LABEL])
+            return fail(why, n, "field 'label': class name longer than %d bytes", NAME_MAX_BYTES);
+        *name = p->label_name;
+        return 0;
+    }
+    double x = fd->num[F_LABEL];
+    if (fd->type[F_LABEL] != 'n' || !isfinite(x) || x != floor(x))
+        return fail(why, n, "field 'label': must be a class index or a class name");
+    if (x < 0 || x > CC_MAX_CLASSES)
+        return fail(why, n, "field 'label': %g is out of range", x);
+    *label = (int)x;
     return 0;
 }
 
 int cc_parse_event(cc_parser *p, const char *line, size_t len, cc_event *out, char *why,
                    size_t n)
 {
+    found fd;
     memset(out, 0, sizeof *out);
     out->label = -1;
-    if (parse_doc(p, line, len, why, n) || get_id(p->doc, &out->id, &out->id_len, why, n) ||
-        get_model(p->doc, &out->model, why, n))
+    if (scan(p, line, len, &fd, why, n) ||
+        take_string(&fd, F_ID, p->id, CC_ID_MAX, &out->id, 1, why, n) ||
+        take_string(&fd, F_MODEL, p->model, NAME_MAX_BYTES, &out->model, 0, why, n))
         return -1;
+    out->id_len = (int)fd.len[F_ID];
 
-    const cJSON *ts = cJSON_GetObjectItemCaseSensitive(p->doc, "ts");
-    if (!ts)
+    if (!fd.seen[F_TS])
         return fail(why, n, "field 'ts': missing");
-    if (cJSON_IsString(ts)) {
+    if (fd.type[F_TS] == 's') {
         const char *reason;
-        if (cc_parse_rfc3339(ts->valuestring, (int)strlen(ts->valuestring), &out->ts, &reason))
-            return fail(why, n, "field 'ts': %s", reason);
-    } else if (cJSON_IsNumber(ts)) {
-        double t = ts->valuedouble;
+        if (fd.len[F_TS] >= sizeof fd.ts ||
+            cc_parse_rfc3339(fd.ts, (int)fd.len[F_TS], &out->ts, &reason))
+            return fail(why, n, "field 'ts': %s",
+                        fd.len[F_TS] >= sizeof fd.ts ? "not an RFC 3339 date-time" : reason);
+    } else if (fd.type[F_TS] == 'n') {
+        double t = fd.num[F_TS];
         if (!isfinite(t) || t < 0 || t > 253402300799.0) /* 9999-12-31 */
             return fail(why, n, "field 'ts': %g is not a usable Unix time", t);
         out->ts = (int64_t)floor(t);
@@ -195,18 +330,24 @@ int cc_parse_event(cc_parser *p, const char *line, size_t len, cc_event *out, ch
         return fail(why, n, "field 'ts': must be an RFC 3339 string or Unix seconds");
     }
 
-    const cJSON *probs = cJSON_GetObjectItemCaseSensitive(p->doc, "probs");
-    const cJSON *logits = cJSON_GetObjectItemCaseSensitive(p->doc, "logits");
-    if (probs && logits)
+    if (fd.seen[F_PROBS] && fd.seen[F_LOGITS])
         return fail(why, n, "fields 'probs' and 'logits': give one, not both");
-    if (!probs && !logits)
+    int f = fd.seen[F_PROBS] ? F_PROBS : F_LOGITS;
+    if (!fd.seen[f])
         return fail(why, n, "field 'probs': missing (and no 'logits')");
-    if (get_matrix(p, probs ? probs : logits, probs ? "probs" : "logits", &out->m, &out->k,
-                   why, n))
-        return -1;
+    if (fd.type[f] != 'a')
+        return fail(why, n, "field '%s': must be an array of member rows", field_names[f]);
+    if (fd.matrix_err)
+        return fail(why, n, "%s", fd.matrix_err);
+    out->m = fd.m;
+    out->k = fd.k;
+    /* rows were stored with stride CC_MAX_CLASSES: pack them */
+    for (int i = 1; i < out->m; i++)
+        memmove(p->vals + (size_t)i * out->k, p->vals + (size_t)i * CC_MAX_CLASSES,
+                (size_t)out->k * sizeof *p->vals);
     for (int i = 0; i < out->m; i++) {
         double *row = p->vals + (size_t)i * out->k;
-        if (logits) {
+        if (f == F_LOGITS) {
             cc_softmax(row, out->k);
             continue;
         }
@@ -223,25 +364,21 @@ int cc_parse_event(cc_parser *p, const char *line, size_t len, cc_event *out, ch
     }
     out->probs = p->vals;
 
-    const cJSON *seg = cJSON_GetObjectItemCaseSensitive(p->doc, "segment");
-    if (seg && !cJSON_IsNull(seg)) {
-        if (!cJSON_IsString(seg))
-            return fail(why, n, "field 'segment': must be a string");
-        size_t sl = strlen(seg->valuestring);
-        if (sl > CC_SEGMENT_MAX)
-            return fail(why, n, "field 'segment': longer than %d bytes", CC_SEGMENT_MAX);
-        out->segment = seg->valuestring;
-        out->segment_len = (int)sl;
-    }
-    return get_label(p->doc, 0, &out->label, &out->label_name, why, n);
+    if (take_string(&fd, F_SEGMENT, p->segment, CC_SEGMENT_MAX, &out->segment, 0, why, n))
+        return -1;
+    out->segment_len = out->segment ? (int)fd.len[F_SEGMENT] : 0;
+    return take_label(p, &fd, 0, &out->label, &out->label_name, why, n);
 }
 
 int cc_parse_label(cc_parser *p, const char *line, size_t len, cc_label_line *out, char *why,
                    size_t n)
 {
+    found fd;
     memset(out, 0, sizeof *out);
-    if (parse_doc(p, line, len, why, n) || get_id(p->doc, &out->id, &out->id_len, why, n) ||
-        get_model(p->doc, &out->model, why, n))
+    if (scan(p, line, len, &fd, why, n) ||
+        take_string(&fd, F_ID, p->id, CC_ID_MAX, &out->id, 1, why, n) ||
+        take_string(&fd, F_MODEL, p->model, NAME_MAX_BYTES, &out->model, 0, why, n))
         return -1;
-    return get_label(p->doc, 1, &out->label, &out->label_name, why, n);
+    out->id_len = (int)fd.len[F_ID];
+    return take_label(p, &fd, 1, &out->label, &out->label_name, why, n);
 }

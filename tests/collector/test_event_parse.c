@@ -2,10 +2,12 @@
  * input contract (README, "Input format") accepts its good case and refuses
  * its bad case with a reason that names the field. */
 #include <math.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "check.h"
 #include "event_parse.h"
+#include "json_scan.h"
 
 static cc_parser *P;
 static char why[256];
@@ -79,6 +81,72 @@ int main(void)
     char line[400];
     snprintf(line, sizeof line, "{\"id\":\"%.*s\",\"ts\":0,\"probs\":[[0.5,0.5]]}", 129, longid);
     CHECK(refused(line, "'id': length 129"));
+
+    /* escapes, duplicate keys (the first counts), unknown nested values, white space */
+    CHECK(ev(" { \"id\" : \"caf\\u00e9-\\ud83c\\udf4e\\n\" , \"id\":\"second\", \"x\":[{\"a\":[1,{}]},null,true],"
+             "\"ts\":1e3,\"probs\":[ [ 2.5e-1 , 75E-2 ] ] } ", &e) == 0);
+    CHECK(e.id_len == 11 && memcmp(e.id, "caf\xc3\xa9-\xf0\x9f\x8d\x8e\n", 11) == 0);
+    CHECK(e.ts == 1000 && e.probs[0] == 0.25 && e.probs[1] == 0.75);
+    CHECK(refused("{\"id\":\"a\\u0000b\",\"ts\":0,\"probs\":[[0.5,0.5]]}", "NUL"));
+    CHECK(refused("{\"id\":\"a\\ud83c\",\"ts\":0,\"probs\":[[0.5,0.5]]}", "malformed JSON"));
+    CHECK(refused("{\"id\":\"a\",\"ts\":0,\"probs\":[[0.5,0.5]],}", "malformed JSON"));
+    CHECK(refused("{\"id\":\"a\",\"ts\":0,\"probs\":[[01,0.5]]}", "malformed JSON"));
+    CHECK(refused("{\"id\":\"a\",\"ts\":0,\"probs\":[[.5,0.5]]}", "malformed JSON"));
+    CHECK(refused("{\"id\":\"a\",\"ts\":0,\"probs\":[[0.5,0.5]]}{}", "after the object"));
+    CHECK(refused("{}", "'id': missing"));
+
+    /* numbers: the fast path and the strtod fallback agree with strtod */
+    const char *nums[] = {"0.1", "0.33333", "1e-300", "123456789012345678901234567890e-29",
+                          "0.30000000000000004", "9007199254740993e-16", "4.9e-324",
+                          "0.000000000000000000000000001", "1.7976931348623157e308", "-0.0"};
+    for (size_t i = 0; i < sizeof nums / sizeof *nums; i++) {
+        char buf[200];
+        snprintf(buf, sizeof buf, "{\"id\":\"n\",\"ts\":0,\"logits\":[[%s,0]]}", nums[i]);
+        CHECK(ev(buf, &e) == 0);
+        double want = strtod(nums[i], NULL), got = log(e.probs[0] / e.probs[1]);
+        CHECK(fabs(got - want) <= 1e-12 * (fabs(want) > 1 ? fabs(want) : 1) || fabs(want) > 700);
+    }
+
+    /* the scanner's numbers are bit-identical to glibc strtod (correctly rounded) */
+    for (size_t i = 0; i < sizeof nums / sizeof *nums; i++) {
+        cc_js js;
+        double x;
+        cc_js_init(&js, nums[i], strlen(nums[i]));
+        CHECK(cc_js_number(&js, &x) == 0 && memcmp(&x, &(double){strtod(nums[i], NULL)}, 8) == 0);
+    }
+    unsigned long long r = 12345;
+    for (int i = 0; i < 200000; i++) {
+        char buf[64];
+        r = r * 6364136223846793005ull + 1442695040888963407ull;
+        int digits = 1 + (int)(r >> 60), scale = (int)((r >> 40) % 30) - 8;
+        unsigned long long mant = (r >> 3) % 10000000000000000000ull;
+        snprintf(buf, sizeof buf, "%.*llue%d", digits, mant, scale);
+        cc_js js;
+        double x, want = strtod(buf, NULL);
+        cc_js_init(&js, buf, strlen(buf));
+        if (cc_js_number(&js, &x) != 0 || memcmp(&x, &want, 8) != 0) {
+            fprintf(stderr, "number %s: got %.17g want %.17g\n", buf, x, want);
+            CHECK(0);
+            break;
+        }
+        snprintf(buf, sizeof buf, "0.%05llu", mant % 100000);
+        want = strtod(buf, NULL);
+        cc_js_init(&js, buf, strlen(buf));
+        CHECK(cc_js_number(&js, &x) == 0 && x == want);
+    }
+
+    /* limits on M and K */
+    char big[8000];
+    size_t at = (size_t)snprintf(big, sizeof big, "{\"id\":\"k\",\"ts\":0,\"logits\":[[");
+    for (int c = 0; c < 257; c++)
+        at += (size_t)snprintf(big + at, sizeof big - at, c ? ",0" : "0");
+    snprintf(big + at, sizeof big - at, "]]}");
+    CHECK(refused(big, "257 classes (allowed 2..256)"));
+    at = (size_t)snprintf(big, sizeof big, "{\"id\":\"m\",\"ts\":0,\"probs\":[");
+    for (int i = 0; i < 65; i++)
+        at += (size_t)snprintf(big + at, sizeof big - at, i ? ",[0.5,0.5]" : "[0.5,0.5]");
+    snprintf(big + at, sizeof big - at, "]}");
+    CHECK(refused(big, "more than 64 member rows"));
 
     cc_label_line lab;
     CHECK(cc_parse_label(P, "{\"id\":\"x\",\"label\":3}", 20, &lab, why, sizeof why) == 0 &&
