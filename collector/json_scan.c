@@ -222,6 +222,38 @@ int cc_js_number(cc_js *s, double *out)
     return 0;
 }
 
+/* Number syntax only (RFC 8259 §6), for values that are skipped. */
+static int skip_number(cc_js *s)
+{
+    const char *p = s->p, *end = s->end;
+    if (p < end && *p == '-')
+        p++;
+    if (p >= end || !is_digit(*p))
+        return -1;
+    if (*p == '0')
+        p++;
+    else
+        while (p < end && is_digit(*p))
+            p++;
+    if (p < end && *p == '.') {
+        if (++p >= end || !is_digit(*p))
+            return -1;
+        while (p < end && is_digit(*p))
+            p++;
+    }
+    if (p < end && (*p == 'e' || *p == 'E')) {
+        p++;
+        if (p < end && (*p == '+' || *p == '-'))
+            p++;
+        if (p >= end || !is_digit(*p))
+            return -1;
+        while (p < end && is_digit(*p))
+            p++;
+    }
+    s->p = p;
+    return 0;
+}
+
 static int literal(cc_js *s, const char *word, size_t n)
 {
     if ((size_t)(s->end - s->p) < n || memcmp(s->p, word, n) != 0)
@@ -233,7 +265,6 @@ static int literal(cc_js *s, const char *word, size_t n)
 static int skip_depth(cc_js *s, int depth)
 {
     size_t len;
-    double x;
     if (depth > MAX_DEPTH)
         return -1;
     cc_js_ws(s);
@@ -285,7 +316,7 @@ static int skip_depth(cc_js *s, int depth)
         }
     }
     default:
-        return cc_js_number(s, &x);
+        return skip_number(s);
     }
 }
 

@@ -109,8 +109,9 @@ int cc_store_open(cc_store **out, const char *path, int create, cc_error *err)
         goto fail;
     }
     sqlite3_busy_timeout(s->db, 10000);
-    if ((rc = exec(s, "PRAGMA journal_mode=WAL; PRAGMA synchronous=NORMAL;"
-                      "PRAGMA foreign_keys=ON; PRAGMA cache_size=-65536;", err)))
+    if ((rc = exec(s, "PRAGMA page_size=16384; PRAGMA journal_mode=WAL; PRAGMA synchronous=NORMAL;"
+                      "PRAGMA foreign_keys=ON; PRAGMA cache_size=-65536;"
+                      "PRAGMA wal_autocheckpoint=8192; PRAGMA journal_size_limit=67108864;", err)))
         goto fail;
     if ((rc = exec(s, "BEGIN IMMEDIATE;", err)))
         goto fail;
