@@ -104,6 +104,8 @@ static int run(int argc, char **argv, cc_record_kind kind)
     io.strict = cli_get(opts, n_opts, "strict") != NULL;
     io.on_reject = on_reject;
     io.payload = &t;
+    if (getenv("CONCORD_NOW")) /* a fixed clock for reproducible tests */
+        io.now = strtoll(getenv("CONCORD_NOW"), NULL, 10);
 
     cc_error err = CC_ERROR_INIT;
     cc_store *store = NULL;

@@ -6,6 +6,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <time.h>
 
 #include "date.h"
 #include "event_parse.h"
@@ -41,6 +42,7 @@ struct cc_ingest {
     int n_models;
     int in_tx;
     int64_t since_commit;
+    int64_t now; /* arrival time given to delayed labels */
     strict_reject *held;
     size_t n_held, cap_held;
 };
@@ -76,6 +78,7 @@ int cc_ingest_create(cc_ingest **out, cc_store *store, const cc_ingest_opts *opt
         ing->opts.model = "default";
     if (ing->opts.batch < 1)
         ing->opts.batch = 20000;
+    ing->now = opts->now > 0 ? opts->now : (int64_t)time(NULL);
     int rc = begin(ing, err);
     if (rc) {
         cc_ingest_free(ing);
@@ -268,31 +271,33 @@ static int reject(cc_ingest *ing, const char *kind, const char *source, const cc
 static int apply_label(cc_ingest *ing, model_state *ms, const char *id, int id_len, int label,
                        cc_error *err)
 {
-    int found, old;
-    int64_t day;
-    int rc = cc_store_event_get(ing->store, ms->model, id, id_len, &found, &day, &old,
-                                ms->probs, err);
+    int found;
+    cc_stored_event ev;
+    int rc = cc_store_event_get(ing->store, ms->model, id, id_len, &found, &ev, ms->probs, err);
     if (rc)
         return rc;
     if (!found) {
         ing->stats.labels_pending++;
         return cc_store_pending_label_add(ing->store, ms->model, id, id_len, label, err);
     }
-    if (old == label) {
+    if (ev.label == label) {
         ing->stats.labels_unchanged++;
         return 0;
     }
-    cc_summary *d = delta_for(ms, day);
+    cc_summary *d = delta_for(ms, ev.day);
     if (!d)
         return cc_error_set(err, CC_ENOMEM, "out of memory");
-    if (old >= 0) {
-        cc_summary_add_labeled(d, ms->probs, old, -1);
+    if (ev.label >= 0) {
+        cc_summary_add_labeled(d, ms->probs, ev.label, -1);
         ing->stats.labels_changed++;
     }
+    if (ev.label_at >= 0)
+        cc_summary_add_label_delay(d, ev.label_at - ev.ts, -1);
     cc_summary_add_labeled(d, ms->probs, label, 1);
+    cc_summary_add_label_delay(d, ing->now - ev.ts, 1);
     mark_dirty(ms);
     ing->stats.labels_set++;
-    return cc_store_event_set_label(ing->store, ms->model, id, id_len, label, err);
+    return cc_store_event_set_label(ing->store, ms->model, id, id_len, label, ing->now, err);
 }
 
 static int resolve_label(const cc_model *model, int label, const char *name, int *out,

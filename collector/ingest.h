@@ -28,9 +28,10 @@ typedef struct cc_ingest_opts {
     int batch;                  /* lines per transaction */
     cc_reject_fn on_reject;
     void *payload;
+    int64_t now;                /* Unix time delayed labels arrive at; 0 = the clock */
 } cc_ingest_opts;
 
-#define CC_INGEST_OPTS_INIT {"default", NULL, 0, NULL, 0, 0, 20000, NULL, NULL}
+#define CC_INGEST_OPTS_INIT {"default", NULL, 0, NULL, 0, 0, 20000, NULL, NULL, 0}
 
 typedef struct cc_ingest_stats {
     int64_t lines;              /* non-blank lines read */

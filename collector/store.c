@@ -27,8 +27,10 @@ enum {
 static const char *const stmt_sql[ST_COUNT] = {
     [ST_EVENT_INSERT] = "INSERT OR IGNORE INTO events(model_id, id, ts, day, segment, pred, "
                         "label, probs) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8)",
-    [ST_EVENT_GET] = "SELECT day, label, probs FROM events WHERE model_id = ?1 AND id = ?2",
-    [ST_EVENT_SET_LABEL] = "UPDATE events SET label = ?3 WHERE model_id = ?1 AND id = ?2",
+    [ST_EVENT_GET] = "SELECT day, label, probs, ts, label_at FROM events "
+                     "WHERE model_id = ?1 AND id = ?2",
+    [ST_EVENT_SET_LABEL] = "UPDATE events SET label = ?3, label_at = ?4 "
+                           "WHERE model_id = ?1 AND id = ?2",
     [ST_SUMMARY_GET] = "SELECT version, counters FROM summaries WHERE model_id = ?1 AND day = ?2",
     [ST_SUMMARY_PUT] = "INSERT OR REPLACE INTO summaries(model_id, day, version, events, "
                        "labeled, counters) VALUES (?1, ?2, ?3, ?4, ?5, ?6)",
@@ -52,7 +54,8 @@ static const char schema_sql[] =
     "  member_names TEXT NOT NULL, class_names TEXT NOT NULL, created_at INTEGER NOT NULL);"
     "CREATE TABLE IF NOT EXISTS events("
     "  model_id INTEGER NOT NULL, id TEXT NOT NULL, ts INTEGER NOT NULL, day INTEGER NOT NULL,"
-    "  segment TEXT, pred INTEGER NOT NULL, label INTEGER, probs BLOB NOT NULL,"
+    "  segment TEXT, pred INTEGER NOT NULL, label INTEGER, label_at INTEGER,"
+    "  probs BLOB NOT NULL,"
     "  PRIMARY KEY(model_id, id)) WITHOUT ROWID;"
     "CREATE INDEX IF NOT EXISTS events_by_time ON events(model_id, day, ts);"
     "CREATE TABLE IF NOT EXISTS summaries("
@@ -342,7 +345,7 @@ int cc_store_event_insert(cc_store *s, const cc_model *m, const char *id, int id
 }
 
 int cc_store_event_get(cc_store *s, const cc_model *m, const char *id, int id_len, int *found,
-                       int64_t *day, int *label, float *probs, cc_error *err)
+                       cc_stored_event *out, float *probs, cc_error *err)
 {
     sqlite3_stmt *st = stmt(s, ST_EVENT_GET);
     sqlite3_bind_int64(st, 1, m->id);
@@ -358,20 +361,23 @@ int cc_store_event_get(cc_store *s, const cc_model *m, const char *id, int id_le
         return cc_error_set(err, CC_EIO, "%s: event '%.*s' has a damaged probability blob",
                             s->path, id_len, id);
     *found = 1;
-    *day = sqlite3_column_int64(st, 0);
-    *label = sqlite3_column_type(st, 1) == SQLITE_NULL ? -1 : sqlite3_column_int(st, 1);
+    out->day = sqlite3_column_int64(st, 0);
+    out->label = sqlite3_column_type(st, 1) == SQLITE_NULL ? -1 : sqlite3_column_int(st, 1);
+    out->ts = sqlite3_column_int64(st, 3);
+    out->label_at = sqlite3_column_type(st, 4) == SQLITE_NULL ? -1 : sqlite3_column_int64(st, 4);
     memcpy(probs, sqlite3_column_blob(st, 2), want);
     sqlite3_reset(st);
     return 0;
 }
 
 int cc_store_event_set_label(cc_store *s, const cc_model *m, const char *id, int id_len,
-                             int label, cc_error *err)
+                             int label, int64_t label_at, cc_error *err)
 {
     sqlite3_stmt *st = stmt(s, ST_EVENT_SET_LABEL);
     sqlite3_bind_int64(st, 1, m->id);
     sqlite3_bind_text(st, 2, id, id_len, SQLITE_STATIC);
     sqlite3_bind_int(st, 3, label);
+    sqlite3_bind_int64(st, 4, label_at);
     if (sqlite3_step(st) != SQLITE_DONE)
         return db_error(s, err, "updating label");
     return 0;
@@ -485,7 +491,8 @@ int cc_store_summary_from_rows(cc_store *s, const cc_model *m, int64_t day, cc_s
     if (!probs)
         return cc_error_set(err, CC_ENOMEM, "out of memory");
     if (sqlite3_prepare_v2(s->db,
-                           "SELECT label, probs FROM events WHERE model_id = ?1 AND day = ?2",
+                           "SELECT label, probs, ts, label_at FROM events "
+                           "WHERE model_id = ?1 AND day = ?2",
                            -1, &st, NULL) != SQLITE_OK) {
         free(probs);
         return db_error(s, err, "reading events");
@@ -501,6 +508,9 @@ int cc_store_summary_from_rows(cc_store *s, const cc_model *m, int64_t day, cc_s
         cc_summary_add_unlabeled(out, probs, 1);
         if (sqlite3_column_type(st, 0) != SQLITE_NULL)
             cc_summary_add_labeled(out, probs, sqlite3_column_int(st, 0), 1);
+        if (sqlite3_column_type(st, 3) != SQLITE_NULL)
+            cc_summary_add_label_delay(out, sqlite3_column_int64(st, 3) - sqlite3_column_int64(st, 2),
+                                       1);
     }
     sqlite3_finalize(st);
     free(probs);

@@ -50,12 +50,19 @@ int cc_store_event_insert(cc_store *s, const cc_model *m, const char *id, int id
                           int64_t ts, const char *segment, int segment_len, int pred,
                           int label, const float *probs, int *inserted, cc_error *err);
 
-/* Looks an event up. *found = 0 when absent; otherwise day, label (-1) and
- * probs (m*k floats) are filled. */
+typedef struct cc_stored_event {
+    int64_t day, ts;
+    int label;          /* -1 when unknown */
+    int64_t label_at;   /* Unix time a delayed label arrived; -1 for inline or none */
+} cc_stored_event;
+
+/* Looks an event up. *found = 0 when absent; otherwise out and probs (m*k
+ * floats) are filled. */
 int cc_store_event_get(cc_store *s, const cc_model *m, const char *id, int id_len, int *found,
-                       int64_t *day, int *label, float *probs, cc_error *err);
+                       cc_stored_event *out, float *probs, cc_error *err);
+/* Sets a delayed label and the time it arrived. */
 int cc_store_event_set_label(cc_store *s, const cc_model *m, const char *id, int id_len,
-                             int label, cc_error *err);
+                             int label, int64_t label_at, cc_error *err);
 
 /* summary(model, day) += delta. */
 int cc_store_summary_add(cc_store *s, const cc_model *m, int64_t day, const cc_summary *delta,

@@ -4,11 +4,12 @@
  * camera image makes it look like a blurred grade vector a ~ Dirichlet around
  * the true grade (with leakage to neighbouring grades). Each member sees the
  * fruit its own way: b_m ~ Dirichlet around the true grade, and answers
- * p_m ~ Dirichlet(gamma (w a + (1-w) b_m)). Incidents change gamma, w and the
- * grade mix. Random numbers: GSL's mt19937 and gsl_ran_dirichlet. */
+ * p_m ~ Dirichlet(gamma (w a + (1-w) b_m)), sharpened as p^t / sum p^t.
+ * Incidents change gamma, w and the grade mix. Random numbers: GSL's mt19937 and gsl_ran_dirichlet. */
 #include "packhouse.h"
 
 #include <errno.h>
+#include <math.h>
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
 #include <stdio.h>
@@ -33,6 +34,16 @@ static void around(double *alpha, int y, double strength, double leak)
     }
     for (int c = 0; c < K; c++)
         alpha[c] = strength * alpha[c] / sum + 0.02;
+}
+
+/* p <- p^t / sum p^t: members trained to be confident (t > 1). */
+static void sharpen(double *p, double t)
+{
+    double sum = 0.0;
+    for (int c = 0; c < K; c++)
+        sum += (p[c] = pow(p[c], t));
+    for (int c = 0; c < K; c++)
+        p[c] /= sum;
 }
 
 static int draw_grade(gsl_rng *r, const double *mix)
@@ -91,6 +102,7 @@ int cc_demo_generate(const char *events_path, const char *labels_path, const cc_
                 for (int c = 0; c < K; c++)
                     mixed[c] = gamma * (w * a[c] + (1.0 - w) * b[c]) + 1e-3;
                 gsl_ran_dirichlet(r, K, mixed, p[m]);
+                sharpen(p[m], copies ? 2.0 : 2.4);
             }
             int64_t ts = t0 + (int64_t)((double)i * 86400.0 / o->per_day);
             int y_, mo, d;

@@ -55,6 +55,10 @@ int cc_layout_init(cc_layout *out, int m, int k)
     SECTION(member_calib, M * C * 3);
     SECTION(member_brier_fx, M);
     SECTION(member_nll_fx, M);
+    SECTION(em_cells, K * CC_EM_BINS * (K + 1));
+    SECTION(em_cell_labels, K * CC_EM_BINS * K);
+    SECTION(delayed_labels, 1);
+    SECTION(label_delay_s, 1);
 #undef SECTION
     out->len = at;
     return 0;
@@ -275,11 +279,30 @@ void cc_summary_add_unlabeled(cc_summary *s, const float *probs, int sign)
         v[L->contested + (size_t)lo * k + hi] += sign;
     }
 
+    int64_t *cell = v + L->em_cells + (size_t)cc_em_cell(e.avg, k) * (size_t)(k + 1);
+    cell[0] += sign;
+    for (int c = 0; c < k; c++)
+        cell[1 + c] += sign * fx(e.avg[c]);
+
     v[L->hist_maxprob + cc_hist_bin_prob(e.avg[e.ens])] += sign;
     v[L->hist_entropy + cc_hist_bin_nats(u.total_nats)] += sign;
     v[L->hist_mi + cc_hist_bin_nats(u.mutual_nats)] += sign;
     for (int c = 0; c < k; c++)
         v[L->hist_class + (size_t)c * CC_HIST_BINS + cc_hist_bin_prob(e.avg[c])] += sign;
+}
+
+int cc_em_cell(const double *avg, int k)
+{
+    int top = cc_argmax_d(avg, k);
+    int b = (int)ceil(avg[top] * CC_EM_BINS) - 1;
+    b = b < 0 ? 0 : b >= CC_EM_BINS ? CC_EM_BINS - 1 : b;
+    return top * CC_EM_BINS + b;
+}
+
+void cc_summary_add_label_delay(cc_summary *s, int64_t delay_s, int sign)
+{
+    s->v[s->lay.delayed_labels] += sign;
+    s->v[s->lay.label_delay_s] += sign * (delay_s > 0 ? delay_s : 0);
 }
 
 /* Adds a probability vector's calibration terms to (calib, brier, nll). */
@@ -341,6 +364,7 @@ void cc_summary_add_labeled(cc_summary *s, const float *probs, int label, int si
             v[L->pair_oracle + p * 4 + cell] += sign;
         }
 
+    v[L->em_cell_labels + (size_t)cc_em_cell(e.avg, k) * k + label] += sign;
     add_calibration(v + L->calib, v + L->brier_fx, v + L->nll_fx, e.avg, k, label, sign);
     double row[CC_MAX_CLASSES];
     for (int i = 0; i < m; i++) {

@@ -19,7 +19,8 @@
 
 #define CC_FIXED_SCALE 1e9     /* fixed-point units per nat (or per unit) */
 #define CC_CALIB_BINS 15       /* equal-width confidence bins, Guo et al. 2017 */
-#define CC_HIST_BINS 256       /* fine score histograms, see cc_hist_bin_* */
+#define CC_HIST_BINS 1024      /* fine score histograms, see cc_hist_bin_* */
+#define CC_EM_BINS 10          /* confidence cells per predicted class for EM, see em_cells */
 #define CC_SUMMARY_VERSION 1   /* bump when the layout below changes */
 #define CC_MAX_MEMBERS 64
 #define CC_MAX_CLASSES 256
@@ -61,6 +62,13 @@ typedef struct cc_layout {
     size_t member_calib;       /* M*CALIB_BINS*3 */
     size_t member_brier_fx;    /* M */
     size_t member_nll_fx;      /* M */
+    /* label-free again (added for label-shift estimation and label age) */
+    size_t em_cells;           /* K*EM_BINS*(1+K): per (predicted class, confidence cell):
+                                  count, then K sums of the averaged output (fixed point) */
+    size_t em_cell_labels;     /* K*EM_BINS*K: labelled events per (cell, true class), to
+                                  recalibrate the cells' posteriors (histogram binning) */
+    size_t delayed_labels;     /* 1: labels that arrived after their event was stored */
+    size_t label_delay_s;      /* 1: sum of (label arrival - event time), seconds */
 } cc_layout;
 
 #define CC_NLL_EPS 1e-15       /* probability floor for the log-loss (common practice) */
@@ -99,13 +107,21 @@ int cc_summary_equal(const cc_summary *a, const cc_summary *b);
 void cc_summary_add_unlabeled(cc_summary *s, const float *probs, int sign);
 void cc_summary_add_labeled(cc_summary *s, const float *probs, int label, int sign);
 
+/* A delayed label's age: arrival time minus event time, in seconds. */
+void cc_summary_add_label_delay(cc_summary *s, int64_t delay_s, int sign);
+
+/* EM cell of an averaged output: predicted class * CC_EM_BINS + confidence
+ * bin (equal-width on [0, 1], edges to the lower bin). */
+int cc_em_cell(const double *avg, int k);
+
 /* Argmax of x[0..n-1] with ties to the lowest index. */
 int cc_argmax_f(const float *x, int n);
 int cc_argmax_d(const double *x, int n);
 
 /* Histogram binning shared by writer and reader. Probabilities use a logit
  * scale on [-16, 16] so bins are fine where values crowd (near 0 and 1);
- * nats use a log10 scale on [1e-6, 16], with bin 0 = [0, 1e-6). */
+ * nats use a log10 scale on [1e-6, 16], with bin 0 = [0, 1e-6).
+ * With 1024 bins: 0.03125 logit units, or 0.7 % of the value in nats. */
 int cc_hist_bin_prob(double p);
 int cc_hist_bin_nats(double h);
 /* Upper edge of bin b of each scale (for CDFs). */

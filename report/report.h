@@ -6,6 +6,8 @@
 
 #include <stdint.h>
 
+#include "compare.h"
+#include "control.h"
 #include "error.h"
 #include "store.h"
 #include "window.h"
@@ -23,12 +25,19 @@ typedef struct cc_report_window {
     int64_t from, to;           /* days */
     cc_summary *summary;
     cc_window_metrics metrics;
+    cc_comparison cmp;          /* against the baseline (has_baseline = 0 without one) */
+    double *z;                  /* cc_tracked_count(): z-score against the baseline days */
+    double *ewma;               /* the same figures' EWMA over day windows; NULL otherwise */
 } cc_report_window;
 
 typedef struct cc_report {
     cc_model *model;
     int has_baseline;
-    int64_t baseline_from, baseline_to, baseline_events;
+    int64_t baseline_from, baseline_to, baseline_events, baseline_labeled;
+    int baseline_days;          /* days with events in the baseline period */
+    cc_summary *baseline;       /* merged baseline summary, NULL without one */
+    cc_baseline_stat *stats;    /* cc_tracked_count(): the baseline days' mean and sd */
+    cc_grouping by;
     cc_report_window *windows;
     int n_windows;
 } cc_report;

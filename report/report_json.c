@@ -6,6 +6,7 @@
 
 #include "date.h"
 #include "report.h"
+#include "tracked.h"
 
 static cJSON *num(double x) { return isfinite(x) ? cJSON_CreateNumber(x) : cJSON_CreateNull(); }
 
@@ -45,6 +46,109 @@ static cJSON *pair_matrix(const cc_pair_matrix *pm, int m)
         cJSON_AddItemToArray(rows, row);
     }
     cJSON_AddItemToObject(o, "pairs", rows);
+    return o;
+}
+
+static cJSON *nums(const double *x, int n)
+{
+    cJSON *a = cJSON_CreateArray();
+    for (int i = 0; i < n; i++)
+        cJSON_AddItemToArray(a, num(x[i]));
+    return a;
+}
+
+static cJSON *ks_json(cc_ks ks)
+{
+    cJSON *o = cJSON_CreateObject();
+    cJSON_AddItemToObject(o, "ks", num(ks.d));
+    cJSON_AddItemToObject(o, "p_value", num(ks.p_value));
+    return o;
+}
+
+static cJSON *drift_json(const cc_comparison *c)
+{
+    if (!c->has_baseline)
+        return cJSON_CreateNull();
+    cJSON *o = cJSON_CreateObject();
+    cJSON_AddBoolToObject(o, "too_few_events", !c->enough);
+    cJSON *mix = cJSON_AddObjectToObject(o, "class_mix");
+    cJSON_AddItemToObject(mix, "chi2", num(c->class_mix.stat));
+    if (c->class_mix.dof > 0)
+        cJSON_AddNumberToObject(mix, "dof", c->class_mix.dof);
+    else
+        cJSON_AddNullToObject(mix, "dof");
+    cJSON_AddItemToObject(mix, "p_value", num(c->class_mix.p_value));
+    cJSON_AddItemToObject(mix, "g2", num(c->class_mix.g_stat));
+    cJSON_AddItemToObject(mix, "psi", num(c->class_mix_psi));
+    cJSON_AddItemToObject(mix, "js", num(c->class_mix_js_bits));
+    cJSON_AddItemToObject(o, "max_prob", ks_json(c->max_prob));
+    cJSON_AddItemToObject(o, "entropy", ks_json(c->entropy));
+    cJSON_AddItemToObject(o, "mutual_information", ks_json(c->mutual_information));
+    cJSON *pc = cJSON_AddObjectToObject(o, "per_class");
+    cJSON *ks = cJSON_AddArrayToObject(pc, "ks"), *ps = cJSON_AddArrayToObject(pc, "p_values");
+    for (int i = 0; i < c->k; i++) {
+        cJSON_AddItemToArray(ks, num(c->per_class[i].d));
+        cJSON_AddItemToArray(ps, num(c->per_class[i].p_value));
+    }
+    cJSON_AddItemToObject(pc, "min_p_bonferroni", num(c->per_class_min_p_bonferroni));
+    cJSON_AddItemToObject(o, "members_psi", nums(c->members_psi, c->m));
+    return o;
+}
+
+static cJSON *label_shift_json(const cc_comparison *c)
+{
+    if (!c->has_baseline)
+        return cJSON_CreateNull();
+    cJSON *o = cJSON_CreateObject();
+    cJSON_AddItemToObject(o, "baseline_priors", nums(c->baseline_priors, c->k));
+    cJSON_AddItemToObject(o, "bbse", c->bbse_ok ? nums(c->bbse, c->k) : cJSON_CreateNull());
+    cJSON_AddItemToObject(o, "em", c->em_ok ? nums(c->em, c->k) : cJSON_CreateNull());
+    cJSON_AddItemToObject(o, "condition_number", num(c->bbse_condition_number));
+    cJSON_AddNumberToObject(o, "em_iterations", c->em_iterations);
+    cJSON_AddBoolToObject(o, "em_converged", c->em_converged);
+    cJSON_AddBoolToObject(o, "bbse_regularized", c->bbse_regularized);
+    cJSON_AddBoolToObject(o, "bbse_clipped", c->bbse_clipped);
+    cJSON_AddItemToObject(o, "bbse_l1", num(c->bbse_l1));
+    cJSON_AddItemToObject(o, "em_l1", num(c->em_l1));
+    cJSON_AddItemToObject(o, "label_mix", c->has_labels ? nums(c->label_mix, c->k)
+                                                        : cJSON_CreateNull());
+    return o;
+}
+
+static cJSON *calibration_one(const cc_calibration *cal)
+{
+    cJSON *o = cJSON_CreateObject();
+    cJSON_AddItemToObject(o, "ece", num(cal->ece));
+    cJSON_AddItemToObject(o, "mce", num(cal->mce));
+    cJSON_AddItemToObject(o, "brier", num(cal->brier));
+    cJSON_AddItemToObject(o, "nll", num(cal->nll));
+    return o;
+}
+
+static cJSON *calibration_json(const cc_comparison *c)
+{
+    if (!c->has_labels)
+        return cJSON_CreateNull();
+    cJSON *o = calibration_one(&c->calibration);
+    cJSON *bins = cJSON_AddArrayToObject(o, "bins");
+    for (int b = 0; b < CC_CALIB_BINS; b++) {
+        cJSON *e = cJSON_CreateObject();
+        cJSON_AddNumberToObject(e, "count", (double)c->calibration.bins[b].count);
+        cJSON_AddItemToObject(e, "confidence", num(c->calibration.bins[b].confidence));
+        cJSON_AddItemToObject(e, "accuracy", num(c->calibration.bins[b].accuracy));
+        cJSON_AddItemToArray(bins, e);
+    }
+    cJSON *mem = cJSON_AddArrayToObject(o, "members");
+    for (int i = 0; i < c->m; i++)
+        cJSON_AddItemToArray(mem, calibration_one(&c->member_calibration[i]));
+    return o;
+}
+
+static cJSON *tracked_json(const double *x)
+{
+    cJSON *o = cJSON_CreateObject();
+    for (int t = 0; t < cc_tracked_count(); t++)
+        cJSON_AddItemToObject(o, cc_tracked_path(t), num(x[t]));
     return o;
 }
 
@@ -98,6 +202,10 @@ static cJSON *window_json(const cc_report_window *w, int m, int k)
         cJSON_AddNumberToObject(a, "vote_ties", (double)x->vote_ties_labeled);
         cJSON_AddItemToObject(a, "oracle", num(x->oracle_accuracy));
         cJSON_AddNumberToObject(a, "best_member", x->best_member);
+        cJSON_AddItemToObject(a, "best_member_accuracy",
+                              num(x->member_accuracy[x->best_member]));
+        cJSON_AddItemToObject(a, "ensemble_gain",
+                              num(x->ensemble_accuracy - x->member_accuracy[x->best_member]));
         cJSON *mc = cJSON_AddObjectToObject(a, "mcnemar");
         cJSON_AddNumberToObject(mc, "ensemble_only", (double)x->mcnemar_ensemble_only);
         cJSON_AddNumberToObject(mc, "best_only", (double)x->mcnemar_best_only);
@@ -115,6 +223,18 @@ static cJSON *window_json(const cc_report_window *w, int m, int k)
         cJSON_AddItemToArray(cp, e);
     }
     cJSON_AddNumberToObject(o, "vote_ties_all", (double)x->vote_ties);
+
+    const cc_comparison *c = &w->cmp;
+    cJSON_AddItemToObject(o, "drift", drift_json(c));
+    cJSON_AddItemToObject(o, "label_shift", label_shift_json(c));
+    cJSON_AddItemToObject(o, "calibration", calibration_json(c));
+    cJSON *lab = cJSON_AddObjectToObject(o, "labels");
+    cJSON_AddItemToObject(lab, "coverage", num(c->label_coverage));
+    cJSON_AddNumberToObject(lab, "delayed", (double)c->delayed_labels);
+    cJSON_AddItemToObject(lab, "mean_delay_hours", num(c->mean_label_delay_hours));
+    cJSON_AddItemToObject(o, "zscores", tracked_json(w->z));
+    if (w->ewma)
+        cJSON_AddItemToObject(o, "ewma", tracked_json(w->ewma));
     return o;
 }
 
@@ -130,9 +250,28 @@ char *cc_report_json(const cc_report *r)
         cJSON_AddItemToObject(b, "from", date(r->baseline_from));
         cJSON_AddItemToObject(b, "to", date(r->baseline_to));
         cJSON_AddNumberToObject(b, "events", (double)r->baseline_events);
+        cJSON_AddNumberToObject(b, "labeled", (double)r->baseline_labeled);
+        cJSON_AddNumberToObject(b, "days", r->baseline_days);
+        cJSON *st = cJSON_AddObjectToObject(b, "daily");
+        for (int t = 0; t < cc_tracked_count(); t++) {
+            cJSON *e = cJSON_CreateObject();
+            cJSON_AddItemToObject(e, "mean", num(r->stats[t].mean));
+            cJSON_AddItemToObject(e, "sd", num(r->stats[t].sd));
+            cJSON_AddNumberToObject(e, "days", r->stats[t].n);
+            cJSON_AddItemToObject(st, cc_tracked_path(t), e);
+        }
     } else {
         cJSON_AddNullToObject(root, "baseline");
     }
+    cJSON *set = cJSON_AddObjectToObject(root, "settings");
+    cJSON_AddNumberToObject(set, "psi_epsilon", CC_PSI_EPSILON);
+    cJSON_AddNumberToObject(set, "ewma_lambda", CC_EWMA_LAMBDA);
+    cJSON_AddNumberToObject(set, "min_events_for_tests", CC_DRIFT_MIN_EVENTS);
+    cJSON_AddNumberToObject(set, "min_baseline_days_for_z", CC_BASELINE_MIN_DAYS);
+    cJSON_AddNumberToObject(set, "calibration_bins", CC_CALIB_BINS);
+    cJSON_AddNumberToObject(set, "nll_epsilon", CC_NLL_EPS);
+    cJSON_AddNumberToObject(set, "histogram_bins", CC_HIST_BINS);
+    cJSON_AddStringToObject(set, "ks_p_value", "Kolmogorov limit, sqrt(nm/(n+m)) D");
     cJSON *ws = cJSON_AddArrayToObject(root, "windows");
     for (int i = 0; i < r->n_windows; i++)
         cJSON_AddItemToArray(ws, window_json(&r->windows[i], m->m, m->k));

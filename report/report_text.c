@@ -8,6 +8,7 @@
 
 #include "date.h"
 #include "report.h"
+#include "tracked.h"
 
 static void fnum(FILE *f, int width, int prec, double x)
 {
@@ -86,6 +87,116 @@ static void class_mix(FILE *f, const cc_report *r, int labels)
     }
 }
 
+static void fp(FILE *f, int width, double p)
+{
+    if (!isfinite(p))
+        fprintf(f, " %*s", width, "-");
+    else if (p < 1e-4)
+        fprintf(f, " %*s", width, "<1e-4");
+    else
+        fprintf(f, " %*.4f", width, p);
+}
+
+static int tracked_index(const char *path)
+{
+    for (int t = 0; t < cc_tracked_count(); t++)
+        if (strcmp(cc_tracked_path(t), path) == 0)
+            return t;
+    return -1;
+}
+
+static void drift_table(FILE *f, const cc_report *r)
+{
+    int zd = tracked_index("diversity.disagreement.mean");
+    int zm = tracked_index("uncertainty.mutual_information");
+    int za = tracked_index("accuracy.ensemble");
+    fprintf(f, "\nagainst the baseline (p-values of the class-mix chi-square, of KS on the\n"
+               "averaged output's max probability and mutual information, and the\n"
+               "Bonferroni minimum over per-class KS; z = (x - baseline mean)/sd of days)\n");
+    fprintf(f, "%-23s %7s %6s %6s %6s %7s %6s %7s %7s %6s %6s %6s %6s %6s %6s\n", "window",
+            "mix p", "PSI", "KS max", "p", "KS MI", "p", "class p", "BBSE L1", "EM L1", "ECE",
+            "cover", "z dis", "z MI", "z acc");
+    for (int i = 0; i < r->n_windows; i++) {
+        const cc_report_window *w = &r->windows[i];
+        const cc_comparison *c = &w->cmp;
+        window_label(f, w);
+        fp(f, 7, c->class_mix.p_value);
+        fnum(f, 6, 3, c->class_mix_psi);
+        fnum(f, 6, 3, c->max_prob.d);
+        fp(f, 6, c->max_prob.p_value);
+        fnum(f, 7, 3, c->mutual_information.d);
+        fp(f, 6, c->mutual_information.p_value);
+        fp(f, 7, c->per_class_min_p_bonferroni);
+        fnum(f, 7, 3, c->bbse_l1);
+        fnum(f, 6, 3, c->em_l1);
+        fnum(f, 6, 3, c->has_labels ? c->calibration.ece : NAN);
+        fnum(f, 6, 2, c->label_coverage);
+        fnum(f, 6, 1, w->z[zd]);
+        fnum(f, 6, 1, w->z[zm]);
+        fnum(f, 6, 1, w->z[za]);
+        fputc('\n', f);
+    }
+}
+
+static void shift_detail(FILE *f, const cc_report *r, const cc_comparison *c)
+{
+    const cc_model *m = r->model;
+    if (!c->has_baseline)
+        return;
+    fprintf(f, "\nclass mix of the truth: baseline labels, estimates for this window, and\n"
+               "the window's own labels (once they arrive)\n");
+    fprintf(f, "  %-12s %9s %9s %9s %9s\n", "class", "baseline", "BBSE", "EM", "labels");
+    for (int k = 0; k < m->k; k++) {
+        fprintf(f, "  %-12.12s", m->classes[k]);
+        fnum(f, 9, 3, c->baseline_priors[k]);
+        fnum(f, 9, 3, c->bbse_ok ? c->bbse[k] : NAN);
+        fnum(f, 9, 3, c->em_ok ? c->em[k] : NAN);
+        fnum(f, 9, 3, c->label_mix[k]);
+        fputc('\n', f);
+    }
+    fprintf(f, "  BBSE: condition number %.3g%s%s; EM: %d iterations%s\n",
+            c->bbse_condition_number, c->bbse_regularized ? ", regularized" : "",
+            c->bbse_clipped ? ", negative weights clipped" : "", c->em_iterations,
+            c->em_converged ? "" : " (did not converge)");
+    fprintf(f, "\neach member's predicted-class mix against the baseline (PSI)\n ");
+    for (int i = 0; i < m->m; i++) {
+        fprintf(f, " %s", m->members[i]);
+        fnum(f, 1, 4, c->members_psi[i]);
+    }
+    fprintf(f, "\nKS per class of the averaged probability (p)\n ");
+    for (int k = 0; k < m->k; k++) {
+        fprintf(f, " %s", m->classes[k]);
+        fp(f, 1, c->per_class[k].p_value);
+    }
+    fputc('\n', f);
+}
+
+static void calibration_detail(FILE *f, const cc_model *m, const cc_comparison *c)
+{
+    if (!c->has_labels)
+        return;
+    const cc_calibration *cal = &c->calibration;
+    fprintf(f, "\ncalibration of the averaged output on %lld labelled events: ECE %.4f, MCE %.4f, "
+               "Brier %.4f, NLL %.4f\n",
+            (long long)cal->n, cal->ece, cal->mce, cal->brier, cal->nll);
+    fprintf(f, "  %-13s %8s %10s %9s\n", "confidence", "events", "mean conf", "accuracy");
+    for (int b = 0; b < CC_CALIB_BINS; b++) {
+        if (cal->bins[b].count == 0)
+            continue;
+        fprintf(f, "  (%.3f,%.3f] %8lld", (double)b / CC_CALIB_BINS, (double)(b + 1) / CC_CALIB_BINS,
+                (long long)cal->bins[b].count);
+        fnum(f, 10, 3, cal->bins[b].confidence);
+        fnum(f, 9, 3, cal->bins[b].accuracy);
+        fputc('\n', f);
+    }
+    fprintf(f, "  members' ECE:");
+    for (int i = 0; i < m->m; i++) {
+        fprintf(f, " %s", m->members[i]);
+        fnum(f, 1, 4, c->member_calibration[i].ece);
+    }
+    fputc('\n', f);
+}
+
 static void matrix(FILE *f, const char *title, const cc_pair_matrix *pm, const cc_model *m)
 {
     fprintf(f, "\n%s (mean ", title);
@@ -140,6 +251,8 @@ static void detail(FILE *f, const cc_report *r, const cc_report_window *w)
                 x->nonpairwise.interrater_kappa, x->nonpairwise.difficulty,
                 x->nonpairwise.generalized_diversity);
     }
+    shift_detail(f, r, &w->cmp);
+    calibration_detail(f, m, &w->cmp);
     if (x->n_contested > 0) {
         fprintf(f, "\ncontested class pairs (members' top classes differ; averaged top two)\n");
         for (int i = 0; i < x->n_contested && i < 10; i++)
@@ -161,7 +274,8 @@ char *cc_report_text(const cc_report *r)
         char a[11], b[11];
         cc_format_date(r->baseline_from, a);
         cc_format_date(r->baseline_to, b);
-        fprintf(f, "baseline %s..%s, %lld events\n", a, b, (long long)r->baseline_events);
+        fprintf(f, "baseline %s..%s: %d days, %lld events, %lld labelled\n", a, b,
+                r->baseline_days, (long long)r->baseline_events, (long long)r->baseline_labeled);
     } else {
         fprintf(f, "no baseline set\n");
     }
@@ -172,6 +286,8 @@ char *cc_report_text(const cc_report *r)
         headline(f, r);
         class_mix(f, r, 0);
         class_mix(f, r, 1);
+        if (r->has_baseline)
+            drift_table(f, r);
         if (r->n_windows == 1)
             detail(f, r, &r->windows[0]);
     }

@@ -4,6 +4,8 @@
 # exactly the summaries of an uninterrupted run.
 # Usage: kill_ingest.sh CONCORD
 set -euo pipefail
+# a fixed arrival time for delayed labels, so reports of separate runs can be compared
+export CONCORD_NOW=1790000000
 CONCORD=$1
 T=$(mktemp -d)
 trap 'rm -rf "$T"' EXIT

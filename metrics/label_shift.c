@@ -1,0 +1,263 @@
+/* label_shift.c — how the class mix of the truth in a window has probably
+ * moved from the baseline's, before the window's labels arrive. Two
+ * estimators under label shift (p(x|y) fixed, p(y) moves): black box shift
+ * estimation from confusion counts, and EM prior adjustment from source
+ * posteriors. SVD from GSL. Pure numbers: no I/O, no globals. */
+#include "label_shift.h"
+
+#include <gsl/gsl_linalg.h>
+#include <gsl/gsl_matrix.h>
+#include <gsl/gsl_vector.h>
+#include <math.h>
+#include <stdlib.h>
+
+static void fill_nan(double *x, int n)
+{
+    for (int i = 0; i < n; i++)
+        x[i] = NAN;
+}
+
+/* Black Box Shift Estimation: Lipton, Wang & Smola (2018), "Detecting and
+ * correcting for label shift with black box predictors", ICML.
+ *
+ *   C_ij = P_s(f(x) = i, y = j)      joint confusion on the labelled source
+ *   mu_i = P_t(f(x) = i)             predicted-class fractions of the target
+ *   p_j  = sum_i C_ij                source label fractions
+ *   under label shift  mu = C w,  w_j = q_j / p_j,  so  q_j = w_j p_j.
+ *
+ * Classes with p_j = 0 carry no information about w_j: their columns are
+ * dropped, leaving a K x m system (m = classes seen as labels), solved in
+ * the least-squares sense by the SVD C = U S V^T (Golub & Van Loan, Matrix
+ * Computations):  w = sum_l v_l (u_l . mu) / s_l  over the kept
+ * singular values s_l >= s_max / CC_BBSE_MAX_COND (a truncated
+ * pseudo-inverse, the same as numpy.linalg.lstsq with rcond = 1/MAX_COND).
+ * The condition number reported is s_max / s_min of that K x m matrix.
+ *
+ * Negative w_j (sampling noise, or a violated assumption) are clipped to 0
+ * and q renormalised to sum 1. This is not the same as non-negative least
+ * squares, the other usual remedy, which gives slightly different values
+ * (METHODS.md section 5, computed: [0, 0.678241, 0.321759] clipped vs
+ * [0, 0.678910, 0.321090] by scipy's NNLS on the same counts). */
+int cc_bbse_estimate(cc_bbse *out, const int64_t *confusion, const int64_t *target_pred, int k)
+{
+    out->condition_number = NAN;
+    out->regularized = out->clipped = out->ok = 0;
+    if (k <= 0)
+        return 0;
+    fill_nan(out->priors, k);
+    if (!confusion || !target_pred)
+        return 0;
+
+    int64_t n_source = 0, n_target = 0;
+    for (int i = 0; i < k; i++) {
+        if (target_pred[i] < 0)
+            return 0;
+        n_target += target_pred[i];
+        for (int j = 0; j < k; j++) {
+            if (confusion[(size_t)i * k + j] < 0)
+                return 0;
+            n_source += confusion[(size_t)i * k + j];
+        }
+    }
+    if (n_source <= 0 || n_target <= 0)
+        return 0;
+
+    /* columns kept: classes seen as labels in the source */
+    int m = 0;
+    int *col = malloc(sizeof(int) * (size_t)k);
+    if (!col)
+        return -1;
+    for (int j = 0; j < k; j++) {
+        int64_t s = 0;
+        for (int i = 0; i < k; i++)
+            s += confusion[(size_t)i * k + j];
+        if (s > 0)
+            col[m++] = j;
+    }
+
+    /* A: k x m (becomes U), V: m x m, s, work, w: m, mu: k */
+    const size_t K = (size_t)k, M = (size_t)m;
+    double *buf = malloc(sizeof(double) * (K * M + M * M + 3 * M + K));
+    if (!buf) {
+        free(col);
+        return -1;
+    }
+    double *a = buf, *v = a + K * M, *s = v + M * M, *work = s + M, *w = work + M, *mu = w + M;
+    const double ns = (double)n_source, nt = (double)n_target;
+    for (size_t i = 0; i < K; i++) {
+        mu[i] = (double)target_pred[i] / nt;
+        for (size_t c = 0; c < M; c++)
+            a[i * M + c] = (double)confusion[i * K + (size_t)col[c]] / ns;
+    }
+
+    gsl_matrix_view av = gsl_matrix_view_array(a, K, M);
+    gsl_matrix_view vv = gsl_matrix_view_array(v, M, M);
+    gsl_vector_view sv = gsl_vector_view_array(s, M);
+    gsl_vector_view wv = gsl_vector_view_array(work, M);
+    gsl_linalg_SV_decomp(&av.matrix, &vv.matrix, &sv.vector, &wv.vector);
+
+    double smax = 0.0, smin = INFINITY;
+    for (size_t l = 0; l < M; l++) {
+        smax = fmax(smax, s[l]);
+        smin = fmin(smin, s[l]);
+    }
+    out->condition_number = smin > 0.0 ? smax / smin : INFINITY;
+
+    /* truncated pseudo-inverse: w = V S+ U^T mu */
+    const double floor_s = smax / CC_BBSE_MAX_COND;
+    for (size_t c = 0; c < M; c++)
+        w[c] = 0.0;
+    for (size_t l = 0; l < M; l++) {
+        if (!(s[l] > 0.0 && s[l] >= floor_s)) {
+            out->regularized = 1;
+            continue;
+        }
+        double ut_mu = 0.0;
+        for (size_t i = 0; i < K; i++)
+            ut_mu += a[i * M + l] * mu[i];
+        const double coef = ut_mu / s[l];
+        for (size_t c = 0; c < M; c++)
+            w[c] += v[c * M + l] * coef;
+    }
+
+    /* q_j = w_j p_j, clipped at 0, renormalised */
+    double total = 0.0;
+    for (size_t c = 0; c < M; c++) {
+        double p = 0.0;
+        for (size_t i = 0; i < K; i++)
+            p += (double)confusion[i * K + (size_t)col[c]];
+        double q = w[c] * (p / ns);
+        if (q < 0.0) {
+            q = 0.0;
+            out->clipped = 1;
+        }
+        w[c] = q;
+        total += q;
+    }
+    if (total > 0.0 && isfinite(total)) {
+        for (int j = 0; j < k; j++)
+            out->priors[j] = 0.0;
+        for (size_t c = 0; c < M; c++)
+            out->priors[col[c]] = w[c] / total;
+        out->ok = 1;
+    }
+    free(buf);
+    free(col);
+    return 0;
+}
+
+/* Weight of row r: 1 without weights; rows with weight <= 0 or NaN are left out. */
+static double row_weight(const double *weights, int r)
+{
+    if (!weights)
+        return 1.0;
+    const double x = weights[r];
+    return x > 0.0 && isfinite(x) ? x : 0.0;
+}
+
+/* A posterior entry, with negative or non-finite values read as 0. */
+static double posterior_at(const double *row, int j)
+{
+    const double x = row[j];
+    return x > 0.0 && isfinite(x) ? x : 0.0;
+}
+
+/* One EM step of Saerens, Latinne & Decaestecker (2002), Neural Computation
+ * 14(1):21-41, with row weights:
+ *   E: a_rj = (q_j / p_j) s_rj / sum_l (q_l / p_l) s_rl
+ *   M: q'_j = sum_r u_r a_rj / sum_r u_r
+ * over classes with p_j > 0. Rows whose denominator is 0 (all their mass on
+ * classes absent from the source) are left out of both sums. Writes q' into
+ * next and returns sum_r u_r over the rows used (0: nothing to estimate). */
+static double em_step(double *next, double *ratio, const double *q, const double *p,
+                      const double *posteriors, const double *weights, int n, int k)
+{
+    for (int j = 0; j < k; j++) {
+        ratio[j] = p[j] > 0.0 ? q[j] / p[j] : 0.0;
+        next[j] = 0.0;
+    }
+    double used = 0.0;
+    for (int r = 0; r < n; r++) {
+        const double u = row_weight(weights, r);
+        if (u == 0.0)
+            continue;
+        const double *row = posteriors + (size_t)r * (size_t)k;
+        double denom = 0.0;
+        for (int j = 0; j < k; j++)
+            denom += ratio[j] * posterior_at(row, j);
+        if (!(denom > 0.0) || !isfinite(denom))
+            continue;
+        const double scale = u / denom;
+        for (int j = 0; j < k; j++)
+            next[j] += scale * ratio[j] * posterior_at(row, j);
+        used += u;
+    }
+    if (used > 0.0)
+        for (int j = 0; j < k; j++)
+            next[j] /= used;
+    return used;
+}
+
+/* EM prior adjustment (Saerens, Latinne & Decaestecker 2002). Starting at
+ * q = p (source priors, renormalised over the classes with p_j > 0), each
+ * step cannot lower the log-likelihood sum_r u_r ln sum_j (q_j/p_j) s_rj;
+ * stops when max_j |q'_j - q_j| < tol or after max_iter steps. With group
+ * means as rows and group counts as weights the E-step is applied to each
+ * group's mean posterior, an approximation to running it on every row (the
+ * E-step is not linear in s). Classes with p_j = 0 stay at 0. */
+int cc_em_estimate(cc_em *out, const double *posteriors, const double *weights, int n, int k,
+                   const double *source_priors, double tol, int max_iter)
+{
+    out->iterations = out->converged = out->ok = 0;
+    if (k <= 0)
+        return 0;
+    fill_nan(out->priors, k);
+    if (n <= 0 || !posteriors || !source_priors)
+        return 0;
+
+    double psum = 0.0;
+    for (int j = 0; j < k; j++)
+        if (source_priors[j] > 0.0 && isfinite(source_priors[j]))
+            psum += source_priors[j];
+    if (!(psum > 0.0) || !isfinite(psum))
+        return 0;
+
+    double *buf = malloc(sizeof(double) * (size_t)k * 4);
+    if (!buf)
+        return -1;
+    double *p = buf, *q = p + k, *next = q + k, *ratio = next + k;
+    for (int j = 0; j < k; j++) {
+        const double x = source_priors[j];
+        p[j] = x > 0.0 && isfinite(x) ? x / psum : 0.0;
+        q[j] = p[j];
+    }
+
+    int ok = 1;
+    if (max_iter <= 0) {
+        /* no step taken: still report whether the rows could be used */
+        ok = em_step(next, ratio, q, p, posteriors, weights, n, k) > 0.0;
+    }
+    for (int it = 0; it < max_iter; it++) {
+        if (em_step(next, ratio, q, p, posteriors, weights, n, k) <= 0.0) {
+            ok = 0;
+            break;
+        }
+        double delta = 0.0;
+        for (int j = 0; j < k; j++) {
+            delta = fmax(delta, fabs(next[j] - q[j]));
+            q[j] = next[j];
+        }
+        out->iterations = it + 1;
+        if (delta < tol) {
+            out->converged = 1;
+            break;
+        }
+    }
+    if (ok) {
+        for (int j = 0; j < k; j++)
+            out->priors[j] = q[j];
+        out->ok = 1;
+    }
+    free(buf);
+    return 0;
+}

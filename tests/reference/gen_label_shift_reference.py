@@ -1,0 +1,365 @@
+#!/usr/bin/python3
+"""Reference values for concord's label-shift estimators (metrics/label_shift.c),
+computed with numpy on synthetic data of known class priors.
+
+All data here is synthetic: each case draws a labelled source sample and a
+target sample from Gaussian class-conditional models, x | y=j ~ N(sep*e_j, I)
+in R^K, with source priors p and target priors q chosen by the script. Under
+such a model the source posterior p_s(j | x) is known in closed form, so it is
+calibrated on the source by construction; the classifier is its argmax. Only
+the priors change between source and target (label shift).
+
+For each case the file holds the inputs, the true q, and what numpy computes:
+  bbse: source joint confusion counts + target predicted-class counts; the
+        estimate by numpy.linalg.lstsq (rcond = 1/CC_BBSE_MAX_COND) on the
+        joint confusion fractions, clipped at 0 and renormalised;
+  em:   target posterior rows (in units of 1e-4) + source label fractions;
+        the Saerens-Latinne-Decaestecker EM in plain numpy, on the raw rows
+        and on the group means of the (predicted class, confidence bin)
+        cells concord's summaries keep, weighted by their counts.
+Hand-built degenerate confusion tables (classes never told apart, a class
+never predicted, a class absent from the source labels, near-collinear
+columns) are in "bbse_degenerate".
+
+    /usr/bin/python3 tests/reference/gen_label_shift_reference.py [OUT.json]
+    /usr/bin/python3 tests/reference/gen_label_shift_reference.py --check COMMITTED.json
+
+--check regenerates into a temporary file and compares it numerically with
+COMMITTED.json; it exits 77 (skipped) when numpy cannot be imported.
+Run with Debian's python (python3-numpy).
+"""
+import json
+import math
+import os
+import re
+import sys
+import tempfile
+
+SKIP = 77
+SEED = 20240617
+REL_TOL = 1e-9
+ABS_TOL = 1e-12
+
+MAX_COND = 1e6          # CC_BBSE_MAX_COND in metrics/label_shift.h
+EM_BINS = 10            # CC_EM_BINS in metrics/summary.h
+EM_TOL = 1e-12
+EM_MAX_ITER = 10000
+N_PER_SIDE = 5000
+POST_SCALE = 10000      # posteriors stored as integers in units of 1/POST_SCALE
+
+
+def import_libraries():
+    global np
+    import numpy as np
+
+
+def num(x):
+    """JSON number, or null for an undefined or infinite value."""
+    x = float(x)
+    return None if not math.isfinite(x) else x
+
+
+# ---------------------------------------------------------------- estimators
+
+def bbse(confusion, target_pred):
+    """Lipton, Wang & Smola (2018): solve C w = mu on the classes seen as
+    labels, least squares with singular values <= s_max / MAX_COND dropped
+    (numpy.linalg.lstsq), q_j = w_j p_j, clip at 0, renormalise."""
+    conf = np.asarray(confusion, dtype=float)
+    tgt = np.asarray(target_pred, dtype=float)
+    k = conf.shape[0]
+    c = conf / conf.sum()
+    mu = tgt / tgt.sum()
+    p = c.sum(axis=0)
+    cols = np.flatnonzero(conf.sum(axis=0) > 0)
+    a = c[:, cols]
+    w, _, rank, s = np.linalg.lstsq(a, mu, rcond=1.0 / MAX_COND)
+    cond = s.max() / s.min() if s.min() > 0 else math.inf
+    raw = w * p[cols]
+    clipped = bool((raw < 0).any())
+    kept = np.clip(raw, 0.0, None)
+    q = np.zeros(k)
+    q[cols] = kept / kept.sum()
+    return {
+        "priors": q.tolist(),
+        "raw_priors": [num(x) for x in raw] if len(cols) == k else None,
+        "condition_number": num(cond),
+        "regularized": int(rank < len(cols)),
+        "clipped": int(clipped),
+    }
+
+
+def em(posteriors, weights, source_priors, tol=EM_TOL, max_iter=EM_MAX_ITER):
+    """Saerens, Latinne & Decaestecker (2002), with row weights u:
+    a_rj = (q_j/p_j) s_rj / sum_l (q_l/p_l) s_rl;  q_j <- sum_r u_r a_rj / sum_r u_r,
+    from q = p until max_j |dq_j| < tol."""
+    s = np.asarray(posteriors, dtype=float)
+    u = np.ones(len(s)) if weights is None else np.asarray(weights, dtype=float)
+    p = np.asarray(source_priors, dtype=float)
+    active = p > 0
+    p = np.where(active, p / p[active].sum(), 0.0)
+    q = p.copy()
+    iterations, converged = 0, False
+    while iterations < max_iter:
+        ratio = np.where(active, q / np.where(active, p, 1.0), 0.0)
+        num_ = s * ratio
+        den = num_.sum(axis=1)
+        use = (den > 0) & (u > 0)
+        nxt = (u[use, None] * (num_[use] / den[use, None])).sum(axis=0) / u[use].sum()
+        delta = np.abs(nxt - q).max()
+        q = nxt
+        iterations += 1
+        if delta < tol:
+            converged = True
+            break
+    return q, iterations, converged
+
+
+def em_cells(posteriors):
+    """Group rows as concord's summaries do (cc_em_cell): predicted class
+    (argmax, ties to the lowest index) x confidence bin ceil(10 max) - 1,
+    clamped to 0..9. Returns the group mean rows and counts, in cell order."""
+    s = np.asarray(posteriors, dtype=float)
+    top = s.argmax(axis=1)
+    b = np.clip(np.ceil(s.max(axis=1) * EM_BINS).astype(int) - 1, 0, EM_BINS - 1)
+    cell = top * EM_BINS + b
+    means, counts = [], []
+    for g in np.unique(cell):
+        rows = s[cell == g]
+        means.append(rows.mean(axis=0).tolist())
+        counts.append(int(len(rows)))
+    return means, counts
+
+
+# ------------------------------------------------------------ synthetic data
+
+def gaussian_posteriors(x, sep, priors):
+    """p(j | x) for x | y=j ~ N(sep e_j, I) and class priors `priors`."""
+    k = x.shape[1]
+    means = sep * np.eye(k)
+    d2 = ((x[:, None, :] - means[None, :, :]) ** 2).sum(axis=2)
+    with np.errstate(divide="ignore"):
+        logits = np.log(priors)[None, :] - 0.5 * d2
+    logits -= logits.max(axis=1, keepdims=True)
+    e = np.exp(logits)
+    return e / e.sum(axis=1, keepdims=True)
+
+
+def draw(rng, sep, priors, n):
+    k = len(priors)
+    y = rng.choice(k, size=n, p=priors)
+    x = sep * np.eye(k)[y] + rng.standard_normal((n, k))
+    return x, y
+
+
+def synthetic_case(rng, k, sep, n_source, n_target):
+    p = rng.dirichlet(np.full(k, 6.0))
+    q = 0.85 * rng.dirichlet(np.full(k, 1.0)) + 0.15 / k
+    xs, ys = draw(rng, sep, p, n_source)
+    xt, yt = draw(rng, sep, q, n_target)
+    pred_s = gaussian_posteriors(xs, sep, p).argmax(axis=1)
+    post_t = gaussian_posteriors(xt, sep, p)
+    pred_t = post_t.argmax(axis=1)
+    confusion = np.zeros((k, k), dtype=int)
+    np.add.at(confusion, (pred_s, ys), 1)
+    return {
+        "p": p, "q": q, "confusion": confusion,
+        "target_pred": np.bincount(pred_t, minlength=k),
+        "target_labels": np.bincount(yt, minlength=k),
+        "source_labels": np.bincount(ys, minlength=k),
+        "post_t": post_t,
+        "accuracy_source": float((pred_s == ys).mean()),
+    }
+
+
+def l1(a, b):
+    return float(np.abs(np.asarray(a) - np.asarray(b)).sum())
+
+
+def bbse_cases(rng):
+    cases = []
+    for k in (3, 4, 5, 6):
+        for sep in (2.0, 3.0):
+            d = synthetic_case(rng, k, sep, N_PER_SIDE, N_PER_SIDE)
+            est = bbse(d["confusion"], d["target_pred"])
+            cases.append({
+                "name": f"synthetic Gaussian classes, K={k}, sep={sep}",
+                "inputs": {"k": k, "confusion": d["confusion"].tolist(),
+                           "target_pred": d["target_pred"].tolist()},
+                "true_q": d["q"].tolist(),
+                "source_p": d["p"].tolist(),
+                "target_label_fractions": (d["target_labels"] / N_PER_SIDE).tolist(),
+                "source_accuracy": d["accuracy_source"],
+                "expected": est,
+                "l1_to_true_q": l1(est["priors"], d["q"]),
+                "function": {"priors": "numpy.linalg.lstsq(rcond=1e-6) on the joint confusion, "
+                                       "q = w p clipped at 0 and renormalised",
+                             "condition_number": "numpy.linalg.lstsq singular values, max/min"},
+            })
+    return cases
+
+
+def em_cases(rng):
+    cases = []
+    for k, sep in ((3, 2.5), (4, 2.5), (5, 3.0), (6, 3.0)):
+        d = synthetic_case(rng, k, sep, N_PER_SIDE, N_PER_SIDE)
+        stored = np.rint(d["post_t"] * POST_SCALE).astype(int)
+        rows = stored / float(POST_SCALE)
+        source_priors = d["source_labels"] / N_PER_SIDE
+        q_raw, it_raw, conv_raw = em(rows, None, source_priors)
+        means, counts = em_cells(rows)
+        q_grp, it_grp, conv_grp = em(means, counts, source_priors)
+        cases.append({
+            "name": f"synthetic Gaussian classes, K={k}, sep={sep}",
+            "inputs": {"k": k, "n": N_PER_SIDE, "source_priors": source_priors.tolist(),
+                       "posterior_scale": POST_SCALE, "posteriors": stored.tolist(),
+                       "cell_means": means, "cell_counts": counts,
+                       "tol": EM_TOL, "max_iter": EM_MAX_ITER},
+            "true_q": d["q"].tolist(),
+            "source_p": d["p"].tolist(),
+            "target_label_fractions": (d["target_labels"] / N_PER_SIDE).tolist(),
+            "expected": {"priors": q_raw.tolist(), "iterations": it_raw,
+                         "converged": int(conv_raw),
+                         "cell_priors": q_grp.tolist(), "cell_iterations": it_grp,
+                         "cell_converged": int(conv_grp)},
+            "l1_to_true_q": l1(q_raw, d["q"]),
+            "cell_l1_to_true_q": l1(q_grp, d["q"]),
+            "cell_vs_raw_l1": l1(q_grp, q_raw),
+            "function": {"priors": "numpy EM (Saerens et al. 2002) on the rows / 1e4",
+                         "cell_priors": "same EM on cell means weighted by cell counts"},
+        })
+    return cases
+
+
+def degenerate_cases():
+    tables = [
+        ("classes 0 and 1 never told apart (both always predicted 0)",
+         [[300, 200, 10], [0, 0, 0], [20, 30, 400]], [500, 0, 500]),
+        ("class 2 never predicted, in source or target",
+         [[400, 50, 30], [60, 300, 40], [0, 0, 0]], [450, 550, 0]),
+        ("class 2 never predicted in source, predicted in target",
+         [[400, 50, 30], [60, 300, 40], [0, 0, 0]], [450, 450, 100]),
+        ("class 1 absent from the source labels",
+         [[400, 0, 30], [60, 0, 40], [20, 0, 300]], [300, 200, 500]),
+        ("two proportional columns (identical confusion profiles)",
+         [[300, 150, 10], [100, 50, 20], [20, 10, 400]], [400, 200, 400]),
+        ("near-collinear columns, condition number above 1e6",
+         [[3000000, 3000001, 100], [1000000, 1000000, 200], [200, 200, 4000000]],
+         [4000000, 1000000, 3000000]),
+        ("near-collinear columns, condition number below 1e6",
+         [[3000, 3100, 100], [1000, 900, 200], [200, 200, 4000]], [4000, 1000, 3000]),
+        ("one class only", [[50]], [70]),
+        ("every event predicted class 0", [[100, 200, 300], [0, 0, 0], [0, 0, 0]], [1000, 0, 0]),
+    ]
+    cases = []
+    for name, conf, tgt in tables:
+        cases.append({
+            "name": name,
+            "inputs": {"k": len(conf), "confusion": conf, "target_pred": tgt},
+            "expected": bbse(conf, tgt),
+            "function": {"priors": "numpy.linalg.lstsq(rcond=1e-6), clip, renormalise"},
+        })
+    return cases
+
+
+# ---------------------------------------------------------------- file I/O
+
+def compact_number_arrays(text):
+    """Put each innermost array of numbers on one line."""
+    return re.sub(r"\[[^\[\]{}\"]*\]",
+                  lambda m: "[" + ", ".join(x.strip() for x in m.group(0)[1:-1].split(",")
+                                            if x.strip()) + "]",
+                  text)
+
+
+def generate(path):
+    import_libraries()
+    rng = np.random.default_rng(SEED)
+    bb = bbse_cases(rng)
+    ee = em_cases(rng)
+    out = {
+        "about": "Synthetic label-shift reference cases for metrics/label_shift.c "
+                 "(tests/reference/gen_label_shift_reference.py). null = infinite or undefined.",
+        "seed": SEED,
+        "versions": {"numpy": np.__version__},
+        "summary": {
+            "bbse_max_l1_to_true_q": max(c["l1_to_true_q"] for c in bb),
+            "em_max_l1_to_true_q": max(c["l1_to_true_q"] for c in ee),
+            "em_cell_max_l1_to_true_q": max(c["cell_l1_to_true_q"] for c in ee),
+            "em_cell_vs_raw_max_l1": max(c["cell_vs_raw_l1"] for c in ee),
+        },
+        "bbse": bb,
+        "bbse_degenerate": degenerate_cases(),
+        "em": ee,
+    }
+    text = compact_number_arrays(json.dumps(out, indent=1, allow_nan=False))
+    with open(path, "w") as f:
+        f.write(text)
+        f.write("\n")
+
+
+def compare(a, b, where, errors):
+    if isinstance(a, dict) and isinstance(b, dict):
+        if set(a) != set(b):
+            errors.append(f"{where}: keys differ: {sorted(set(a) ^ set(b))}")
+            return
+        for key in a:
+            if where == "" and key == "versions":
+                continue
+            compare(a[key], b[key], f"{where}/{key}", errors)
+    elif isinstance(a, list) and isinstance(b, list):
+        if len(a) != len(b):
+            errors.append(f"{where}: length {len(a)} != {len(b)}")
+            return
+        for i, (x, y) in enumerate(zip(a, b)):
+            compare(x, y, f"{where}[{i}]", errors)
+    elif isinstance(a, (int, float)) and isinstance(b, (int, float)) \
+            and not isinstance(a, bool) and not isinstance(b, bool):
+        if not math.isclose(a, b, rel_tol=REL_TOL, abs_tol=ABS_TOL):
+            errors.append(f"{where}: regenerated {a!r} != committed {b!r}")
+    elif a != b:
+        errors.append(f"{where}: regenerated {a!r} != committed {b!r}")
+
+
+def check(committed):
+    try:
+        import_libraries()
+    except ImportError as e:
+        print(f"label_shift_reference_regenerates: skipped ({e}; needs numpy for /usr/bin/python3)")
+        return SKIP
+    fd, tmp = tempfile.mkstemp(suffix=".json")
+    os.close(fd)
+    try:
+        generate(tmp)
+        with open(tmp) as f:
+            fresh = json.load(f)
+    finally:
+        os.unlink(tmp)
+    with open(committed) as f:
+        old = json.load(f)
+    errors = []
+    compare(fresh, old, "", errors)
+    for e in errors[:40]:
+        print("MISMATCH", e)
+    if errors:
+        print(f"label_shift_reference_regenerates: {len(errors)} mismatches against {committed}")
+        return 1
+    print(f"label_shift_reference_regenerates: {committed} matches a fresh run")
+    return 0
+
+
+def main(argv):
+    if len(argv) == 3 and argv[1] == "--check":
+        return check(argv[2])
+    if len(argv) > 2:
+        print(__doc__)
+        return 2
+    here = os.path.dirname(os.path.abspath(__file__))
+    path = argv[1] if len(argv) == 2 else os.path.join(here, "label_shift_reference.json")
+    generate(path)
+    print(f"wrote {path}")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main(sys.argv))
