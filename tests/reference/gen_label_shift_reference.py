@@ -14,9 +14,10 @@ For each case the file holds the inputs, the true q, and what numpy computes:
         estimate by numpy.linalg.lstsq (rcond = 1/CC_BBSE_MAX_COND) on the
         joint confusion fractions, clipped at 0 and renormalised;
   em:   target posterior rows (in units of 1e-4) + source label fractions;
-        the Saerens-Latinne-Decaestecker EM in plain numpy, on the raw rows
-        and on the group means of the (predicted class, confidence bin)
-        cells concord's summaries keep, weighted by their counts.
+        the Saerens-Latinne-Decaestecker EM in plain numpy, on the raw rows,
+        and on the (predicted class, confidence bin) cells concord's
+        summaries keep, weighted by the window's cell counts, with as cell
+        posterior either the window's cell mean or the source's cell mean.
 Hand-built degenerate confusion tables (classes never told apart, a class
 never predicted, a class absent from the source labels, near-collinear
 columns) are in "bbse_degenerate".
@@ -115,20 +116,30 @@ def em(posteriors, weights, source_priors, tol=EM_TOL, max_iter=EM_MAX_ITER):
     return q, iterations, converged
 
 
-def em_cells(posteriors):
-    """Group rows as concord's summaries do (cc_em_cell): predicted class
-    (argmax, ties to the lowest index) x confidence bin ceil(10 max) - 1,
-    clamped to 0..9. Returns the group mean rows and counts, in cell order."""
+def em_cell_ids(posteriors):
+    """Cell of each row as concord's summaries assign it (cc_em_cell):
+    predicted class (argmax, ties to the lowest index) * 10 + confidence bin
+    ceil(10 max) - 1, clamped to 0..9."""
     s = np.asarray(posteriors, dtype=float)
     top = s.argmax(axis=1)
     b = np.clip(np.ceil(s.max(axis=1) * EM_BINS).astype(int) - 1, 0, EM_BINS - 1)
-    cell = top * EM_BINS + b
-    means, counts = [], []
-    for g in np.unique(cell):
-        rows = s[cell == g]
-        means.append(rows.mean(axis=0).tolist())
-        counts.append(int(len(rows)))
-    return means, counts
+    return top * EM_BINS + b
+
+
+def em_cells(target_rows, source_rows):
+    """Target rows grouped by cell: the occupied cells in order, their counts,
+    the target's mean row per cell, and the source's mean row per cell (the
+    target's where the source has no row in that cell)."""
+    ct, cs = em_cell_ids(target_rows), em_cell_ids(source_rows)
+    ids, counts, t_means, s_means = [], [], [], []
+    for g in np.unique(ct):
+        t = target_rows[ct == g]
+        s = source_rows[cs == g]
+        ids.append(int(g))
+        counts.append(int(len(t)))
+        t_means.append(t.mean(axis=0).tolist())
+        s_means.append((s if len(s) else t).mean(axis=0).tolist())
+    return ids, counts, t_means, s_means
 
 
 # ------------------------------------------------------------ synthetic data
@@ -152,12 +163,16 @@ def draw(rng, sep, priors, n):
     return x, y
 
 
-def synthetic_case(rng, k, sep, n_source, n_target):
-    p = rng.dirichlet(np.full(k, 6.0))
-    q = 0.85 * rng.dirichlet(np.full(k, 1.0)) + 0.15 / k
+def synthetic_case(rng, k, sep, n_source, n_target, p=None, q=None):
+    if p is None:
+        p = rng.dirichlet(np.full(k, 6.0))
+    if q is None:
+        q = 0.85 * rng.dirichlet(np.full(k, 1.0)) + 0.15 / k
+    p, q = np.asarray(p, dtype=float), np.asarray(q, dtype=float)
     xs, ys = draw(rng, sep, p, n_source)
     xt, yt = draw(rng, sep, q, n_target)
-    pred_s = gaussian_posteriors(xs, sep, p).argmax(axis=1)
+    post_s = gaussian_posteriors(xs, sep, p)
+    pred_s = post_s.argmax(axis=1)
     post_t = gaussian_posteriors(xt, sep, p)
     pred_t = post_t.argmax(axis=1)
     confusion = np.zeros((k, k), dtype=int)
@@ -167,7 +182,7 @@ def synthetic_case(rng, k, sep, n_source, n_target):
         "target_pred": np.bincount(pred_t, minlength=k),
         "target_labels": np.bincount(yt, minlength=k),
         "source_labels": np.bincount(ys, minlength=k),
-        "post_t": post_t,
+        "post_s": post_s, "post_t": post_t,
         "accuracy_source": float((pred_s == ys).mean()),
     }
 
@@ -201,32 +216,47 @@ def bbse_cases(rng):
 
 def em_cases(rng):
     cases = []
-    for k, sep in ((3, 2.5), (4, 2.5), (5, 3.0), (6, 3.0)):
-        d = synthetic_case(rng, k, sep, N_PER_SIDE, N_PER_SIDE)
+    settings = [(3, 2.5, None, None, "random"), (4, 2.5, None, None, "random"),
+                (5, 3.0, None, None, "random"), (6, 3.0, None, None, "random"),
+                (4, 2.0, [0.55, 0.25, 0.15, 0.05], [0.10, 0.15, 0.25, 0.50], "large")]
+    for k, sep, p, q, shift in settings:
+        d = synthetic_case(rng, k, sep, N_PER_SIDE, N_PER_SIDE, p, q)
         stored = np.rint(d["post_t"] * POST_SCALE).astype(int)
         rows = stored / float(POST_SCALE)
+        source_rows = np.rint(d["post_s"] * POST_SCALE) / float(POST_SCALE)
         source_priors = d["source_labels"] / N_PER_SIDE
         q_raw, it_raw, conv_raw = em(rows, None, source_priors)
-        means, counts = em_cells(rows)
-        q_grp, it_grp, conv_grp = em(means, counts, source_priors)
+        ids, counts, t_means, s_means = em_cells(rows, source_rows)
+        q_t, it_t, conv_t = em(t_means, counts, source_priors)
+        q_s, it_s, conv_s = em(s_means, counts, source_priors)
         cases.append({
-            "name": f"synthetic Gaussian classes, K={k}, sep={sep}",
+            "name": f"synthetic Gaussian classes, K={k}, sep={sep}, {shift} shift",
+            "shift": shift,
             "inputs": {"k": k, "n": N_PER_SIDE, "source_priors": source_priors.tolist(),
                        "posterior_scale": POST_SCALE, "posteriors": stored.tolist(),
-                       "cell_means": means, "cell_counts": counts,
+                       "cell_ids": ids, "cell_counts": counts,
+                       "cell_means": t_means, "baseline_cell_means": s_means,
                        "tol": EM_TOL, "max_iter": EM_MAX_ITER},
             "true_q": d["q"].tolist(),
             "source_p": d["p"].tolist(),
             "target_label_fractions": (d["target_labels"] / N_PER_SIDE).tolist(),
             "expected": {"priors": q_raw.tolist(), "iterations": it_raw,
                          "converged": int(conv_raw),
-                         "cell_priors": q_grp.tolist(), "cell_iterations": it_grp,
-                         "cell_converged": int(conv_grp)},
+                         "cell_priors": q_t.tolist(), "cell_iterations": it_t,
+                         "cell_converged": int(conv_t),
+                         "baseline_cell_priors": q_s.tolist(),
+                         "baseline_cell_iterations": it_s,
+                         "baseline_cell_converged": int(conv_s)},
             "l1_to_true_q": l1(q_raw, d["q"]),
-            "cell_l1_to_true_q": l1(q_grp, d["q"]),
-            "cell_vs_raw_l1": l1(q_grp, q_raw),
+            "cell_l1_to_true_q": l1(q_t, d["q"]),
+            "cell_vs_raw_l1": l1(q_t, q_raw),
+            "baseline_cell_l1_to_true_q": l1(q_s, d["q"]),
+            "baseline_cell_vs_raw_l1": l1(q_s, q_raw),
             "function": {"priors": "numpy EM (Saerens et al. 2002) on the rows / 1e4",
-                         "cell_priors": "same EM on cell means weighted by cell counts"},
+                         "cell_priors": "same EM on the window's cell means, weighted by "
+                                        "the window's cell counts",
+                         "baseline_cell_priors": "same EM on the source's cell means, "
+                                                 "weighted by the window's cell counts"},
         })
     return cases
 
@@ -286,7 +316,12 @@ def generate(path):
             "bbse_max_l1_to_true_q": max(c["l1_to_true_q"] for c in bb),
             "em_max_l1_to_true_q": max(c["l1_to_true_q"] for c in ee),
             "em_cell_max_l1_to_true_q": max(c["cell_l1_to_true_q"] for c in ee),
-            "em_cell_vs_raw_max_l1": max(c["cell_vs_raw_l1"] for c in ee),
+            "em_cell_vs_raw_max_l1_random_shift": max(c["cell_vs_raw_l1"] for c in ee
+                                                      if c["shift"] == "random"),
+            "em_cell_vs_raw_l1_large_shift": max(c["cell_vs_raw_l1"] for c in ee
+                                                 if c["shift"] == "large"),
+            "em_baseline_cell_max_l1_to_true_q": max(c["baseline_cell_l1_to_true_q"] for c in ee),
+            "em_baseline_cell_vs_raw_max_l1": max(c["baseline_cell_vs_raw_l1"] for c in ee),
         },
         "bbse": bb,
         "bbse_degenerate": degenerate_cases(),
