@@ -25,8 +25,13 @@ columns) are in "bbse_degenerate".
     /usr/bin/python3 tests/reference/gen_label_shift_reference.py [OUT.json]
     /usr/bin/python3 tests/reference/gen_label_shift_reference.py --check COMMITTED.json
 
+    /usr/bin/python3 tests/reference/gen_label_shift_reference.py --measure [DRAWS]
+
 --check regenerates into a temporary file and compares it numerically with
 COMMITTED.json; it exits 77 (skipped) when numpy cannot be imported.
+--measure repeats the synthetic draws (DRAWS rounds, default 40, of 12
+random-shift settings, and 5*DRAWS draws of the large shift) and prints the
+spread of the errors the C test bounds; nothing is written.
 Run with Debian's python (python3-numpy).
 """
 import json
@@ -38,6 +43,7 @@ import tempfile
 
 SKIP = 77
 SEED = 20240617
+MEASURE_SEED = 7
 REL_TOL = 1e-9
 ABS_TOL = 1e-12
 
@@ -297,7 +303,7 @@ def degenerate_cases():
 def compact_number_arrays(text):
     """Put each innermost array of numbers on one line."""
     return re.sub(r"\[[^\[\]{}\"]*\]",
-                  lambda m: "[" + ", ".join(x.strip() for x in m.group(0)[1:-1].split(",")
+                  lambda m: "[" + ",".join(x.strip() for x in m.group(0)[1:-1].split(",")
                                             if x.strip()) + "]",
                   text)
 
@@ -383,9 +389,49 @@ def check(committed):
     return 0
 
 
+def measure(rounds):
+    """Spread of estimation errors over many synthetic draws (seed MEASURE_SEED)."""
+    import_libraries()
+    rng = np.random.default_rng(MEASURE_SEED)
+
+    def run(label, settings, reps):
+        keys = ("bbse_vs_true", "em_raw_vs_true", "window_cells_vs_raw", "baseline_cells_vs_raw",
+                "window_cells_vs_true", "baseline_cells_vs_true")
+        res = {key: [] for key in keys}
+        for _ in range(reps):
+            for k, sep, p, q in settings:
+                d = synthetic_case(rng, k, sep, N_PER_SIDE, N_PER_SIDE, p, q)
+                b = bbse(d["confusion"], d["target_pred"])
+                rows = np.rint(d["post_t"] * POST_SCALE) / POST_SCALE
+                srows = np.rint(d["post_s"] * POST_SCALE) / POST_SCALE
+                sp = d["source_labels"] / N_PER_SIDE
+                q_raw, _, _ = em(rows, None, sp, tol=1e-10)
+                _, counts, t_means, s_means = em_cells(rows, srows)
+                q_w, _, _ = em(t_means, counts, sp, tol=1e-10)
+                q_b, _, _ = em(s_means, counts, sp, tol=1e-10)
+                for key, val in zip(keys, (l1(b["priors"], d["q"]), l1(q_raw, d["q"]),
+                                           l1(q_w, q_raw), l1(q_b, q_raw),
+                                           l1(q_w, d["q"]), l1(q_b, d["q"]))):
+                    res[key].append(val)
+        print(f"{label}: {len(res[keys[0]])} draws, n = {N_PER_SIDE} per side, L1")
+        for key in keys:
+            v = np.array(res[key])
+            p50, p95, p99 = np.percentile(v, [50, 95, 99])
+            print(f"  {key:24s} mean {v.mean():.4f}  p50 {p50:.4f}  p95 {p95:.4f}  "
+                  f"p99 {p99:.4f}  max {v.max():.4f}")
+
+    run("random shifts, K 3..6, sep 2 / 2.5 / 3",
+        [(k, sep, None, None) for k in (3, 4, 5, 6) for sep in (2.0, 2.5, 3.0)], rounds)
+    run("large shift, K 4, sep 2, p [.55,.25,.15,.05] -> q [.10,.15,.25,.50]",
+        [(4, 2.0, [0.55, 0.25, 0.15, 0.05], [0.10, 0.15, 0.25, 0.50])], 5 * rounds)
+    return 0
+
+
 def main(argv):
     if len(argv) == 3 and argv[1] == "--check":
         return check(argv[2])
+    if len(argv) in (2, 3) and argv[1] == "--measure":
+        return measure(int(argv[2]) if len(argv) == 3 else 40)
     if len(argv) > 2:
         print(__doc__)
         return 2
