@@ -19,7 +19,7 @@
 
 #define CC_FIXED_SCALE 1e9     /* fixed-point units per nat (or per unit) */
 #define CC_CALIB_BINS 15       /* equal-width confidence bins, Guo et al. 2017 */
-#define CC_HIST_BINS 1024      /* fine score histograms, see cc_hist_bin_* */
+#define CC_HIST_BINS 2048      /* fine score histograms, see cc_hist_bin_* */
 #define CC_EM_BINS 10          /* confidence cells per predicted class for EM, see em_cells */
 #define CC_SUMMARY_VERSION 1   /* bump when the layout below changes */
 #define CC_MAX_MEMBERS 64
@@ -119,9 +119,10 @@ int cc_argmax_f(const float *x, int n);
 int cc_argmax_d(const double *x, int n);
 
 /* Histogram binning shared by writer and reader. Probabilities use a logit
- * scale on [-16, 16] so bins are fine where values crowd (near 0 and 1);
- * nats use a log10 scale on [1e-6, 16], with bin 0 = [0, 1e-6).
- * With 1024 bins: 0.03125 logit units, or 0.7 % of the value in nats. */
+ * scale so bins are fine where values crowd (near 0 and 1);
+ * nats use a log10 scale on [1e-15, 16], with bin 0 = [0, 1e-15).
+ * Probabilities: logit clamped to [-48, 21]. With 2048 bins: 0.034 logit
+ * units, or about 1.9 % of the value in nats. See summary.c. */
 int cc_hist_bin_prob(double p);
 int cc_hist_bin_nats(double h);
 /* Upper edge of bin b of each scale (for CDFs). */

@@ -315,8 +315,11 @@ SHAPES = {
 }
 SHAPE_SIZES = [(50, 50, False), (1000, 3000, False), (50, 400, True), (300, 300, True),
                (2000, 20000, True)]
-ENSEMBLE_SCALE = {"baseline": 6.0, "shifted": 8.0}
-ENSEMBLE_SIZES = [(1000, 1000, False), (2000, 2000, True)]
+# Simulated ensembles: (name prefix, n, m, logit scale of a, logit scale of b).
+# Scale 6 is a confident ensemble, scale 10 a very confident one (many class
+# probabilities far below 1e-7, many maximum probabilities within 1e-7 of 1).
+ENSEMBLE_CASES = [("ensemble", 1000, 1000, 6.0, 6.0), ("ensemble", 2000, 2000, 6.0, 8.0),
+                  ("ensemble10", 1000, 1000, 10.0, 14.0)]
 SCALE_OF = {"maxprob": "prob", "entropy": "nats", "mi": "nats", "classp": "prob"}
 
 
@@ -345,17 +348,15 @@ def ks_hist_cases(rng):
             recipe = f"a: {n} x {base}; b: {m} x {shifted_recipe if shifted else base}"
             cases.append(ks_case(shape, scale, recipe, draw(rng, n, False),
                                  draw(rng, m, shifted), shifted))
-    for n, m, shifted in ENSEMBLE_SIZES:
-        sa = ENSEMBLE_SCALE["baseline"]
-        sb = ENSEMBLE_SCALE["shifted" if shifted else "baseline"]
+    for prefix, n, m, sa, sb in ENSEMBLE_CASES:
         a = ensemble_outputs(rng, n, sa)
         b = ensemble_outputs(rng, m, sb)
         for score in ("maxprob", "entropy", "mi", "classp"):
             recipe = (f"simulated ensemble (5 members, 10 classes, logits scale x (N(0,1) "
                       f"+ 3 on the label + 0.5 N(0,1) per member)), {score}; "
                       f"a: {n} at scale {sa}; b: {m} at scale {sb}")
-            cases.append(ks_case("ensemble_" + score, SCALE_OF[score], recipe, a[score],
-                                 b[score], shifted))
+            cases.append(ks_case(prefix + "_" + score, SCALE_OF[score], recipe, a[score],
+                                 b[score], sa != sb))
     return cases
 
 
