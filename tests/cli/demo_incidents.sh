@@ -42,6 +42,8 @@ for day, x in enumerate(w, 1):
     # class-mix drift (chi-square homogeneity against the baseline) on exactly the mix days
     p = x["drift"]["class_mix"]["p_value"]
     if late != (p < 0.001): bad.append(f"day {day}: class-mix chi-square p {p:.3g}")
+    psi = x["drift"]["class_mix"]["psi"]  # 0.25: the "major shift" band of common practice
+    if late != (psi > 0.25): bad.append(f"day {day}: class-mix PSI {psi:.3f}")
     # label-shift estimates track the true grade mix of the generator (per day: sampling
     # noise of 1,500 events plus estimation error; bound 0.15, the whole period below 0.1)
     truth = LATE if late else BASE
