@@ -17,7 +17,8 @@ import json
 import math
 import os
 import sys
-import tempfile
+
+import refcheck
 
 SKIP = 77
 SEED = 20240611
@@ -325,55 +326,9 @@ def generate(path):
         f.write("\n")
 
 
-def compare(a, b, where, errors):
-    if isinstance(a, dict) and isinstance(b, dict):
-        if set(a) != set(b):
-            errors.append(f"{where}: keys differ: {sorted(set(a) ^ set(b))}")
-            return
-        for key in a:
-            if where == "" and key == "versions":
-                continue
-            compare(a[key], b[key], f"{where}/{key}", errors)
-    elif isinstance(a, list) and isinstance(b, list):
-        if len(a) != len(b):
-            errors.append(f"{where}: length {len(a)} != {len(b)}")
-            return
-        for i, (x, y) in enumerate(zip(a, b)):
-            compare(x, y, f"{where}[{i}]", errors)
-    elif isinstance(a, (int, float)) and isinstance(b, (int, float)) \
-            and not isinstance(a, bool) and not isinstance(b, bool):
-        if not math.isclose(a, b, rel_tol=REL_TOL, abs_tol=ABS_TOL):
-            errors.append(f"{where}: regenerated {a!r} != committed {b!r}")
-    elif a != b:
-        errors.append(f"{where}: regenerated {a!r} != committed {b!r}")
-
-
 def check(committed):
-    try:
-        import_libraries()
-    except ImportError as e:
-        print(f"metrics_reference_regenerates: skipped ({e}; needs numpy, scipy, "
-              "sklearn, statsmodels for /usr/bin/python3)")
-        return SKIP
-    fd, tmp = tempfile.mkstemp(suffix=".json")
-    os.close(fd)
-    try:
-        generate(tmp)
-        with open(tmp) as f:
-            fresh = json.load(f)
-    finally:
-        os.unlink(tmp)
-    with open(committed) as f:
-        old = json.load(f)
-    errors = []
-    compare(fresh, old, "", errors)
-    for e in errors[:40]:
-        print("MISMATCH", e)
-    if errors:
-        print(f"metrics_reference_regenerates: {len(errors)} mismatches against {committed}")
-        return 1
-    print(f"metrics_reference_regenerates: {committed} matches a fresh run")
-    return 0
+    return refcheck.check("metrics_reference_regenerates", committed, generate, import_libraries,
+                          "numpy, scipy, sklearn, statsmodels", REL_TOL, ABS_TOL)
 
 
 def main(argv):
