@@ -170,6 +170,9 @@ void cc_store_close(cc_store *s)
     free(s);
 }
 
+sqlite3 *cc_store_db(cc_store *s) { return s->db; }
+const char *cc_store_path(const cc_store *s) { return s->path; }
+
 int cc_store_begin(cc_store *s, cc_error *err) { return exec(s, "BEGIN IMMEDIATE;", err); }
 int cc_store_commit(cc_store *s, cc_error *err) { return exec(s, "COMMIT;", err); }
 void cc_store_rollback(cc_store *s)

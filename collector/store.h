@@ -31,6 +31,12 @@ int cc_model_class_index(const cc_model *m, const char *name, int len);
 int cc_store_open(cc_store **out, const char *path, int create, cc_error *err);
 void cc_store_close(cc_store *s);
 
+/* The SQLite connection and the database path, for modules that keep tables
+ * of their own in the same file (alerts' rule states and outbox, review
+ * queries). They must not write the tables above. */
+struct sqlite3 *cc_store_db(cc_store *s);
+const char *cc_store_path(const cc_store *s);
+
 int cc_store_begin(cc_store *s, cc_error *err);
 int cc_store_commit(cc_store *s, cc_error *err);
 void cc_store_rollback(cc_store *s);
