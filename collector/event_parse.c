@@ -1,7 +1,7 @@
-/* event_parse.c — JSON Lines records to events and labels. A first pass
- * checks the JSON syntax of the whole line; a second pass reads the known
- * keys in place (json_scan.c), so a line costs no allocation. Duplicate keys:
- * the first one counts. */
+/* event_parse.c — JSON Lines records to events and labels. One pass over the
+ * line reads the known keys in place and syntax-checks the rest
+ * (json_scan.c), so a line costs no allocation. Duplicate keys: the first
+ * one counts. */
 #include "event_parse.h"
 
 #include <math.h>
@@ -97,135 +97,149 @@ static char value_type(const cc_js *s)
     return c == '"' ? 's' : c == 'n' ? 'z' : c == '[' ? 'a' : (c == '-' || (c >= '0' && c <= '9')) ? 'n' : 'o';
 }
 
-/* Reads an array of member rows of numbers into p->vals. On a shape
- * problem records it in fd and skips the rest of the value. */
+static char peek(const cc_js *s) { return s->p < s->end ? *s->p : '\0'; }
+
+/* After an object member: ',' (1), '}' (0), or a syntax error (-1). */
+static int next_object_member(cc_js *s)
+{
+    cc_js_ws(s);
+    char c = peek(s);
+    if (c == ',' || c == '}') {
+        s->p++;
+        return c == ',';
+    }
+    return -1;
+}
+
+/* After an element of an array: ',' (1, more follow), ']' (0, done), or a
+ * syntax error (-1). */
+static int next_in_array(cc_js *s)
+{
+    cc_js_ws(s);
+    char c = peek(s);
+    if (c == ',' || c == ']') {
+        s->p++;
+        return c == ',';
+    }
+    return -1;
+}
+
+/* Records the first shape problem of a matrix (later ones are not news). */
+#define MATRIX_ERROR(fd, ...)                                                                  \
+    do {                                                                                       \
+        if (!(fd)->matrix_err) {                                                               \
+            snprintf((fd)->matrix_why, sizeof (fd)->matrix_why, __VA_ARGS__);                  \
+            (fd)->matrix_err = (fd)->matrix_why;                                               \
+        }                                                                                      \
+    } while (0)
+
+/* Reads an array of member rows of numbers into p->vals, row i at
+ * p->vals + i * CC_MAX_CLASSES. A shape problem is recorded in fd and the
+ * rest of the value is still syntax-checked; -1 only on a JSON syntax error. */
 static int read_matrix(cc_js *s, cc_parser *p, found *fd, const char *field)
 {
-    int m = 0, k = -1;
+    int m = 0, k = -1, more;
     s->p++; /* '[' */
     cc_js_ws(s);
-    if (*s->p == ']') {
+    if (peek(s) == ']') {
         s->p++;
-        snprintf(fd->matrix_why, sizeof fd->matrix_why,
-                 "field '%s': 0 member rows (allowed 1..%d)", field, CC_MAX_MEMBERS);
-        fd->matrix_err = fd->matrix_why;
+        MATRIX_ERROR(fd, "field '%s': 0 member rows (allowed 1..%d)", field, CC_MAX_MEMBERS);
         return 0;
     }
-    for (;;) {
+    do {
         cc_js_ws(s);
-        if (fd->matrix_err || *s->p != '[') {
-            if (!fd->matrix_err) {
-                snprintf(fd->matrix_why, sizeof fd->matrix_why, "field '%s': row %d is not an array",
-                         field, m);
-                fd->matrix_err = fd->matrix_why;
-            }
+        if (peek(s) != '[' || m >= CC_MAX_MEMBERS) {
+            if (peek(s) != '[')
+                MATRIX_ERROR(fd, "field '%s': row %d is not an array", field, m);
+            else
+                MATRIX_ERROR(fd, "field '%s': more than %d member rows", field, CC_MAX_MEMBERS);
             if (cc_js_skip(s))
                 return -1;
-        } else if (m >= CC_MAX_MEMBERS) {
-            snprintf(fd->matrix_why, sizeof fd->matrix_why,
-                     "field '%s': more than %d member rows", field, CC_MAX_MEMBERS);
-            fd->matrix_err = fd->matrix_why;
-            if (cc_js_skip(s))
-                return -1;
-        } else {
-            int c = 0;
-            s->p++;
-            cc_js_ws(s);
-            if (*s->p == ']') {
-                s->p++;
-            } else {
-                for (;;) {
-                    cc_js_ws(s);
-                    double x;
-                    if (fd->matrix_err) {
-                        if (cc_js_skip(s))
-                            return -1;
-                    } else if (value_type(s) != 'n') {
-                        snprintf(fd->matrix_why, sizeof fd->matrix_why,
-                                 "field '%s': row %d value %d is not a finite number", field, m, c);
-                        fd->matrix_err = fd->matrix_why;
-                        if (cc_js_skip(s))
-                            return -1;
-                    } else if (cc_js_number(s, &x)) {
-                        return -1;
-                    } else if (!isfinite(x)) {
-                        snprintf(fd->matrix_why, sizeof fd->matrix_why,
-                                 "field '%s': row %d value %d is not a finite number", field, m, c);
-                        fd->matrix_err = fd->matrix_why;
-                    } else if (c < CC_MAX_CLASSES) {
-                        p->vals[(size_t)m * CC_MAX_CLASSES + (size_t)c] = x;
-                    }
-                    c++;
-                    cc_js_ws(s);
-                    if (*s->p == ',') {
-                        s->p++;
-                        continue;
-                    }
-                    s->p++; /* ']' (syntax already checked) */
-                    break;
-                }
-            }
-            if (!fd->matrix_err) {
-                if (k < 0) {
-                    k = c;
-                    if (k < 2 || k > CC_MAX_CLASSES) {
-                        snprintf(fd->matrix_why, sizeof fd->matrix_why,
-                                 "field '%s': %d classes (allowed 2..%d)", field, k, CC_MAX_CLASSES);
-                        fd->matrix_err = fd->matrix_why;
-                    }
-                } else if (c != k) {
-                    snprintf(fd->matrix_why, sizeof fd->matrix_why,
-                             "field '%s': row %d has %d values, row 0 has %d", field, m, c, k);
-                    fd->matrix_err = fd->matrix_why;
-                }
-            }
             m++;
-        }
-        cc_js_ws(s);
-        if (*s->p == ',') {
-            s->p++;
             continue;
         }
-        s->p++; /* ']' */
-        break;
-    }
+        int c = 0;
+        s->p++;
+        cc_js_ws(s);
+        if (peek(s) == ']') {
+            s->p++;
+        } else {
+            int more_values;
+            do {
+                cc_js_ws(s);
+                char t = peek(s);
+                double x;
+                if (t != '-' && (t < '0' || t > '9')) {
+                    MATRIX_ERROR(fd, "field '%s': row %d value %d is not a finite number", field, m,
+                                 c);
+                    if (cc_js_skip(s))
+                        return -1;
+                } else if (cc_js_number(s, &x)) {
+                    return -1;
+                } else if (!isfinite(x)) {
+                    MATRIX_ERROR(fd, "field '%s': row %d value %d is not a finite number", field, m,
+                                 c);
+                } else if (c < CC_MAX_CLASSES) {
+                    p->vals[(size_t)m * CC_MAX_CLASSES + (size_t)c] = x;
+                }
+                c++;
+            } while ((more_values = next_in_array(s)) == 1);
+            if (more_values < 0)
+                return -1;
+        }
+        if (k < 0) {
+            k = c;
+            if (k < 2 || k > CC_MAX_CLASSES)
+                MATRIX_ERROR(fd, "field '%s': %d classes (allowed 2..%d)", field, k, CC_MAX_CLASSES);
+        } else if (c != k) {
+            MATRIX_ERROR(fd, "field '%s': row %d has %d values, row 0 has %d", field, m, c, k);
+        }
+        m++;
+    } while ((more = next_in_array(s)) == 1);
+    if (more < 0)
+        return -1;
     fd->m = m;
     fd->k = k;
     return 0;
 }
 
+/* One pass over the line: the known keys are read in place, everything else
+ * is syntax-checked and skipped. */
 static int scan(cc_parser *p, const char *line, size_t len, found *fd, char *why, size_t n)
 {
-    long at;
-    memset(fd, 0, sizeof *fd);
-    if (cc_js_validate(line, len, &at)) {
-        cc_js s;
-        cc_js_init(&s, line, len);
-        if (cc_js_skip(&s) == 0)
-            return fail(why, n, "malformed JSON: text after the object at byte %ld", at);
-        return fail(why, n, "malformed JSON near byte %ld", at);
-    }
     cc_js s;
+    memset(fd, 0, sizeof *fd);
     cc_js_init(&s, line, len);
     cc_js_ws(&s);
-    if (*s.p != '{')
-        return fail(why, n, "a line must hold one JSON object");
+    if (peek(&s) != '{') {
+        long at;
+        if (cc_js_validate(line, len, &at) == 0)
+            return fail(why, n, "a line must hold one JSON object");
+        return fail(why, n, "malformed JSON near byte %ld", at);
+    }
     s.p++;
     cc_js_ws(&s);
-    if (*s.p == '}')
-        return 0;
-    for (;;) {
-        char key[16];
-        size_t klen;
-        cc_js_ws(&s);
-        cc_js_string(&s, key, sizeof key, &klen);
-        cc_js_ws(&s);
-        s.p++; /* ':' */
-        cc_js_ws(&s);
-        int f = klen < sizeof key ? field_of(key, klen) : -1;
-        if (f < 0 || fd->seen[f]) {
-            cc_js_skip(&s);
-        } else {
+    if (peek(&s) == '}') {
+        s.p++;
+    } else {
+        int more;
+        do {
+            char key[16];
+            size_t klen;
+            cc_js_ws(&s);
+            if (peek(&s) != '"' || cc_js_string(&s, key, sizeof key, &klen))
+                goto malformed;
+            cc_js_ws(&s);
+            if (peek(&s) != ':')
+                goto malformed;
+            s.p++;
+            cc_js_ws(&s);
+            int f = klen < sizeof key ? field_of(key, klen) : -1;
+            if (f < 0 || fd->seen[f] || s.p >= s.end) {
+                if (cc_js_skip(&s))
+                    goto malformed;
+                continue;
+            }
             fd->seen[f] = 1;
             fd->type[f] = value_type(&s);
             char *dst = NULL;
@@ -237,27 +251,31 @@ static int scan(cc_parser *p, const char *line, size_t len, found *fd, char *why
             case F_LABEL: dst = p->label_name, cap = sizeof p->label_name; break;
             case F_TS: dst = fd->ts, cap = sizeof fd->ts; break;
             }
+            int bad;
             if (fd->type[f] == 's' && dst) {
-                cc_js_string(&s, dst, cap, &fd->len[f]);
-                fd->nul[f] = fd->len[f] < cap && strlen(dst) != fd->len[f];
+                bad = cc_js_string(&s, dst, cap, &fd->len[f]);
+                fd->nul[f] = !bad && fd->len[f] < cap && strlen(dst) != fd->len[f];
             } else if (fd->type[f] == 'n') {
-                cc_js_number(&s, &fd->num[f]);
+                bad = cc_js_number(&s, &fd->num[f]);
             } else if (fd->type[f] == 'a' && (f == F_PROBS || f == F_LOGITS) &&
                        !(fd->seen[F_PROBS] && fd->seen[F_LOGITS])) {
-                if (read_matrix(&s, p, fd, field_names[f]))
-                    return fail(why, n, "malformed JSON in '%s'", field_names[f]);
+                bad = read_matrix(&s, p, fd, field_names[f]);
             } else {
-                cc_js_skip(&s);
+                bad = cc_js_skip(&s);
             }
-        }
-        cc_js_ws(&s);
-        if (*s.p == ',') {
-            s.p++;
-            continue;
-        }
-        break;
+            if (bad)
+                goto malformed;
+        } while ((more = next_object_member(&s)) == 1);
+        if (more < 0)
+            goto malformed;
     }
+    cc_js_ws(&s);
+    if (s.p != s.end)
+        return fail(why, n, "malformed JSON: text after the object at byte %ld",
+                    (long)(s.p - s.start));
     return 0;
+malformed:
+    return fail(why, n, "malformed JSON near byte %ld", (long)(s.p - s.start));
 }
 
 static int take_string(const found *fd, int f, const char *buf, size_t max, const char **out,
