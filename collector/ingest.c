@@ -346,7 +346,9 @@ static int take_event(cc_ingest *ing, const char *source, const cc_line *ln, cc_
     size_t n = (size_t)model->m * (size_t)model->k;
     for (size_t i = 0; i < n; i++)
         ms->probs[i] = (float)ev.probs[i];
-    double avg[CC_MAX_CLASSES] = {0};
+    double avg[CC_MAX_CLASSES];
+    for (int c = 0; c < model->k; c++)
+        avg[c] = 0.0;
     for (int i = 0; i < model->m; i++)
         for (int c = 0; c < model->k; c++)
             avg[c] += ms->probs[(size_t)i * model->k + c];

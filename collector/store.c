@@ -44,6 +44,7 @@ struct cc_store {
     sqlite3 *db;
     char *path;
     sqlite3_stmt *st[ST_COUNT];
+    cc_summary *scratch; /* reused by cc_store_summary_add */
 };
 
 static const char schema_sql[] =
@@ -165,6 +166,7 @@ void cc_store_close(cc_store *s)
         return;
     for (int i = 0; i < ST_COUNT; i++)
         sqlite3_finalize(s->st[i]);
+    cc_summary_free(s->scratch);
     sqlite3_close(s->db);
     free(s->path);
     free(s);
@@ -443,15 +445,17 @@ static int summary_put(cc_store *s, const cc_model *m, int64_t day, const cc_sum
 int cc_store_summary_add(cc_store *s, const cc_model *m, int64_t day, const cc_summary *delta,
                          cc_error *err)
 {
-    cc_summary *cur = cc_summary_create(m->m, m->k);
-    int rc;
-    if (!cur)
-        return cc_error_set(err, CC_ENOMEM, "out of memory");
-    if (!(rc = cc_store_summary_get(s, m, day, cur, err))) {
-        cc_summary_merge(cur, delta);
-        rc = summary_put(s, m, day, cur, err);
+    const cc_layout *have = s->scratch ? cc_summary_layout(s->scratch) : NULL;
+    if (!have || have->m != m->m || have->k != m->k) {
+        cc_summary_free(s->scratch);
+        if (!(s->scratch = cc_summary_create(m->m, m->k)))
+            return cc_error_set(err, CC_ENOMEM, "out of memory");
     }
-    cc_summary_free(cur);
+    int rc = cc_store_summary_get(s, m, day, s->scratch, err);
+    if (!rc) {
+        cc_summary_merge(s->scratch, delta);
+        rc = summary_put(s, m, day, s->scratch, err);
+    }
     return rc;
 }
 

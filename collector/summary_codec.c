@@ -31,13 +31,35 @@ static int get_varint(const unsigned char *p, size_t len, size_t *at, uint64_t *
     return -1;
 }
 
+static size_t varint_len(uint64_t x)
+{
+    size_t n = 1;
+    while (x >= 0x80) {
+        x >>= 7;
+        n++;
+    }
+    return n;
+}
+
 unsigned char *cc_codec_encode(const int64_t *v, size_t n, size_t *out_len)
 {
-    /* worst case: every counter nonzero, 1 + 10 bytes each */
-    unsigned char *buf = malloc(n * 11 + 11), *p = buf;
+    /* first pass: the exact size, so a mostly-zero summary gets a small buffer */
+    size_t need = 0, i = 0;
+    while (i < n) {
+        size_t run = 0;
+        while (i + run < n && v[i + run] == 0)
+            run++;
+        need += varint_len(run);
+        i += run;
+        if (i < n) {
+            int64_t x = v[i++];
+            need += varint_len(((uint64_t)x << 1) ^ (uint64_t)(x >> 63));
+        }
+    }
+    unsigned char *buf = malloc(need ? need : 1), *p = buf;
     if (!buf)
         return NULL;
-    size_t i = 0;
+    i = 0;
     while (i < n) {
         size_t run = 0;
         while (i + run < n && v[i + run] == 0)
