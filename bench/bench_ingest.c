@@ -5,6 +5,7 @@
 #define _DEFAULT_SOURCE /* wait4, struct rusage on glibc */
 
 #include <errno.h>
+#include <sqlite3.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -17,11 +18,13 @@
 #include <time.h>
 #include <unistd.h>
 
+#include "date.h"
 #include "error.h"
 #include "event_parse.h"
 #include "ingest.h"
 #include "line_reader.h"
 #include "report.h"
+#include "review.h"
 #include "store.h"
 #include "summary.h"
 #include "synth.h"
@@ -50,6 +53,7 @@ typedef struct phase_out {
     int windows;
     int64_t report_events;
     size_t json_bytes;
+    int64_t review_day, review_kept;
 } phase_out;
 
 typedef struct phase_result {
@@ -247,6 +251,74 @@ static void phase_report(const bench *b, phase_out *out, int by)
     cc_store_close(s);
 }
 
+/* Review of the busiest day: arg 0 = the plain scan of that day's rows through
+ * events_by_time (the floor: every row read, nothing computed), 1 = review
+ * --where wrong, 2 = review --where top-mi; at most 5 repetitions each. */
+static void phase_review(const bench *b, phase_out *out, int arg)
+{
+    cc_error err = CC_ERROR_INIT;
+    cc_store *s = NULL;
+    cc_model *m = NULL;
+    sqlite3_stmt *q = NULL;
+    if (cc_store_open(&s, b->db, 0, &err) || cc_store_model_get(s, "default", &m, &err)) {
+        fail(out, "%s", err.msg);
+        cc_store_close(s);
+        return;
+    }
+    sqlite3 *db = cc_store_db(s);
+    sqlite3_prepare_v2(db, "SELECT day, count(*) FROM events WHERE model_id = ?1 GROUP BY day "
+                           "ORDER BY 2 DESC, 1 LIMIT 1", -1, &q, NULL);
+    sqlite3_bind_int64(q, 1, m->id);
+    if (sqlite3_step(q) == SQLITE_ROW) {
+        out->review_day = sqlite3_column_int64(q, 0);
+        out->items = sqlite3_column_int64(q, 1);
+    }
+    sqlite3_finalize(q);
+    q = NULL;
+    int reps = b->reps < 5 ? b->reps : 5;
+    double start = now();
+    for (int i = 0; i < reps && !out->failed; i++) {
+        double t0 = now();
+        if (arg == 0) {
+            int64_t rows = 0, bytes = 0;
+            if (!q)
+                sqlite3_prepare_v2(db, "SELECT id, ts, label, probs FROM events WHERE "
+                                       "model_id = ?1 AND day BETWEEN ?2 AND ?2", -1, &q, NULL);
+            sqlite3_reset(q);
+            sqlite3_bind_int64(q, 1, m->id);
+            sqlite3_bind_int64(q, 2, out->review_day);
+            while (sqlite3_step(q) == SQLITE_ROW) {
+                const unsigned char *blob = sqlite3_column_blob(q, 3);
+                rows++;
+                bytes += sqlite3_column_bytes(q, 3) + (blob ? blob[0] : 0);
+            }
+            out->review_kept = bytes > 0 ? rows : 0;
+        } else {
+            cc_review_opts o = CC_REVIEW_OPTS_INIT;
+            cc_review *rv = NULL;
+            o.from = out->review_day * 86400;
+            o.to = o.from + 86399;
+            o.lists = 1u << (arg == 1 ? CC_REVIEW_WRONG : CC_REVIEW_TOP_MI);
+            if (cc_review_run(&rv, s, m, &o, &err)) {
+                fail(out, "%s", err.msg);
+                break;
+            }
+            int n;
+            cc_review_get_list(rv, arg == 1 ? CC_REVIEW_WRONG : CC_REVIEW_TOP_MI, &n, NULL);
+            out->review_kept = n;
+            if (cc_review_get_summary(rv)->events != out->items)
+                fail(out, "review saw %lld events, the day has %lld",
+                     (long long)cc_review_get_summary(rv)->events, (long long)out->items);
+            cc_review_free(rv);
+        }
+        out->rep_ms[out->reps++] = (now() - t0) * 1e3;
+    }
+    out->wall = now() - start;
+    sqlite3_finalize(q);
+    cc_model_free(m);
+    cc_store_close(s);
+}
+
 static int write_all(int fd, const void *data, size_t n)
 {
     const char *p = data;
@@ -395,6 +467,8 @@ static void usage(FILE *f)
           "  ingest     fresh database: cc_store_open, cc_ingest_create/_file/_finish\n"
           "  report     cc_report_build + cc_report_json over every stored day,\n"
           "             by day and as one window, repeated --reps times\n"
+          "  review     the busiest day: a plain scan of its rows, then cc_review_run\n"
+          "             --where wrong and --where top-mi (at most 5 times each)\n"
           "and prints wall time, CPU time, events/s and peak RSS per phase.\n"
           "\n"
           "options:\n"
@@ -532,7 +606,7 @@ int main(int argc, char **argv)
     else
         snprintf(b.events, sizeof b.events, "%s/events.jsonl", b.dir);
 
-    static phase_result idle, gen, parse, ingest, by_day, by_all;
+    static phase_result idle, gen, parse, ingest, by_day, by_all, scan, rv_wrong, rv_mi;
     int failed = 0;
     run_phase(&b, phase_idle, 0, &idle);
     if (!b.input) {
@@ -554,6 +628,18 @@ int main(int argc, char **argv)
     if (!failed) {
         run_phase(&b, phase_report, CC_BY_ALL, &by_all);
         failed |= report_failure("report all", &by_all);
+    }
+    if (!failed) {
+        run_phase(&b, phase_review, 0, &scan);
+        failed |= report_failure("review scan", &scan);
+    }
+    if (!failed) {
+        run_phase(&b, phase_review, 1, &rv_wrong);
+        failed |= report_failure("review wrong", &rv_wrong);
+    }
+    if (!failed) {
+        run_phase(&b, phase_review, 2, &rv_mi);
+        failed |= report_failure("review top-mi", &rv_mi);
     }
 
     if (!failed) {
@@ -582,6 +668,9 @@ int main(int argc, char **argv)
         print_row(label, &by_day, 0);
         snprintf(label, sizeof label, "report all x%d", b.reps);
         print_row(label, &by_all, 0);
+        print_row("review day: plain scan", &scan, 0);
+        print_row("review day: --where wrong", &rv_wrong, 0);
+        print_row("review day: --where top-mi", &rv_mi, 0);
 
         double med_day, min_day, med_all, min_all;
         rep_stats(&by_day.out, &med_day, &min_day);
@@ -597,6 +686,20 @@ int main(int argc, char **argv)
                med_all, min_all, by_all.out.rep_ms[0], by_all.out.windows,
                grouped(g2, sizeof g2, (double)by_all.out.report_events),
                (double)by_all.out.json_bytes / 1024.0);
+
+        double med_scan, med_wrong, med_mi, min_x;
+        char day_txt[11];
+        rep_stats(&scan.out, &med_scan, &min_x);
+        rep_stats(&rv_wrong.out, &med_wrong, &min_x);
+        rep_stats(&rv_mi.out, &med_mi, &min_x);
+        cc_format_date(scan.out.review_day, day_txt);
+        printf("\n  review of the busiest day (%s, %s events), median of %d runs each:\n"
+               "    plain scan of its rows %8.1f ms\n"
+               "    --where wrong          %8.1f ms  (%.2fx the scan)\n"
+               "    --where top-mi         %8.1f ms  (%.2fx the scan)\n",
+               day_txt, grouped(g1, sizeof g1, (double)scan.out.items), scan.out.reps,
+               med_scan, med_wrong, med_scan > 0 ? med_wrong / med_scan : 0.0, med_mi,
+               med_scan > 0 ? med_mi / med_scan : 0.0);
 
         double parse_rate = parse.out.wall > 0 ? (double)parse.out.items / parse.out.wall : 0;
         double ingest_rate =

@@ -5,6 +5,7 @@
 #define CC_CLI_H
 
 #include <stdint.h>
+#include <stdio.h>
 
 #include "error.h"
 
@@ -15,6 +16,9 @@ enum {
     EXIT_USAGE = 2,      /* bad command line */
     EXIT_IO = 3,         /* file or database failure */
     EXIT_NOTFOUND = 4,   /* unknown model, or nothing in the range */
+    EXIT_FIRED = 10,     /* check: a rule fired on the checked day */
+    EXIT_FIRING = 11,    /* check: rules are firing, none newly */
+    EXIT_UNDELIVERED = 12, /* deliver: some notifications failed (retried later) */
 };
 
 typedef struct cli_command {
@@ -57,8 +61,35 @@ int cmd_baseline(int argc, char **argv);
 int cmd_report(int argc, char **argv);
 int cmd_verify(int argc, char **argv);
 int cmd_demo(int argc, char **argv);
+/* The report as an HTML page in *out, with the review lists of its range
+ * unless with_review is 0 (cmd_report.c). Returns an exit code. */
+struct cc_store;
+struct cc_report;
+int cli_report_html(struct cc_store *store, const struct cc_report *r, int with_review,
+                    const char *note, char **out);
+int cmd_review(int argc, char **argv);
+int cmd_show(int argc, char **argv);
 
 extern const char help_ingest[], help_label[], help_baseline[], help_report[], help_verify[],
     help_demo[];
+extern const char help_review[], help_show[];
+
+/* Alerts: commands, and (cmd_check.c) the clock (CONCORD_NOW when set), the
+ * check's exit status and its printing, shared by check, follow and demo. */
+int cmd_check(int argc, char **argv);
+int cmd_alerts(int argc, char **argv);
+int cmd_deliver(int argc, char **argv);
+int cmd_rules(int argc, char **argv);
+int cmd_follow(int argc, char **argv);
+extern const char help_check[], help_alerts[], help_deliver[], help_rules[], help_follow[];
+struct cc_check_result;
+struct cc_deliver_stats;
+int64_t cli_now(void);
+int cli_check_exit(const struct cc_check_result *r);
+void cli_print_check(const struct cc_check_result *r, int json, int dry_run,
+                     const struct cc_deliver_stats *ds, FILE *f);
+/* The demo's alert timeline (cmd_alerts.c). Returns an exit code. */
+struct cc_store;
+int cli_demo_alerts(struct cc_store *store, const char *dir, int64_t first_day, int days);
 
 #endif

@@ -21,8 +21,9 @@ const char help_demo[] =
     "(days 9-11: members disagree, mutual information rises), a late-season grade mix\n"
     "(from day 16: class mix moves, labels confirm it) and a retrain after which the\n"
     "members are near copies (from day 23: disagreement collapses). Writes events.jsonl,\n"
-    "labels.jsonl, demo.db, report.txt and report.json into DIR (default ./concord-demo,\n"
-    "replacing an earlier demo database there).\n\n"
+    "labels.jsonl, demo.db, report.txt, report.json and report.html into DIR (default\n"
+    "./concord-demo, replacing an earlier demo database there). Then checks the default\n"
+    "alert rules day by day (rules.json) and prints the alert timeline (alerts.jsonl).\n\n"
     "exit: 0 ok, 2 usage, 3 file or database error\n";
 
 static int write_file(const char *path, const char *text)
@@ -61,12 +62,13 @@ int cmd_demo(int argc, char **argv)
         return EXIT_IO;
     }
 
-    char events[4096], labels[4096], db[4096], txt[4096], json[4096], wal[4200];
+    char events[4096], labels[4096], db[4096], txt[4096], json[4096], wal[4200], html[4096];
     snprintf(events, sizeof events, "%s/events.jsonl", dir);
     snprintf(labels, sizeof labels, "%s/labels.jsonl", dir);
     snprintf(db, sizeof db, "%s/demo.db", dir);
     snprintf(txt, sizeof txt, "%s/report.txt", dir);
     snprintf(json, sizeof json, "%s/report.json", dir);
+    snprintf(html, sizeof html, "%s/report.html", dir);
     remove(db);
     snprintf(wal, sizeof wal, "%s-wal", db);
     remove(wal);
@@ -87,7 +89,7 @@ int cmd_demo(int argc, char **argv)
     cc_ingest *ing = NULL;
     cc_report *rep = NULL;
     cc_model *model = NULL;
-    char *text = NULL, *js = NULL;
+    char *text = NULL, *js = NULL, *page = NULL;
     cc_ingest_opts io = CC_INGEST_OPTS_INIT;
     io.model = "apple-grader";
     io.classes = classes;
@@ -110,7 +112,13 @@ int cmd_demo(int argc, char **argv)
     }
     text = cc_report_text(rep);
     js = cc_report_json(rep);
-    if (!text || !js || write_file(txt, text) || write_file(json, js)) {
+    if ((rc = cli_report_html(store, rep, 1,
+                              "Invented data from concord demo: an imaginary apple packhouse, "
+                              "not real measurements.",
+                              &page)) != EXIT_OK)
+        goto done;
+    if (!text || !js || !page || write_file(txt, text) || write_file(json, js) ||
+        write_file(html, page)) {
         fprintf(stderr, "concord demo: cannot write the reports in %s\n", dir);
         rc = EXIT_IO;
         goto done;
@@ -135,13 +143,18 @@ int cmd_demo(int argc, char **argv)
            (long long)inc.delayed_labels, (long long)s->accepted, (long long)s->labels_set,
            fog_a, fog_b, mix_a, re_a);
     fputs(text, stdout);
-    printf("\nwritten: %s, %s, %s (database), %s and %s (%.1f s)\n", events, labels, db, txt,
-           json, (double)(t1.tv_sec - t0.tv_sec) + (double)(t1.tv_nsec - t0.tv_nsec) / 1e9);
+    printf("\nwritten: %s, %s, %s (database), %s, %s and %s (%.1f s)\n", events, labels, db,
+           txt, json, html, (double)(t1.tv_sec - t0.tv_sec) + (double)(t1.tv_nsec - t0.tv_nsec) / 1e9);
     printf("try: concord report --db %s --model apple-grader --from %s --to %s --by all\n", db,
            fog_a, fog_b);
+    printf("review the fog days: concord review --db %s --model apple-grader --from %s --to %s "
+           "--where top-mi\n", db, fog_a, fog_b);
+    printf("open in a browser: %s\n", html);
+    rc = cli_demo_alerts(store, dir, dopts.first_day, dopts.days);
 done:
     free(text);
     free(js);
+    free(page);
     cc_report_free(rep);
     cc_model_free(model);
     cc_ingest_free(ing);

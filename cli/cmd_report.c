@@ -6,10 +6,12 @@
 
 #include "cli.h"
 #include "report.h"
+#include "review.h"
 
 const char help_report[] =
     "usage: concord report --db FILE --model NAME [--from DATE] [--to DATE]\n"
-    "                      [--by day|week|all] [--format text|json] [-o FILE]\n\n"
+    "                      [--by day|week|all] [--format text|json|html] [--no-review]\n"
+    "                      [-o FILE]\n\n"
     "Diversity of the members (disagreement, Cohen's and Fleiss' kappa), uncertainty of\n"
     "the averaged output (entropy, expected entropy, mutual information), class mix,\n"
     "contested class pairs, and on labelled events accuracy of members, ensemble, vote\n"
@@ -18,15 +20,41 @@ const char help_report[] =
     "shown. Weeks are ISO weeks (Monday to Sunday, UTC).\n\n"
     "  --by day|week|all  one window per day (default), per week, or one for the range\n"
     "  --format text|json the JSON contract is described in the README\n"
+    "  --format html      one self-contained page with charts (write it with -o); it also\n"
+    "                     reads the range's event rows for the review lists, unless\n"
+    "  --no-review        is given\n"
     "  -o FILE            write there instead of standard output\n\n"
     "exit: 0 ok, 2 usage, 3 file or database error, 4 unknown model\n";
+
+int cli_report_html(cc_store *store, const cc_report *r, int with_review, const char *note,
+                    char **out)
+{
+    cc_html_extras x = CC_HTML_EXTRAS_INIT;
+    cc_review *rv = NULL;
+    cc_error err = CC_ERROR_INIT;
+    x.note = note;
+    *out = NULL;
+    if (with_review && r->n_windows > 0) {
+        cc_review_opts o = CC_REVIEW_OPTS_INIT;
+        o.from = r->windows[0].from * 86400;
+        o.to = r->windows[r->n_windows - 1].to * 86400 + 86399;
+        o.lists = ((1u << CC_REVIEW_KINDS) - 1) & ~(1u << CC_REVIEW_PAIR);
+        o.limit = 10;
+        if (cc_review_run(&rv, store, r->model, &o, &err))
+            return cli_fail(&err);
+        x.review = rv;
+    }
+    *out = cc_report_html(r, &x);
+    cc_review_free(rv);
+    return EXIT_OK;
+}
 
 int cmd_report(int argc, char **argv)
 {
     cli_opt opts[] = {{"db", 0, 1, NULL},  {"model", 0, 1, NULL},  {"from", 0, 1, NULL},
                       {"to", 0, 1, NULL},  {"by", 0, 1, NULL},     {"format", 0, 1, NULL},
-                      {"output", 'o', 1, NULL}};
-    int n_opts = 7, n_pos, help;
+                      {"output", 'o', 1, NULL}, {"no-review", 0, 0, NULL}};
+    int n_opts = 8, n_pos, help;
     char *pos[64];
     if (argc > 64 || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, "report"))
         return EXIT_USAGE;
@@ -64,8 +92,9 @@ int cmd_report(int argc, char **argv)
     else
         return cli_usage("report", "--by must be day, week or all, not '%s'", by);
     int json = format && strcmp(format, "json") == 0;
-    if (format && !json && strcmp(format, "text") != 0)
-        return cli_usage("report", "--format must be text or json, not '%s'", format);
+    int html = format && strcmp(format, "html") == 0;
+    if (format && !json && !html && strcmp(format, "text") != 0)
+        return cli_usage("report", "--format must be text, json or html, not '%s'", format);
 
     cc_error err = CC_ERROR_INIT;
     cc_store *store = NULL;
@@ -74,7 +103,16 @@ int cmd_report(int argc, char **argv)
     if (cc_store_open(&store, db, 0, &err) || cc_report_build(&r, store, &ro, &err)) {
         rc = cli_fail(&err);
     } else {
-        char *text = json ? cc_report_json(r) : cc_report_text(r);
+        char *text = NULL;
+        if (html)
+            rc = cli_report_html(store, r, !cli_get(opts, n_opts, "no-review"), NULL, &text);
+        else
+            text = json ? cc_report_json(r) : cc_report_text(r);
+        if (rc != EXIT_OK) {
+            cc_report_free(r);
+            cc_store_close(store);
+            return rc;
+        }
         FILE *f = out ? fopen(out, "w") : stdout;
         if (!text) {
             fprintf(stderr, "concord report: out of memory\n");

@@ -11,7 +11,16 @@ static const cli_command commands[] = {
     {"report", cmd_report, "diversity, uncertainty and accuracy per day, week or range",
      help_report},
     {"verify", cmd_verify, "check that stored summaries match the event rows", help_verify},
+    {"review", cmd_review, "the events behind an incident: wrong, helped, hurt, uncertain",
+     help_review},
+    {"show", cmd_show, "one stored event in full", help_show},
     {"demo", cmd_demo, "run the whole job on an invented fruit-grading ensemble", help_demo},
+    {"rules", cmd_rules, "write the default alert rules, check a rules file", help_rules},
+    {"check", cmd_check, "evaluate alert rules on a day, notify on transitions", help_check},
+    {"alerts", cmd_alerts, "list rule states and the notification history", help_alerts},
+    {"deliver", cmd_deliver, "retry notifications waiting in the outbox", help_deliver},
+    {"follow", cmd_follow, "tail growing log files, ingest, check when a day closes",
+     help_follow},
 };
 
 static void usage(FILE *f)
@@ -23,7 +32,9 @@ static void usage(FILE *f)
         fprintf(f, "  %-9s %s\n", commands[i].name, commands[i].summary);
     fprintf(f, "\n'concord COMMAND --help' describes a command.\n"
                "exit codes: 0 ok, 1 some input lines rejected, 2 usage error,\n"
-               "            3 file or database error, 4 unknown model or nothing to report\n");
+               "            3 file or database error, 4 unknown model or nothing to report;\n"
+               "            check: 10 a rule fired, 11 rules still firing; deliver: 12 some\n"
+               "            notifications not delivered yet\n");
 }
 
 int main(int argc, char **argv)

@@ -455,7 +455,8 @@ static int finish_summary(cc_review *rv)
             if (rv->pair_counts[(size_t)a * k + b] > 0)
                 s->contested[s->n_contested++] =
                     (cc_review_pair){a, b, rv->pair_counts[(size_t)a * k + b]};
-    qsort(s->contested, (size_t)s->n_contested, sizeof *s->contested, pair_cmp);
+    if (s->n_contested > 1)
+        qsort(s->contested, (size_t)s->n_contested, sizeof *s->contested, pair_cmp);
     return 0;
 }
 

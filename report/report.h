@@ -52,4 +52,23 @@ void cc_report_free(cc_report *r);
 char *cc_report_json(const cc_report *r);
 char *cc_report_text(const cc_report *r);
 
+/* The HTML page's inputs besides the report. alerts: lines for the status
+ * line, when the caller evaluated alert rules (alerts_known = 1); review:
+ * the event lists of the report's range (collector/review.h), or NULL. */
+struct cc_review;
+typedef struct cc_html_extras {
+    const struct cc_review *review;
+    int alerts_known;
+    const char *const *alerts;
+    int n_alerts;
+    double band_k;              /* band = baseline mean +- band_k sd of its days */
+    const char *note;           /* a line under the title, or NULL */
+} cc_html_extras;
+
+#define CC_HTML_EXTRAS_INIT {NULL, 0, NULL, 0, 3.0, NULL}
+
+/* One self-contained HTML page (inline CSS and SVG, no script); extras may
+ * be NULL. Strings from the logs are escaped. */
+char *cc_report_html(const cc_report *r, const cc_html_extras *extras);
+
 #endif

@@ -1,0 +1,65 @@
+/* check.h — one `concord check`: for every model (or one), evaluate every
+ * rule on the checked day, advance each rule's state, and queue a
+ * notification for each transition (fired, resolved, reminder) to every
+ * receiver, a model's state changes and notifications in one transaction.
+ * A day at or before a rule's last checked day is not evaluated again, so
+ * re-running a check is harmless. */
+#ifndef CC_ALERTS_CHECK_H
+#define CC_ALERTS_CHECK_H
+
+#include <stdint.h>
+
+#include "evaluate.h"
+#include "rule.h"
+#include "state.h"
+#include "store.h"
+
+typedef enum cc_outcome {
+    CC_OUT_OK,          /* clear, nothing firing */
+    CC_OUT_PENDING,     /* breaching, not yet for enough windows */
+    CC_OUT_FIRED,       /* fired on this day */
+    CC_OUT_FIRING,      /* still firing, no new notification */
+    CC_OUT_REMINDER,    /* still firing, reminder sent */
+    CC_OUT_RESOLVED,    /* resolved on this day */
+    CC_OUT_SKIPPED,     /* too little data or undefined; state unchanged */
+    CC_OUT_ALREADY,     /* this day was already checked; state unchanged */
+} cc_outcome;
+
+typedef struct cc_check_item {
+    char *model;
+    const cc_rule *rule;
+    cc_eval_result ev;
+    cc_state_kind before, after;
+    cc_outcome outcome;
+    int64_t since_day, fired_day;
+    int64_t last_day;           /* the rule's last checked day (for CC_OUT_ALREADY) */
+    char *dedupe_key;           /* for transitions */
+    char *sentence;             /* for transitions */
+} cc_check_item;
+
+typedef struct cc_check_opts {
+    const char *model;          /* NULL: every model */
+    int has_day;
+    int64_t day;                /* default: the latest complete UTC day */
+    int dry_run;                /* evaluate and report, change nothing */
+    int64_t now;                /* Unix time; 0 = the clock */
+    const cc_receiver *extra;   /* receivers added for this run */
+    int n_extra;
+} cc_check_opts;
+
+typedef struct cc_check_result {
+    int64_t day;
+    cc_check_item *items;
+    int n_items;
+    int fired, resolved, reminders, firing, pending, skipped, already;
+    int queued;                 /* outbox rows added */
+    int receivers;
+} cc_check_result;
+
+int cc_check_run(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o,
+                 cc_check_result **out, cc_error *err);
+void cc_check_result_free(cc_check_result *r);
+
+const char *cc_check_outcome_name(cc_outcome o);
+
+#endif

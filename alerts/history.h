@@ -1,0 +1,44 @@
+/* history.h — reading the alert tables back for `concord alerts`: each
+ * rule's state, and the notifications with their delivery per receiver
+ * (sent, pending with its next attempt, or dead letter). Read-only. */
+#ifndef CC_ALERTS_HISTORY_H
+#define CC_ALERTS_HISTORY_H
+
+#include <stdint.h>
+
+#include "error.h"
+#include "store.h"
+
+typedef struct cc_state_row {
+    const char *model, *rule, *state, *metric, *severity;
+    int64_t since_day, last_day, fired_day;   /* fired_day -1: never */
+    int breach_run, clear_run;
+    double last_value, last_bound;            /* NAN when undefined */
+} cc_state_row;
+
+typedef struct cc_history_row {
+    int64_t id;
+    const char *dedupe_key, *model, *rule, *kind, *severity, *body;
+    int64_t day, window_day, created_at;
+    double value, bound;
+    const char *receiver;       /* NULL: no receiver was configured */
+    const char *status;         /* pending, sent, dead; NULL without receiver */
+    int attempts;
+    int64_t next_at, sent_at;   /* -1 when unset */
+    long last_status;           /* HTTP status of the last attempt, 0 none */
+    const char *last_error;
+} cc_history_row;
+
+/* Rows are valid during the callback only; a nonzero return stops. */
+typedef int (*cc_state_row_fn)(void *ctx, const cc_state_row *r);
+typedef int (*cc_history_row_fn)(void *ctx, const cc_history_row *r);
+
+/* model, state: NULL for all. */
+int cc_history_states(cc_store *s, const char *model, const char *state, cc_state_row_fn fn,
+                      void *ctx, cc_error *err);
+/* Newest first, at most limit notifications (each with its outbox rows);
+ * delivery: NULL, "pending", "sent" or "dead" filters the outbox rows. */
+int cc_history_notifications(cc_store *s, const char *model, const char *delivery, int limit,
+                             cc_history_row_fn fn, void *ctx, cc_error *err);
+
+#endif

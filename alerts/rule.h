@@ -1,0 +1,86 @@
+/* rule.h — the rules file: alert rules, webhook receivers and the delivery
+ * policy, parsed and validated with cJSON (docs/alerts.md describes the
+ * format). Every error names the rule (or the top-level key) and the key.
+ * Also holds the commented default set that `concord rules init` writes. */
+#ifndef CC_ALERTS_RULE_H
+#define CC_ALERTS_RULE_H
+
+#include <stdint.h>
+
+#include "error.h"
+
+typedef enum cc_condition {
+    CC_COND_ABOVE,          /* value > bound */
+    CC_COND_BELOW,          /* value < bound */
+    CC_COND_SIGMAS_ABOVE,   /* value > mean + max(k sd, min_shift, min_relative_shift |mean|) */
+    CC_COND_SIGMAS_BELOW,   /* value < mean - the same */
+} cc_condition;
+
+typedef enum cc_severity { CC_SEV_INFO, CC_SEV_WARNING, CC_SEV_CRITICAL } cc_severity;
+
+typedef struct cc_rule {
+    char *name;
+    char *metric;
+    cc_condition cond;
+    double threshold;            /* the bound, or k for sigma conditions */
+    double min_shift;            /* sigma conditions: smallest |value - mean| that counts */
+    double min_relative_shift;   /* sigma conditions: the same as a fraction of |mean| */
+    int64_t min_events, min_labels;
+    int fire_after;              /* "for": consecutive breaching windows to fire */
+    int clear_after;             /* "clear_for": consecutive clear windows to resolve */
+    int remind_after_days;       /* 0: no reminders */
+    int lag_days;                /* evaluate the window this many days before the checked day */
+    cc_severity severity;
+    char *action;                /* short code, e.g. "review" */
+    char *advice;                /* a sentence for people; may be NULL */
+    char *description;           /* may be NULL */
+    char **models;               /* NULL: every model */
+    int n_models;
+} cc_rule;
+
+/* Where notifications go, and how. */
+typedef struct cc_receiver {
+    char *url;                   /* http://, https:// or file:PATH */
+    char *secret_env;            /* environment variable holding the HMAC secret; NULL = unsigned */
+    int connect_timeout_ms, timeout_ms;
+    int max_attempts;
+} cc_receiver;
+
+/* Defaults of the "delivery" section (docs/alerts.md, "Delivery"). */
+#define CC_DELIVERY_MAX_ATTEMPTS 10
+#define CC_DELIVERY_BACKOFF_S 60
+#define CC_DELIVERY_MAX_BACKOFF_S 21600
+#define CC_DELIVERY_CONNECT_TIMEOUT_MS 5000
+#define CC_DELIVERY_TIMEOUT_MS 15000
+
+typedef struct cc_ruleset cc_ruleset;
+
+/* Parses text (JSON with // and block comments); source names it in errors.
+ * Invalid input is -CC_EINPUT with a message naming rule and key. */
+int cc_rules_parse(cc_ruleset **out, const char *text, const char *source, cc_error *err);
+/* Reads and parses a file. */
+int cc_rules_load(cc_ruleset **out, const char *path, cc_error *err);
+void cc_rules_free(cc_ruleset *rs);
+
+int cc_rules_count(const cc_ruleset *rs);
+const cc_rule *cc_rules_get(const cc_ruleset *rs, int i);
+int cc_rules_receiver_count(const cc_ruleset *rs);
+const cc_receiver *cc_rules_receiver(const cc_ruleset *rs, int i);
+/* A receiver for a URL given on the command line, with the file's delivery
+ * defaults (secret variable, timeouts, attempts). Caller frees with
+ * cc_rules_receiver_clear. Returns 0, or -CC_EINPUT for a bad URL. */
+int cc_rules_receiver_for(const cc_ruleset *rs, const char *url, cc_receiver *out,
+                          cc_error *err);
+void cc_rules_receiver_clear(cc_receiver *r);
+int cc_rules_backoff_s(const cc_ruleset *rs);
+int cc_rules_max_backoff_s(const cc_ruleset *rs);
+/* Whether the rule applies to the model. */
+int cc_rules_applies(const cc_rule *r, const char *model);
+
+const char *cc_rules_condition_name(cc_condition c);
+const char *cc_rules_severity_name(cc_severity s);
+
+/* The commented default rules file (static text). */
+const char *cc_rules_default_text(void);
+
+#endif

@@ -1,0 +1,284 @@
+/* cmd_check.c — `concord check`: evaluate the rules on a day, record state
+ * changes and queue notifications, deliver, print, and exit with a status a
+ * scheduler can act on. Also the printing shared with follow and demo. */
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <time.h>
+
+#include <cjson/cJSON.h>
+
+#include "check.h"
+#include "cli.h"
+#include "date.h"
+#include "deliver.h"
+#include "rule.h"
+#include "webhook.h"
+
+const char help_check[] =
+    "usage: concord check --db FILE --rules FILE [--model NAME] [--day DATE] [--dry-run]\n"
+    "                     [--webhook URL] [--no-deliver] [--format text|json]\n\n"
+    "Evaluates every rule of the rules file on the latest complete UTC day (or --day) for\n"
+    "every model (or --model), advances each rule's state (ok, pending, firing, resolved)\n"
+    "in the database and queues a notification for each transition only: fired, resolved,\n"
+    "and the rule's reminder while it keeps firing. Then delivers what is due to the\n"
+    "rules file's webhooks and --webhook. A day already checked is not evaluated again.\n\n"
+    "  --day DATE       check this day instead of yesterday (UTC)\n"
+    "  --dry-run        evaluate and print; change nothing, send nothing\n"
+    "  --webhook URL    also notify this receiver (http://, https:// or file:PATH)\n"
+    "  --no-deliver     queue only; 'concord deliver' sends later\n"
+    "  --format json    rule, metric, value, bound, state and outcome per rule\n\n"
+    "exit: 0 healthy (no rule firing), 10 a rule fired on this day, 11 rules are firing\n"
+    "(none newly), 1 invalid rules file, 2 usage, 3 file or database error, 4 unknown model\n"
+    "Delivery failures do not change the exit status; they are retried later.\n";
+
+int64_t cli_now(void)
+{
+    const char *fixed = getenv("CONCORD_NOW"); /* a fixed clock for reproducible tests */
+    return fixed && *fixed ? strtoll(fixed, NULL, 10) : (int64_t)time(NULL);
+}
+
+int cli_check_exit(const cc_check_result *r)
+{
+    return r->fired > 0 ? EXIT_FIRED : r->firing > 0 ? EXIT_FIRING : EXIT_OK;
+}
+
+static const char *label(cc_outcome o)
+{
+    switch (o) {
+    case CC_OUT_FIRED: return "FIRED";
+    case CC_OUT_RESOLVED: return "RESOLVED";
+    case CC_OUT_REMINDER: return "REMINDER";
+    case CC_OUT_FIRING: return "firing";
+    case CC_OUT_PENDING: return "pending";
+    case CC_OUT_SKIPPED: return "skipped";
+    case CC_OUT_ALREADY: return "checked";
+    default: return "ok";
+    }
+}
+
+static void print_value(FILE *f, double x)
+{
+    if (isfinite(x))
+        fprintf(f, "%.4g", x);
+    else
+        fputs("-", f);
+}
+
+static cJSON *jnum(double x) { return isfinite(x) ? cJSON_CreateNumber(x) : cJSON_CreateNull(); }
+
+static cJSON *jdate(int64_t day)
+{
+    char s[11];
+    if (day < 0)
+        return cJSON_CreateNull();
+    cc_format_date(day, s);
+    return cJSON_CreateString(s);
+}
+
+static void print_json(const cc_check_result *r, int dry_run, const cc_deliver_stats *ds,
+                       FILE *f)
+{
+    cJSON *o = cJSON_CreateObject();
+    cJSON_AddItemToObject(o, "day", jdate(r->day));
+    cJSON_AddBoolToObject(o, "dry_run", dry_run);
+    cJSON_AddNumberToObject(o, "exit_code", cli_check_exit(r));
+    cJSON *n = cJSON_AddObjectToObject(o, "counts");
+    cJSON_AddNumberToObject(n, "fired", r->fired);
+    cJSON_AddNumberToObject(n, "resolved", r->resolved);
+    cJSON_AddNumberToObject(n, "reminders", r->reminders);
+    cJSON_AddNumberToObject(n, "firing", r->firing);
+    cJSON_AddNumberToObject(n, "pending", r->pending);
+    cJSON_AddNumberToObject(n, "skipped", r->skipped);
+    cJSON_AddNumberToObject(n, "already_checked", r->already);
+    cJSON_AddNumberToObject(n, "queued", r->queued);
+    cJSON *a = cJSON_AddArrayToObject(o, "results");
+    for (int i = 0; i < r->n_items; i++) {
+        const cc_check_item *it = &r->items[i];
+        cJSON *e = cJSON_CreateObject();
+        cJSON_AddStringToObject(e, "model", it->model);
+        cJSON_AddStringToObject(e, "rule", it->rule->name);
+        cJSON_AddStringToObject(e, "metric", it->rule->metric);
+        cJSON_AddStringToObject(e, "severity", cc_rules_severity_name(it->rule->severity));
+        cJSON_AddStringToObject(e, "condition", cc_rules_condition_name(it->rule->cond));
+        cJSON_AddItemToObject(e, "window", jdate(it->ev.window_day));
+        cJSON_AddItemToObject(e, "value", jnum(it->ev.value));
+        cJSON_AddItemToObject(e, "bound", jnum(it->ev.bound));
+        if (it->ev.has_baseline) {
+            cJSON *b = cJSON_AddObjectToObject(e, "baseline");
+            cJSON_AddItemToObject(b, "mean", jnum(it->ev.mean));
+            cJSON_AddItemToObject(b, "sd", jnum(it->ev.sd));
+            cJSON_AddNumberToObject(b, "days", it->ev.baseline_days);
+            cJSON_AddItemToObject(b, "z", jnum(it->ev.z));
+        } else {
+            cJSON_AddNullToObject(e, "baseline");
+        }
+        cJSON_AddNumberToObject(e, "events", (double)it->ev.events);
+        cJSON_AddNumberToObject(e, "labeled", (double)it->ev.labeled);
+        cJSON_AddStringToObject(e, "previous_state", cc_state_name(it->before));
+        cJSON_AddStringToObject(e, "state", cc_state_name(it->after));
+        cJSON_AddStringToObject(e, "outcome", cc_check_outcome_name(it->outcome));
+        cJSON_AddItemToObject(e, "since", jdate(it->since_day));
+        if (it->outcome == CC_OUT_SKIPPED)
+            cJSON_AddStringToObject(e, "reason", it->ev.reason);
+        if (it->dedupe_key)
+            cJSON_AddStringToObject(e, "dedupe_key", it->dedupe_key);
+        if (it->sentence)
+            cJSON_AddStringToObject(e, "summary", it->sentence);
+        cJSON_AddItemToArray(a, e);
+    }
+    if (ds) {
+        cJSON *d = cJSON_AddObjectToObject(o, "delivery");
+        cJSON_AddNumberToObject(d, "sent", ds->sent);
+        cJSON_AddNumberToObject(d, "failed", ds->failed);
+        cJSON_AddNumberToObject(d, "dead", ds->dead);
+        cJSON_AddNumberToObject(d, "deferred", ds->deferred);
+        cJSON_AddNumberToObject(d, "pending_in_outbox", (double)ds->pending);
+        cJSON_AddNumberToObject(d, "dead_letters_in_outbox", (double)ds->dead_total);
+    } else {
+        cJSON_AddNullToObject(o, "delivery");
+    }
+    char *text = cJSON_Print(o);
+    if (text)
+        fprintf(f, "%s\n", text);
+    free(text);
+    cJSON_Delete(o);
+}
+
+void cli_print_check(const cc_check_result *r, int json, int dry_run,
+                     const cc_deliver_stats *ds, FILE *f)
+{
+    if (json) {
+        print_json(r, dry_run, ds, f);
+        return;
+    }
+    char day[11];
+    cc_format_date(r->day, day);
+    fprintf(f, "concord check %s%s\n", day, dry_run ? " (dry run: nothing recorded or sent)" : "");
+    for (int i = 0; i < r->n_items; i++) {
+        const cc_check_item *it = &r->items[i];
+        fprintf(f, "  %-9s %-8s %-16s %-20s %s = ", label(it->outcome),
+                cc_rules_severity_name(it->rule->severity), it->model, it->rule->name,
+                it->rule->metric);
+        print_value(f, it->ev.value);
+        if (it->outcome == CC_OUT_SKIPPED) {
+            fprintf(f, "  (skipped: %s)\n", it->ev.reason);
+            continue;
+        }
+        fputs(" (bound ", f);
+        print_value(f, it->ev.bound);
+        fputs(")", f);
+        if (it->outcome == CC_OUT_ALREADY) {
+            char last[11];
+            cc_format_date(it->last_day, last);
+            fprintf(f, "  [already checked up to %s; %s now]", last, cc_state_name(it->after));
+        }
+        fputc('\n', f);
+        if (it->sentence)
+            fprintf(f, "            %s\n", it->sentence);
+    }
+    fprintf(f, "summary: %d fired, %d resolved, %d reminders; %d firing, %d pending, %d skipped",
+            r->fired, r->resolved, r->reminders, r->firing, r->pending, r->skipped);
+    if (r->already)
+        fprintf(f, ", %d already checked", r->already);
+    if (!dry_run)
+        fprintf(f, "; %d notification(s) queued for %d receiver(s)", r->queued, r->receivers);
+    fputc('\n', f);
+    if (ds)
+        fprintf(f, "delivery: %d sent, %d failed (retried later), %d became dead letters; "
+                   "%lld pending, %lld dead letters in the outbox\n",
+                ds->sent, ds->failed, ds->dead, (long long)ds->pending,
+                (long long)ds->dead_total);
+}
+
+static void on_delivery(void *ctx, const cc_deliver_event *e)
+{
+    (void)ctx;
+    if (!e->ok)
+        fprintf(stderr, "concord: delivery of %s to %s failed (attempt %d): %s%s\n",
+                e->dedupe_key, e->receiver, e->attempts, e->error,
+                e->dead ? "; kept as a dead letter" : "; will retry");
+}
+
+int cmd_check(int argc, char **argv)
+{
+    cli_opt opts[] = {{"db", 0, 1, NULL},         {"rules", 0, 1, NULL},
+                      {"model", 0, 1, NULL},      {"day", 0, 1, NULL},
+                      {"dry-run", 0, 0, NULL},    {"webhook", 0, 1, NULL},
+                      {"no-deliver", 0, 0, NULL}, {"format", 0, 1, NULL}};
+    int n_opts = (int)(sizeof opts / sizeof *opts), n_pos, help;
+    char *pos[64];
+    if (argc > 64 || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, "check"))
+        return EXIT_USAGE;
+    if (help) {
+        fputs(help_check, stdout);
+        return EXIT_OK;
+    }
+    const char *db = cli_get(opts, n_opts, "db"), *rules = cli_get(opts, n_opts, "rules");
+    const char *format = cli_get(opts, n_opts, "format");
+    if (!db || !rules)
+        return cli_usage("check", "--db and --rules are required");
+    if (n_pos)
+        return cli_usage("check", "unexpected argument '%s'", pos[0]);
+    int json = format && strcmp(format, "json") == 0;
+    if (format && !json && strcmp(format, "text") != 0)
+        return cli_usage("check", "--format must be text or json, not '%s'", format);
+    cc_check_opts co = {0};
+    co.model = cli_get(opts, n_opts, "model");
+    co.dry_run = cli_get(opts, n_opts, "dry-run") != NULL;
+    co.now = cli_now();
+    if (cli_get(opts, n_opts, "day")) {
+        co.has_day = 1;
+        if (cli_date("check", "day", cli_get(opts, n_opts, "day"), &co.day))
+            return EXIT_USAGE;
+    }
+
+    cc_error err = CC_ERROR_INIT;
+    cc_ruleset *rs = NULL;
+    cc_store *store = NULL;
+    cc_check_result *res = NULL;
+    cc_receiver extra = {0};
+    int rc;
+    if (cc_rules_load(&rs, rules, &err))
+        return cli_fail(&err);
+    const char *hook = cli_get(opts, n_opts, "webhook");
+    if (hook) {
+        if (cc_rules_receiver_for(rs, hook, &extra, &err)) {
+            cc_rules_free(rs);
+            return cli_usage("check", "%s", err.msg);
+        }
+        co.extra = &extra;
+        co.n_extra = 1;
+    }
+    if (cc_store_open(&store, db, 0, &err) || cc_check_run(store, rs, &co, &res, &err)) {
+        rc = cli_fail(&err);
+        goto done;
+    }
+    cc_deliver_stats ds;
+    int delivered = 0;
+    if (!co.dry_run && !cli_get(opts, n_opts, "no-deliver")) {
+        cc_deliver_opts d = CC_DELIVER_OPTS_INIT;
+        d.now = co.now;
+        d.on_event = on_delivery;
+        cc_webhook_global_init();
+        int e = cc_deliver_run(store, &d, &ds, &err);
+        cc_webhook_global_cleanup();
+        if (e) {
+            rc = cli_fail(&err);
+            goto done;
+        }
+        delivered = 1;
+    }
+    cli_print_check(res, json, co.dry_run, delivered ? &ds : NULL, stdout);
+    if (res->receivers == 0 && (res->fired || res->resolved || res->reminders) && !co.dry_run)
+        fprintf(stderr, "concord check: no webhook configured: transitions are recorded "
+                        "('concord alerts') but sent nowhere\n");
+    rc = cli_check_exit(res);
+done:
+    cc_check_result_free(res);
+    cc_store_close(store);
+    cc_rules_receiver_clear(&extra);
+    cc_rules_free(rs);
+    return rc;
+}

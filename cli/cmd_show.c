@@ -1,0 +1,64 @@
+/* cmd_show.c — `concord show`: one stored event in full. */
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "cli.h"
+#include "review.h"
+#include "review_render.h"
+
+const char help_show[] =
+    "usage: concord show --db FILE --model NAME [--format text|json] ID\n\n"
+    "One event in full: every member's probability vector, the averaged vector and the\n"
+    "ensemble's class, the vote, the label, which members agree with the ensemble and\n"
+    "which were right, the margin, the entropy split and the members' disagreement.\n\n"
+    "exit: 0 ok, 2 usage, 3 file or database error, 4 unknown model or event\n";
+
+int cmd_show(int argc, char **argv)
+{
+    cli_opt opts[] = {{"db", 0, 1, NULL}, {"model", 0, 1, NULL}, {"format", 0, 1, NULL}};
+    int n_opts = 3, n_pos, help;
+    char *pos[64];
+    if (argc > 64 || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, "show"))
+        return EXIT_USAGE;
+    if (help) {
+        fputs(help_show, stdout);
+        return EXIT_OK;
+    }
+    const char *db = cli_get(opts, n_opts, "db"), *model = cli_get(opts, n_opts, "model");
+    const char *format = cli_get(opts, n_opts, "format");
+    if (!db || !model)
+        return cli_usage("show", "--db and --model are required");
+    if (n_pos != 1)
+        return cli_usage("show", "give exactly one event id");
+    int json = format && strcmp(format, "json") == 0;
+    if (format && !json && strcmp(format, "text") != 0)
+        return cli_usage("show", "--format must be text or json, not '%s'", format);
+
+    cc_error err = CC_ERROR_INIT;
+    cc_store *store = NULL;
+    cc_model *m = NULL;
+    cc_review_event *e = NULL;
+    int rc = EXIT_OK;
+    if (cc_store_open(&store, db, 0, &err) || cc_store_model_get(store, model, &m, &err) ||
+        cc_review_event_get(store, m, pos[0], &e, &err)) {
+        rc = cli_fail(&err);
+    } else {
+        char *text = json ? cc_review_event_json(e, m) : cc_review_event_text(e, m);
+        if (!text) {
+            fprintf(stderr, "concord show: out of memory\n");
+            rc = EXIT_IO;
+        } else {
+            fputs(text, stdout);
+            if (json)
+                fputc('\n', stdout);
+            if (fflush(stdout) != 0)
+                rc = EXIT_IO;
+        }
+        free(text);
+    }
+    cc_review_event_free(e);
+    cc_model_free(m);
+    cc_store_close(store);
+    return rc;
+}

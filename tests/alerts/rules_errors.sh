@@ -1,0 +1,85 @@
+#!/usr/bin/env bash
+# rules_errors.sh — `concord rules` and the rules-file errors through the
+# binary: init writes the default file (and does not overwrite it), check
+# validates it, every bad file exits 1 naming the rule and the key, and the
+# check command's other errors keep their documented exit codes.
+# Usage: rules_errors.sh CONCORD TESTDIR
+set -euo pipefail
+C=$1
+SRC=$2
+T=$(mktemp -d)
+trap 'rm -rf "$T"' EXIT
+fails=0
+fail() { echo "FAIL: $*" >&2; fails=$((fails + 1)); }
+run() { set +e; "$@" > "$T/out" 2> "$T/err"; RC=$?; set -e; }
+
+run "$C" rules init
+[ $RC -eq 0 ] && grep -q '"diversity-collapse"' "$T/out" || fail "init to stdout"
+cp "$T/out" "$T/std.json"
+run "$C" rules init -o "$T/rules.json"
+[ $RC -eq 0 ] && cmp -s "$T/rules.json" "$T/std.json" || fail "init -o differs from stdout"
+run "$C" rules init -o "$T/rules.json"
+[ $RC -eq 3 ] && grep -q 'use --force' "$T/err" || fail "init over an existing file: exit $RC $(cat "$T/err")"
+run "$C" rules init -o "$T/rules.json" --force
+[ $RC -eq 0 ] || fail "init --force: exit $RC"
+run "$C" rules check "$T/rules.json"
+[ $RC -eq 0 ] && grep -q '10 rule(s)' "$T/out" || fail "check of the default file: $(cat "$T/out" "$T/err")"
+run "$C" rules paths
+[ $RC -eq 0 ] && grep -q '^uncertainty.mutual_information *sigmas ok' "$T/out" &&
+  grep -q '^drift.per_class.min_p_bonferroni *bounds' "$T/out" || fail "rules paths"
+
+python3 "$SRC/gen_days.py" "$T/e.jsonl" --start 2026-03-01 --pattern agree --per-day 5
+"$C" ingest --db "$T/t.db" --model m "$T/e.jsonl" 2> /dev/null
+
+bad() { # NAME TEXT EXPECTED-SUBSTRING...
+  local name=$1 text=$2
+  shift 2
+  printf '%s\n' "$text" > "$T/$name.json"
+  run "$C" check --db "$T/t.db" --rules "$T/$name.json" --day 2026-03-01
+  [ $RC -eq 1 ] || fail "$name: exit $RC, expected 1"
+  for want in "$@"; do
+    grep -qF -- "$want" "$T/err" || fail "$name: message lacks '$want': $(cat "$T/err")"
+  done
+  run "$C" rules check "$T/$name.json"
+  [ $RC -eq 1 ] || fail "$name: rules check exit $RC, expected 1"
+}
+R='{"rules": ['
+bad syntax $'{"rules": [\n  {"name": "a", "metric": "events", "below": 1,}\n]}' "syntax.json:2:" "not valid JSON"
+bad typo "$R"'{"name": "spike", "metric": "uncertainty.mutual_information", "sigma_above": 4}]}' \
+  "rule 'spike': key 'sigma_above': unknown key"
+bad path "$R"'{"name": "p", "metric": "uncertainty.mutual_info", "above": 1}]}' \
+  "rule 'p': key 'metric': unknown metric path 'uncertainty.mutual_info'" "concord rules paths"
+bad two "$R"'{"name": "t", "metric": "events", "above": 1, "below": 0}]}' "rule 't': key 'below'" "exactly one"
+bad none "$R"'{"name": "n", "metric": "events"}]}' "rule 'n'" "give one of above, below"
+bad sigma_untracked "$R"'{"name": "s", "metric": "drift.class_mix.p_value", "sigmas_below": 3}]}' \
+  "rule 's': key 'sigmas_below'" "use above/below"
+bad for0 "$R"'{"name": "f", "metric": "events", "below": 1, "for": 0}]}' "rule 'f': key 'for'"
+bad severity "$R"'{"name": "v", "metric": "events", "below": 1, "severity": "urgent"}]}' \
+  "rule 'v': key 'severity'"
+bad dup "$R"'{"name": "d", "metric": "events", "below": 1}, {"name": "d", "metric": "labeled", "below": 1}]}' \
+  "rule 'd': key 'name'" "unique"
+bad noname "$R"'{"name": "ok", "metric": "events", "below": 1}, {"metric": "labeled", "below": 1}]}' \
+  "rule #2: key 'name': missing"
+bad shift "$R"'{"name": "m", "metric": "events", "below": 1, "min_shift": 1}]}' "rule 'm': key 'min_shift'"
+bad url '{"webhooks": [{"url": "hooks.example/x"}], "rules": []}' "key 'webhooks[0].url'"
+bad secret '{"delivery": {"secret_env": "hunter2!"}, "rules": []}' "key 'delivery.secret_env'" \
+  "not hold the secret itself"
+bad toplevel '{"rule": []}' "key 'rule': unknown key"
+bad norules '{"webhooks": []}' "key 'rules': missing"
+
+run "$C" check --db "$T/missing.db" --rules "$T/rules.json"
+[ $RC -eq 3 ] || fail "missing database: exit $RC, expected 3"
+run "$C" check --db "$T/t.db" --rules "$T/nope.json"
+[ $RC -eq 3 ] || fail "missing rules file: exit $RC, expected 3"
+run "$C" check --db "$T/t.db" --rules "$T/rules.json" --model nobody
+[ $RC -eq 4 ] || fail "unknown model: exit $RC, expected 4"
+run "$C" check --db "$T/t.db" --rules "$T/rules.json" --webhook ftp://x
+[ $RC -eq 2 ] || fail "bad --webhook: exit $RC, expected 2"
+run "$C" check --db "$T/t.db" --rules "$T/rules.json" --day 2026-13-01
+[ $RC -eq 2 ] || fail "bad --day: exit $RC, expected 2"
+run "$C" check --db "$T/t.db" --rules "$T/rules.json" --day 2026-03-01
+[ $RC -eq 0 ] || fail "healthy day with the default rules: exit $RC: $(cat "$T/out")"
+grep -q 'skipped: too few events (5 < 200)' "$T/out" || fail "skip reason not printed: $(cat "$T/out")"
+
+[ $fails -eq 0 ] || { echo "rules_errors: $fails failure(s)" >&2; exit 1; }
+echo "rules_errors: ok"

@@ -1,0 +1,153 @@
+/* test_rules.c — the rules file: defaults, the default file of `rules init`,
+ * comments, every kind of error naming its rule and key, and the metric
+ * path catalogue against the report's tracked figures. */
+#include <math.h>
+#include <stdlib.h>
+
+#include "paths.h"
+#include "rule.h"
+#include "tcheck.h"
+#include "tracked.h"
+
+static void expect_error(const char *text, const char *part1, const char *part2)
+{
+    cc_ruleset *rs = NULL;
+    cc_error err = CC_ERROR_INIT;
+    int rc = cc_rules_parse(&rs, text, "t.json", &err);
+    T_CHECK(rc == -CC_EINPUT && rs == NULL, "expected an input error for %s", text);
+    T_CONTAINS(err.msg, part1);
+    if (part2)
+        T_CONTAINS(err.msg, part2);
+    cc_rules_free(rs);
+}
+
+#define RULE(body) "{\"rules\": [" body "]}"
+
+int main(void)
+{
+    cc_ruleset *rs = NULL;
+    cc_error err = CC_ERROR_INIT;
+
+    /* the default file parses and holds the documented rules */
+    T_CHECK(cc_rules_parse(&rs, cc_rules_default_text(), "default", &err) == 0, "%s", err.msg);
+    const char *names[] = {"diversity-collapse", "disagreement-spike", "class-mix-drift",
+                           "score-drift",        "label-shift",        "accuracy-drop",
+                           "ensemble-gain-lost", "calibration-drift",  "stale-labels",
+                           "no-events"};
+    T_CHECK(rs && cc_rules_count(rs) == 10, "default rule count");
+    for (int i = 0; rs && i < 10 && i < cc_rules_count(rs); i++)
+        T_CHECK(strcmp(cc_rules_get(rs, i)->name, names[i]) == 0, "default rule %d", i);
+    if (rs) {
+        const cc_rule *r = cc_rules_get(rs, 0);
+        T_CHECK(r->cond == CC_COND_SIGMAS_BELOW && r->threshold == 4 &&
+                    r->min_relative_shift == 0.25 && r->fire_after == 1 && r->clear_after == 2 &&
+                    r->severity == CC_SEV_CRITICAL && r->remind_after_days == 3,
+                "diversity-collapse fields");
+        T_CHECK(cc_rules_backoff_s(rs) == 60 && cc_rules_max_backoff_s(rs) == 21600,
+                "delivery defaults");
+        cc_receiver rc;
+        T_CHECK(cc_rules_receiver_for(rs, "http://127.0.0.1:9/x", &rc, &err) == 0, "receiver");
+        T_CHECK(rc.secret_env && strcmp(rc.secret_env, "CONCORD_WEBHOOK_SECRET") == 0 &&
+                    rc.max_attempts == 10 && rc.timeout_ms == 15000 &&
+                    rc.connect_timeout_ms == 5000,
+                "receiver inherits the delivery section");
+        cc_rules_receiver_clear(&rc);
+        T_CHECK(cc_rules_receiver_for(rs, "ftp://x", &rc, &err) == -CC_EINPUT, "bad url");
+    }
+    cc_rules_free(rs);
+
+    /* defaults of a minimal rule; comments and a disabled rule */
+    const char *minimal = "// a comment\n{\"rules\": [ /* block\n comment */\n"
+                          "{\"name\": \"a\", \"metric\": \"events\", \"below\": 1},\n"
+                          "{\"name\": \"b\", \"metric\": \"events\", \"below\": 1, "
+                          "\"enabled\": false},\n"
+                          "{\"name\": \"c\", \"metric\": \"drift.class_mix.js\", \"above\": 0.1,"
+                          " \"description\": \"has // inside a string\", \"models\": [\"m1\"]}]}";
+    rs = NULL;
+    T_CHECK(cc_rules_parse(&rs, minimal, "m", &err) == 0, "%s", err.msg);
+    T_CHECK(rs && cc_rules_count(rs) == 2, "disabled rule left out");
+    if (rs && cc_rules_count(rs) == 2) {
+        const cc_rule *a = cc_rules_get(rs, 0), *c = cc_rules_get(rs, 1);
+        T_CHECK(a->min_events == 100 && a->min_labels == 0 && a->fire_after == 1 &&
+                    a->clear_after == 1 && a->remind_after_days == 0 && a->lag_days == 0 &&
+                    a->severity == CC_SEV_WARNING && strcmp(a->action, "review") == 0,
+                "rule defaults");
+        T_CHECK(strcmp(c->description, "has // inside a string") == 0, "string kept whole");
+        T_CHECK(cc_rules_applies(c, "m1") && !cc_rules_applies(c, "m2") &&
+                    cc_rules_applies(a, "anything"),
+                "models filter");
+    }
+    cc_rules_free(rs);
+
+    /* errors name the rule and the key */
+    expect_error("{\"rules\": [\n{\"name\": \"x\",}\n]}", "t.json:2:", "not valid JSON");
+    expect_error("[]", "key 'rules'", "one JSON object");
+    expect_error("{\"rule\": []}", "key 'rule'", "unknown key");
+    expect_error("{}", "key 'rules'", "missing");
+    expect_error(RULE("{\"metric\": \"events\", \"below\": 1}"), "rule #1: key 'name'",
+                 "missing");
+    expect_error(RULE("{\"name\": \"a b\", \"metric\": \"events\", \"below\": 1}"),
+                 "key 'name'", "letters, digits");
+    expect_error(RULE("{\"name\": \"s\", \"metric\": \"events\", \"sigma_above\": 3}"),
+                 "rule 's': key 'sigma_above'", "unknown key");
+    expect_error(RULE("{\"name\": \"p\", \"metric\": \"diversity.disagreement\", "
+                      "\"below\": 1}"),
+                 "rule 'p': key 'metric'", "unknown metric path 'diversity.disagreement'");
+    expect_error(RULE("{\"name\": \"two\", \"metric\": \"events\", \"below\": 1, "
+                      "\"above\": 5}"),
+                 "rule 'two': key 'below'", "exactly one");
+    expect_error(RULE("{\"name\": \"none\", \"metric\": \"events\"}"), "rule 'none'",
+                 "missing: give one of");
+    expect_error(RULE("{\"name\": \"sg\", \"metric\": \"drift.class_mix.p_value\", "
+                      "\"sigmas_below\": 3}"),
+                 "rule 'sg': key 'sigmas_below'", "no baseline spread");
+    expect_error(RULE("{\"name\": \"neg\", \"metric\": \"accuracy.ensemble\", "
+                      "\"sigmas_below\": -3}"),
+                 "rule 'neg': key 'sigmas_below'", "above 0");
+    expect_error(RULE("{\"name\": \"f\", \"metric\": \"events\", \"below\": 1, \"for\": 0}"),
+                 "rule 'f': key 'for'", "whole number from 1");
+    expect_error(RULE("{\"name\": \"f\", \"metric\": \"events\", \"below\": 1, "
+                      "\"for\": 1.5}"),
+                 "rule 'f': key 'for'", "whole number");
+    expect_error(RULE("{\"name\": \"sev\", \"metric\": \"events\", \"below\": 1, "
+                      "\"severity\": \"high\"}"),
+                 "rule 'sev': key 'severity'", "critical");
+    expect_error(RULE("{\"name\": \"d\", \"metric\": \"events\", \"below\": 1},"
+                      "{\"name\": \"d\", \"metric\": \"labeled\", \"below\": 1}"),
+                 "rule 'd': key 'name'", "unique");
+    expect_error(RULE("{\"name\": \"ms\", \"metric\": \"events\", \"below\": 1, "
+                      "\"min_shift\": 2}"),
+                 "rule 'ms': key 'min_shift'", "sigmas_above or sigmas_below");
+    expect_error(RULE("{\"name\": \"str\", \"metric\": \"events\", \"below\": \"1\"}"),
+                 "rule 'str': key 'below'", "must be a number");
+    expect_error(RULE("{\"name\": \"mo\", \"metric\": \"events\", \"below\": 1, "
+                      "\"models\": []}"),
+                 "rule 'mo': key 'models'", "non-empty");
+    expect_error("{\"webhooks\": [{\"url\": \"ftp://x\"}], \"rules\": []}",
+                 "key 'webhooks[0].url'", "not an http://");
+    expect_error("{\"webhooks\": [{\"url\": \"http://x\", \"secret_env\": \"s3cr3t!\"}], "
+                 "\"rules\": []}",
+                 "key 'webhooks[0].secret_env'", "name an environment variable");
+    expect_error("{\"delivery\": {\"timeout_seconds\": 0}, \"rules\": []}",
+                 "key 'delivery.timeout_seconds'", "0.1 to 600");
+    expect_error("{\"delivery\": {\"backoff_seconds\": 100, \"max_backoff_seconds\": 10}, "
+                 "\"rules\": []}",
+                 "key 'delivery.max_backoff_seconds'", "below backoff_seconds");
+    expect_error("{\"version\": 2, \"rules\": []}", "key 'version'", "version 1");
+
+    /* every tracked figure is a path, with sigma conditions allowed */
+    for (int t = 0; t < cc_tracked_count(); t++) {
+        cc_path_info pi;
+        T_CHECK(cc_paths_lookup(cc_tracked_path(t), &pi) == 0 && pi.kind == CC_PATH_TRACKED &&
+                    pi.tracked == t,
+                "tracked path %s", cc_tracked_path(t));
+    }
+    cc_path_info pi;
+    T_CHECK(cc_paths_lookup("drift.per_class.min_p_bonferroni", &pi) == 0 &&
+                pi.kind == CC_PATH_REPORT,
+            "report path");
+    T_CHECK(cc_paths_lookup("labels.age_days", &pi) == 0 && pi.kind == CC_PATH_DERIVED,
+            "derived path");
+    T_CHECK(cc_paths_lookup("diversity", &pi) == -1, "a section is not a number");
+    return t_summary("alerts_rules");
+}

@@ -1,0 +1,73 @@
+#!/usr/bin/env bash
+# browser_report.sh — renders the demo's report.html in headless Chromium:
+# every section and every chart must be in the rendered DOM with a non-empty
+# SVG, the page must log no console message (no script runs, nothing is
+# fetched: the page's Content-Security-Policy would log any attempt), and the
+# screenshot must not be blank. The screenshot is kept at ARTIFACTS/report.png
+# (and a half-scale copy at ARTIFACTS/report-small.png).
+# Usage: browser_report.sh CONCORD ARTIFACTS_DIR    (exit 77 = no Chromium: skipped)
+set -euo pipefail
+CONCORD=$1
+ART=$2
+HERE=$(cd "$(dirname "$0")" && pwd)
+CHROMIUM=$(command -v chromium || command -v chromium-browser || true)
+if [ -z "$CHROMIUM" ]; then
+  echo "browser_report: no chromium installed (scripts/deps.sh installs it); skipped"
+  exit 77
+fi
+T=$(mktemp -d)
+trap 'rm -rf "$T"' EXIT
+mkdir -p "$ART"
+"$CONCORD" demo --dir "$T/demo" > /dev/null
+PAGE="file://$T/demo/report.html"
+run_chromium() {
+  timeout -k 10 120 "$CHROMIUM" --headless --no-sandbox --disable-gpu --disable-quic \
+    --no-first-run --disable-background-networking --disable-component-update --disable-sync \
+    --disable-extensions --hide-scrollbars --user-data-dir="$(mktemp -d -p "$T")" "$@"
+}
+run_chromium --enable-logging=stderr --v=0 --dump-dom "$PAGE" > "$T/dom.html" 2> "$T/chromium.log"
+if grep -E ':CONSOLE|Refused to|Uncaught' "$T/chromium.log"; then
+  echo "FAIL: the page logged console messages (above)" >&2
+  exit 1
+fi
+run_chromium --window-size=1280,4000 --screenshot="$ART/report.png" "$PAGE" 2> /dev/null
+run_chromium --window-size=1280,1800 --force-device-scale-factor=0.5 \
+  --screenshot="$ART/report-small.png" "$PAGE" 2> /dev/null
+python3 - "$T/dom.html" <<'PY'
+import html.parser, sys
+dom = open(sys.argv[1], encoding="utf-8").read()
+sections = ["status", "daily", "pairs", "classmix", "reliability", "contested", "review"]
+charts = ["chart-disagreement", "chart-mutual-information", "chart-entropy", "chart-accuracy",
+          "chart-label-coverage", "chart-class-mix-psi", "chart-class-mix-daily",
+          "heat-dis-baseline", "heat-dis-range", "heat-dis-last", "heat-kappa-baseline",
+          "heat-kappa-range", "heat-kappa-last", "heat-q-baseline", "heat-q-range", "heat-q-last",
+          "chart-class-mix", "chart-reliability", "chart-contested", "heat-confusion"]
+lists = ["list-wrong", "list-helped", "list-hurt", "list-top-mi", "list-low-margin"]
+class Dom(html.parser.HTMLParser):
+    def __init__(self):
+        super().__init__(); self.ids = {}; self.stack = []; self.marks = {}; self.tags = set()
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs); self.tags.add(tag)
+        if "id" in a: self.ids[a["id"]] = tag
+        for s in self.stack:
+            if tag in ("rect", "circle", "line", "polyline", "text", "path"):
+                self.marks[s] = self.marks.get(s, 0) + 1
+        if tag == "svg": self.stack.append(a.get("id", "?"))
+    def handle_endtag(self, tag):
+        if tag == "svg" and self.stack: self.stack.pop()
+d = Dom(); d.feed(dom)
+bad = [s for s in sections if d.ids.get(s) != "section"]
+bad += [f"{c}: no svg" for c in charts if d.ids.get(c) != "svg"]
+bad += [f"{c}: {d.marks.get(c, 0)} marks" for c in charts if d.ids.get(c) == "svg" and d.marks.get(c, 0) < 8]
+bad += [f"{l}: missing" for l in lists if l not in d.ids]
+bad += [f"<{t}> in the page" for t in ("script", "img", "iframe", "link", "object") if t in d.tags]
+for b in bad: print("FAIL:", b)
+assert not bad
+print(f"browser_report: {len(sections)} sections and {len(charts)} charts rendered "
+      f"({sum(d.marks.get(c, 0) for c in charts)} SVG marks)")
+PY
+read -r w h colours sd < <(python3 "$HERE/png_stats.py" "$ART/report.png")
+echo "browser_report: screenshot ${w}x${h}, $colours distinct colours, grey-level sd $sd"
+python3 -c "import sys; w,h,c,sd=sys.argv[1:]; sys.exit(0 if int(c) > 50 and float(sd) > 10 else 1)" \
+  "$w" "$h" "$colours" "$sd" || { echo "FAIL: the screenshot looks blank" >&2; exit 1; }
+echo "browser_report: screenshot kept at $ART/report.png"
