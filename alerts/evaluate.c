@@ -11,7 +11,6 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "date.h"
 #include "paths.h"
 #include "report.h"
 #include "tracked.h"
