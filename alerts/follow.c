@@ -35,9 +35,9 @@ typedef struct follower {
     cc_store *store;
     const cc_follow_opts *o;
     cc_follow_stats *stats;
-    char dir[64];
-    char chunk_path[128];
-    FILE *chunk;
+    char *chunk_buf;        /* complete lines waiting to be ingested, in memory */
+    size_t chunk_len;
+    FILE *chunk;            /* open_memstream over chunk_buf */
     int64_t chunk_lines, chunk_first;
     tail *chunk_tail;
     char buf[READ_SIZE];
@@ -108,18 +108,19 @@ static void load_offset(follower *f, tail *t, off_t size)
     sqlite3_finalize(st);
 }
 
-typedef struct reject_map {
-    follower *f;
-    const tail *t;
-    int64_t first;
-} reject_map;
-
 static void on_reject(void *payload, const char *source, int64_t line, const char *reason)
 {
-    reject_map *m = payload;
-    (void)source;
-    if (m->f->o->on_reject)
-        m->f->o->on_reject(m->f->o->ctx, m->t->path, m->first + line - 1, reason);
+    const follower *f = payload;
+    if (f->o->on_reject)
+        f->o->on_reject(f->o->ctx, source, line, reason);
+}
+
+static int open_chunk(follower *f, cc_error *err)
+{
+    f->chunk_len = 0;
+    if (!(f->chunk = open_memstream(&f->chunk_buf, &f->chunk_len)))
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    return 0;
 }
 
 /* Ingests the lines gathered so far, with the file's new offset, in one
@@ -130,18 +131,20 @@ static int flush_chunk(follower *f, cc_error *err)
     if (!t)
         return 0;
     if (fflush(f->chunk) != 0)
-        return cc_error_set(err, CC_EIO, "%s: %s", f->chunk_path, strerror(errno));
-    reject_map map = {f, t, f->chunk_first};
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    FILE *in = fmemopen(f->chunk_buf, f->chunk_len, "r");
+    if (!in)
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
     cc_ingest_opts io = CC_INGEST_OPTS_INIT;
     io.model = f->o->model;
     io.batch = (int)f->chunk_lines + 16;
     io.on_reject = on_reject;
-    io.payload = &map;
+    io.payload = f;
     io.now = f->o->ingest_now;
     cc_ingest *ing = NULL;
     int rc = cc_ingest_create(&ing, f->store, &io, err);
     if (!rc)
-        rc = cc_ingest_file(ing, f->chunk_path, t->kind, err);
+        rc = cc_ingest_stream(ing, in, t->path, f->chunk_first, t->kind, err);
     if (!rc)
         rc = save_offset(f, t, err);
     if (!rc)
@@ -156,10 +159,15 @@ static int flush_chunk(follower *f, cc_error *err)
         f->stats->chunks++;
     }
     cc_ingest_free(ing);
+    fclose(in);
     if (rc)
         return rc;
-    if (ftruncate(fileno(f->chunk), 0) != 0 || fseek(f->chunk, 0, SEEK_SET) != 0)
-        return cc_error_set(err, CC_EIO, "%s: %s", f->chunk_path, strerror(errno));
+    fclose(f->chunk); /* start an empty chunk */
+    free(f->chunk_buf);
+    f->chunk = NULL;
+    f->chunk_buf = NULL;
+    if ((rc = open_chunk(f, err)))
+        return rc;
     f->chunk_tail = NULL;
     f->chunk_lines = 0;
     return 0;
@@ -179,7 +187,7 @@ static int take_line(follower *f, tail *t, off_t end, cc_error *err)
     }
     if ((t->plen && fwrite(t->partial, 1, t->plen, f->chunk) != t->plen) ||
         fputc('\n', f->chunk) == EOF)
-        return cc_error_set(err, CC_EIO, "%s: %s", f->chunk_path, strerror(errno));
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
     t->plen = 0;
     t->line++;
     t->consumed = end;
@@ -354,18 +362,7 @@ int cc_follow_run(cc_store *s, const cc_follow_opts *o, cc_follow_stats *stats, 
     f->store = s;
     f->o = o;
     f->stats = stats;
-    const char *tmp = getenv("TMPDIR");
-    snprintf(f->dir, sizeof f->dir, "%s/concord-follow-XXXXXX",
-             tmp && strlen(tmp) < 32 ? tmp : "/tmp");
-    if (!mkdtemp(f->dir)) {
-        rc = cc_error_set(err, CC_EIO, "%s: cannot create: %s", f->dir, strerror(errno));
-        free(tails);
-        free(f);
-        return rc;
-    }
-    snprintf(f->chunk_path, sizeof f->chunk_path, "%s/chunk.jsonl", f->dir);
-    if (!(f->chunk = fopen(f->chunk_path, "w+")))
-        rc = cc_error_set(err, CC_EIO, "%s: %s", f->chunk_path, strerror(errno));
+    rc = open_chunk(f, err);
     if (!rc)
         rc = prepare(s, err);
     if (!rc && o->rules)
@@ -423,8 +420,7 @@ int cc_follow_run(cc_store *s, const cc_follow_opts *o, cc_follow_stats *stats, 
     }
     if (f->chunk)
         fclose(f->chunk);
-    remove(f->chunk_path);
-    rmdir(f->dir);
+    free(f->chunk_buf);
     free(tails);
     free(f);
     return rc;

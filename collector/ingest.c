@@ -397,21 +397,14 @@ static int is_blank(const char *s, size_t n)
     return 1;
 }
 
-int cc_ingest_file(cc_ingest *ing, const char *path, cc_record_kind kind, cc_error *err)
+int cc_ingest_stream(cc_ingest *ing, FILE *f, const char *source, int64_t first_line,
+                     cc_record_kind kind, cc_error *err)
 {
-    int from_stdin = strcmp(path, "-") == 0;
-    const char *source = from_stdin ? "<stdin>" : path;
     const char *kind_name = kind == CC_RECORD_EVENTS ? "event" : "label";
-    FILE *f = from_stdin ? stdin : fopen(path, "rb");
-    if (!f)
-        return cc_error_set(err, CC_EIO, "%s: cannot open: %s", path, strerror(errno));
     if (!ing->in_tx) {
         int rc = begin(ing, err);
-        if (rc) {
-            if (!from_stdin)
-                fclose(f);
+        if (rc)
             return rc;
-        }
     }
     cc_line_reader *r = cc_line_reader_create(f);
     int rc = r ? 0 : cc_error_set(err, CC_ENOMEM, "out of memory");
@@ -421,6 +414,7 @@ int cc_ingest_file(cc_ingest *ing, const char *path, cc_record_kind kind, cc_err
         int got = cc_line_reader_next(r, &ln);
         if (got == 0)
             break;
+        ln.number += first_line - 1;
         if (got < 0) {
             rc = cc_error_set(err, CC_EIO, "%s: read error after line %lld: %s", source,
                               (long long)ln.number, strerror(errno));
@@ -447,6 +441,16 @@ int cc_ingest_file(cc_ingest *ing, const char *path, cc_record_kind kind, cc_err
     if (!rc && lines_here == 0)
         ing->stats.empty_files++;
     cc_line_reader_free(r);
+    return rc;
+}
+
+int cc_ingest_file(cc_ingest *ing, const char *path, cc_record_kind kind, cc_error *err)
+{
+    int from_stdin = strcmp(path, "-") == 0;
+    FILE *f = from_stdin ? stdin : fopen(path, "rb");
+    if (!f)
+        return cc_error_set(err, CC_EIO, "%s: cannot open: %s", path, strerror(errno));
+    int rc = cc_ingest_stream(ing, f, from_stdin ? "<stdin>" : path, 1, kind, err);
     if (!from_stdin)
         fclose(f);
     return rc;

@@ -8,6 +8,7 @@
 #define CC_COLLECTOR_INGEST_H
 
 #include <stdint.h>
+#include <stdio.h>
 
 #include "error.h"
 #include "store.h"
@@ -55,6 +56,12 @@ int cc_ingest_create(cc_ingest **out, cc_store *store, const cc_ingest_opts *opt
 /* Reads one file ("-" = standard input). Bad lines are rejected and
  * recorded; only I/O and database failures return an error. */
 int cc_ingest_file(cc_ingest *ing, const char *path, cc_record_kind kind, cc_error *err);
+
+/* The same for an open stream (not closed here): lines are numbered from
+ * first_line and reported, and recorded as rejects, under the name source.
+ * For readers that hand over complete lines from elsewhere (follow mode). */
+int cc_ingest_stream(cc_ingest *ing, FILE *f, const char *source, int64_t first_line,
+                     cc_record_kind kind, cc_error *err);
 
 /* Applies waiting labels, flushes summaries and commits (or, in strict mode
  * with rejected lines, rolls everything back). */

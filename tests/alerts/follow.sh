@@ -100,5 +100,17 @@ stop_follow TERM
 grep -q "$((20000 - n1)) events stored, 0 duplicates" "$T/err2" || fail "burst: the restart re-read lines: $(tail -1 "$T/err2")"
 echo "follow: stopped after $n1 of 20000 lines with the offset committed; restart completed without duplicates"
 
+# a bad line is refused under its own file name and line number
+R=$T/r.db
+{ sed -n 1,3p "$T/d1.jsonl"; echo '{"id":"bad","ts":0}'; sed -n 4,5p "$T/d1.jsonl"; } > "$T/bad.jsonl"
+timeout 60 "$C" follow --db "$R" --model m --interval 50 "$T/bad.jsonl" 2> "$T/err3" &
+FPID=$!
+wait_for 10 count_is "$R" 5 || fail "bad line: $(count "$R") events, expected 5"
+stop_follow TERM
+grep -q "$T/bad.jsonl:4: rejected: field 'probs': missing" "$T/err3" || fail "bad line message: $(cat "$T/err3")"
+[ "$(sqlite3 "$R" "SELECT source || ':' || line FROM rejects")" = "$T/bad.jsonl:4" ] ||
+  fail "rejects table: $(sqlite3 "$R" "SELECT source, line FROM rejects")"
+echo "follow: a bad line is refused with its file and line"
+
 [ $fails -eq 0 ] || { echo "follow: $fails failure(s)" >&2; exit 1; }
 echo "follow: ok"
