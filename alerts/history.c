@@ -35,6 +35,27 @@ static void bind_opt(sqlite3_stmt *st, int i, const char *v)
         sqlite3_bind_null(st, i);
 }
 
+int cc_history_evaluated(cc_store *s, const char *model)
+{
+    sqlite3_stmt *st = NULL;
+    int yes = 0;
+    if (sqlite3_prepare_v2(cc_store_db(s), "SELECT 1 FROM sqlite_master WHERE type = 'table' "
+                                           "AND name = 'rule_state'",
+                           -1, &st, NULL) == SQLITE_OK)
+        yes = sqlite3_step(st) == SQLITE_ROW;
+    sqlite3_finalize(st);
+    if (!yes)
+        return 0;
+    yes = 0;
+    if (sqlite3_prepare_v2(cc_store_db(s), "SELECT 1 FROM rule_state WHERE model = ?1 LIMIT 1",
+                           -1, &st, NULL) == SQLITE_OK) {
+        sqlite3_bind_text(st, 1, model, -1, SQLITE_STATIC);
+        yes = sqlite3_step(st) == SQLITE_ROW;
+    }
+    sqlite3_finalize(st);
+    return yes;
+}
+
 int cc_history_states(cc_store *s, const char *model, const char *state, cc_state_row_fn fn,
                       void *ctx, cc_error *err)
 {

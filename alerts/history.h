@@ -33,6 +33,10 @@ typedef struct cc_history_row {
 typedef int (*cc_state_row_fn)(void *ctx, const cc_state_row *r);
 typedef int (*cc_history_row_fn)(void *ctx, const cc_history_row *r);
 
+/* 1 when alert rules have been checked for the model (the alert tables
+ * exist and hold its rules), else 0. Writes nothing. */
+int cc_history_evaluated(cc_store *s, const char *model);
+
 /* model, state: NULL for all. */
 int cc_history_states(cc_store *s, const char *model, const char *state, cc_state_row_fn fn,
                       void *ctx, cc_error *err);

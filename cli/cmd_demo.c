@@ -112,13 +112,7 @@ int cmd_demo(int argc, char **argv)
     }
     text = cc_report_text(rep);
     js = cc_report_json(rep);
-    if ((rc = cli_report_html(store, rep, 1,
-                              "Invented data from concord demo: an imaginary apple packhouse, "
-                              "not real measurements.",
-                              &page)) != EXIT_OK)
-        goto done;
-    if (!text || !js || !page || write_file(txt, text) || write_file(json, js) ||
-        write_file(html, page)) {
+    if (!text || !js || write_file(txt, text) || write_file(json, js)) {
         fprintf(stderr, "concord demo: cannot write the reports in %s\n", dir);
         rc = EXIT_IO;
         goto done;
@@ -143,14 +137,26 @@ int cmd_demo(int argc, char **argv)
            (long long)inc.delayed_labels, (long long)s->accepted, (long long)s->labels_set,
            fog_a, fog_b, mix_a, re_a);
     fputs(text, stdout);
-    printf("\nwritten: %s, %s, %s (database), %s, %s and %s (%.1f s)\n", events, labels, db,
-           txt, json, html, (double)(t1.tv_sec - t0.tv_sec) + (double)(t1.tv_nsec - t0.tv_nsec) / 1e9);
+    printf("\nwritten: %s, %s, %s (database), %s and %s (%.1f s)\n", events, labels, db,
+           txt, json, (double)(t1.tv_sec - t0.tv_sec) + (double)(t1.tv_nsec - t0.tv_nsec) / 1e9);
     printf("try: concord report --db %s --model apple-grader --from %s --to %s --by all\n", db,
            fog_a, fog_b);
     printf("review the fog days: concord review --db %s --model apple-grader --from %s --to %s "
            "--where top-mi\n", db, fog_a, fog_b);
-    printf("open in a browser: %s\n", html);
-    rc = cli_demo_alerts(store, dir, dopts.first_day, dopts.days);
+    if ((rc = cli_demo_alerts(store, dir, dopts.first_day, dopts.days)) != EXIT_OK)
+        goto done;
+    /* the page last, so its status line shows the rules still firing */
+    if ((rc = cli_report_html(store, rep, 1,
+                              "Invented data from concord demo: an imaginary apple packhouse, "
+                              "not real measurements.",
+                              &page)) != EXIT_OK)
+        goto done;
+    if (!page || write_file(html, page)) {
+        fprintf(stderr, "concord demo: cannot write %s\n", html);
+        rc = EXIT_IO;
+        goto done;
+    }
+    printf("\nopen in a browser: %s\n", html);
 done:
     free(text);
     free(js);

@@ -6,6 +6,8 @@
 
 #include "cli.h"
 #include "report.h"
+#include "date.h"
+#include "history.h"
 #include "review.h"
 
 const char help_report[] =
@@ -26,6 +28,37 @@ const char help_report[] =
     "  -o FILE            write there instead of standard output\n\n"
     "exit: 0 ok, 2 usage, 3 file or database error, 4 unknown model\n";
 
+/* The rules firing now, one line each, for the page's status line. */
+typedef struct firing {
+    char **lines;
+    int n;
+} firing;
+
+static int add_firing(void *ctx, const cc_state_row *row)
+{
+    firing *f = ctx;
+    char since[11], line[512];
+    cc_format_date(row->since_day, since);
+    snprintf(line, sizeof line, "%s (%s): firing since %s; %s = %.4g, bound %.4g", row->rule,
+             row->severity, since, row->metric, row->last_value, row->last_bound);
+    char **grown = realloc(f->lines, (size_t)(f->n + 1) * sizeof *grown);
+    if (!grown || !(grown[f->n] = strdup(line))) {
+        if (grown)
+            f->lines = grown;
+        return 1;
+    }
+    f->lines = grown;
+    f->n++;
+    return 0;
+}
+
+static void free_firing(firing *f)
+{
+    for (int i = 0; i < f->n; i++)
+        free(f->lines[i]);
+    free(f->lines);
+}
+
 int cli_report_html(cc_store *store, const cc_report *r, int with_review, const char *note,
                     char **out)
 {
@@ -44,8 +77,20 @@ int cli_report_html(cc_store *store, const cc_report *r, int with_review, const 
             return cli_fail(&err);
         x.review = rv;
     }
+    firing f = {NULL, 0};
+    if (cc_history_evaluated(store, r->model->name)) {
+        x.alerts_known = 1;
+        if (cc_history_states(store, r->model->name, "firing", add_firing, &f, &err)) {
+            cc_review_free(rv);
+            free_firing(&f);
+            return cli_fail(&err);
+        }
+        x.alerts = (const char *const *)f.lines;
+        x.n_alerts = f.n;
+    }
     *out = cc_report_html(r, &x);
     cc_review_free(rv);
+    free_firing(&f);
     return EXIT_OK;
 }
 
