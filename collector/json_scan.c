@@ -136,10 +136,26 @@ static const double pow10_exact[] = {1e0,  1e1,  1e2,  1e3,  1e4,  1e5,  1e6,  1
 
 static int is_digit(char c) { return c >= '0' && c <= '9'; }
 
+/* Slow path: the token [begin, end) through strtod (correctly rounded). */
+static int number_strtod(const char *begin, const char *end, double *out)
+{
+    char buf[128];
+    size_t n = (size_t)(end - begin);
+    char *text = n < sizeof buf ? buf : malloc(n + 1);
+    if (!text)
+        return -1;
+    memcpy(text, begin, n);
+    text[n] = '\0';
+    *out = strtod(text, NULL);
+    if (text != buf)
+        free(text);
+    return 0;
+}
+
 int cc_js_number(cc_js *s, double *out)
 {
     const char *p = s->p, *end = s->end, *begin = p;
-    int neg = 0, digits = 0, exp10 = 0;
+    int neg = 0, exp10 = 0, digits;
     uint64_t mant = 0;
     if (p < end && *p == '-') {
         neg = 1;
@@ -147,42 +163,25 @@ int cc_js_number(cc_js *s, double *out)
     }
     if (p >= end || !is_digit(*p))
         return -1;
-    if (*p == '0') {
+    const char *int_start = p;
+    if (*p == '0')
         p++;
-    } else {
-        while (p < end && is_digit(*p)) {
-            if (digits < 19) {
-                mant = mant * 10 + (uint64_t)(*p - '0');
-                if (mant)
-                    digits++;
-            } else {
-                exp10++;
-                digits++;
-            }
-            p++;
-        }
-    }
+    else
+        while (p < end && is_digit(*p))
+            mant = mant * 10 + (uint64_t)(*p++ - '0');
+    digits = (int)(p - int_start);
     if (p < end && *p == '.') {
-        p++;
-        if (p >= end || !is_digit(*p))
+        const char *frac = ++p;
+        while (p < end && is_digit(*p))
+            mant = mant * 10 + (uint64_t)(*p++ - '0');
+        if (p == frac)
             return -1;
-        while (p < end && is_digit(*p)) {
-            if (digits < 19) {
-                mant = mant * 10 + (uint64_t)(*p - '0');
-                exp10--;
-                if (mant)
-                    digits++;
-            } else {
-                digits++;
-            }
-            p++;
-        }
+        exp10 = -(int)(p - frac);
+        digits += (int)(p - frac);
     }
-    int has_exp = 0, eval = 0;
     if (p < end && (*p == 'e' || *p == 'E')) {
-        has_exp = 1;
         p++;
-        int eneg = 0;
+        int eneg = 0, eval = 0;
         if (p < end && (*p == '+' || *p == '-'))
             eneg = *p++ == '-';
         if (p >= end || !is_digit(*p))
@@ -195,31 +194,17 @@ int cc_js_number(cc_js *s, double *out)
         exp10 += eneg ? -eval : eval;
     }
     s->p = p;
-    /* Clinger's fast path: mant and 10^|e| both exact in a double, so one
-     * correctly rounded operation gives the correctly rounded result. */
+    /* Clinger's fast path: with at most 19 digits mant is exact (leading
+     * zeros included, so no overflow); when mant and 10^|e| are both exact
+     * in a double, one correctly rounded operation gives the correctly
+     * rounded result. Anything else goes through strtod. */
     if (digits <= 19 && mant <= (UINT64_C(1) << 53) && exp10 >= -22 && exp10 <= 22) {
         double v = (double)mant;
         v = exp10 < 0 ? v / pow10_exact[-exp10] : v * pow10_exact[exp10];
         *out = neg ? -v : v;
         return 0;
     }
-    (void)has_exp;
-    char buf[128];
-    size_t n = (size_t)(p - begin);
-    if (n >= sizeof buf) {
-        char *copy = malloc(n + 1);
-        if (!copy)
-            return -1;
-        memcpy(copy, begin, n);
-        copy[n] = '\0';
-        *out = strtod(copy, NULL);
-        free(copy);
-        return 0;
-    }
-    memcpy(buf, begin, n);
-    buf[n] = '\0';
-    *out = strtod(buf, NULL);
-    return 0;
+    return number_strtod(begin, p, out);
 }
 
 /* Number syntax only (RFC 8259 §6), for values that are skipped. */

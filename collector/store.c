@@ -106,7 +106,8 @@ int cc_store_open(cc_store **out, const char *path, int create, cc_error *err)
         free(s);
         return cc_error_set(err, CC_ENOMEM, "out of memory");
     }
-    int flags = SQLITE_OPEN_READWRITE | (create ? SQLITE_OPEN_CREATE : 0);
+    /* one connection per thread: SQLite's own mutexes are not needed */
+    int flags = SQLITE_OPEN_READWRITE | SQLITE_OPEN_NOMUTEX | (create ? SQLITE_OPEN_CREATE : 0);
     if (sqlite3_open_v2(path, &s->db, flags, NULL) != SQLITE_OK) {
         rc = cc_error_set(err, CC_EIO, "%s: cannot open database: %s", path,
                           s->db ? sqlite3_errmsg(s->db) : "out of memory");

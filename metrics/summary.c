@@ -159,7 +159,7 @@ int cc_hist_bin_prob(double p)
         return 0;
     if (p >= 1.0)
         return CC_HIST_BINS - 1;
-    l = log(p) - log1p(-p);
+    l = log(p / (1.0 - p));
     int b = (int)floor((l - LOGIT_LO) / (LOGIT_HI - LOGIT_LO) * CC_HIST_BINS);
     return b < 0 ? 0 : b >= CC_HIST_BINS ? CC_HIST_BINS - 1 : b;
 }
