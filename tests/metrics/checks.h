@@ -132,4 +132,19 @@ static inline const char *ref_function(const cJSON *c, const char *key)
     return cJSON_IsString(f) ? f->valuestring : "reference file";
 }
 
+/* Runs fn on the reference file named by argv[1], when one is given; a file
+ * that cannot be read counts as a failure. */
+static inline void reference_run(check_log *log, int argc, char **argv,
+                                 void (*fn)(check_log *, const cJSON *))
+{
+    if (argc < 2)
+        return;
+    cJSON *root = load_reference(argv[1]);
+    if (root)
+        fn(log, root);
+    else
+        log->failed++;
+    cJSON_Delete(root);
+}
+
 #endif

@@ -196,13 +196,6 @@ int main(int argc, char **argv)
 {
     check_log log = {"test_agreement", 0, 0};
     published_checks(&log);
-    if (argc > 1) {
-        cJSON *root = load_reference(argv[1]);
-        if (root)
-            reference_checks(&log, root);
-        else
-            log.failed++;
-        cJSON_Delete(root);
-    }
+    reference_run(&log, argc, argv, reference_checks);
     return check_finish(&log);
 }

@@ -249,13 +249,6 @@ int main(int argc, char **argv)
     check_log log = {"test_calibration", 0, 0};
     worked_example(&log);
     edge_cases(&log);
-    if (argc > 1) {
-        cJSON *root = load_reference(argv[1]);
-        if (root)
-            reference_checks(&log, root);
-        else
-            log.failed++;
-        cJSON_Delete(root);
-    }
+    reference_run(&log, argc, argv, reference_checks);
     return check_finish(&log);
 }

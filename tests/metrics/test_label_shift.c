@@ -596,13 +596,6 @@ int main(int argc, char **argv)
     em_methods_checks(&log);
     bbse_edge_checks(&log);
     em_edge_checks(&log);
-    if (argc > 1) {
-        cJSON *root = load_reference(argv[1]);
-        if (root)
-            reference_checks(&log, root);
-        else
-            log.failed++;
-        cJSON_Delete(root);
-    }
+    reference_run(&log, argc, argv, reference_checks);
     return check_finish(&log);
 }
