@@ -6,6 +6,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "event_view.h"
 #include "uncertainty.h"
 
 struct cc_summary {
@@ -193,24 +194,6 @@ double cc_hist_edge_nats(int b)
 
 static int64_t fx(double x) { return llround(x * CC_FIXED_SCALE); }
 
-/* Plurality vote over member argmaxes, ties to the lowest class. *tie is set
- * when another class has the same top count. votes: k ints, scratch. */
-static int plurality(const int *member_top, int m, int k, int *votes, int *tie)
-{
-    memset(votes, 0, (size_t)k * sizeof *votes);
-    for (int i = 0; i < m; i++)
-        votes[member_top[i]]++;
-    int best = 0;
-    for (int c = 1; c < k; c++)
-        if (votes[c] > votes[best])
-            best = c;
-    *tie = 0;
-    for (int c = best + 1; c < k; c++)
-        if (votes[c] == votes[best])
-            *tie = 1;
-    return best;
-}
-
 /* Calibration bin of a confidence in (0, 1]: B_b = (b/C, (b+1)/C], so a
  * value on an edge goes to the lower bin (Guo et al. 2017). */
 static int calib_bin(double conf)
@@ -219,68 +202,37 @@ static int calib_bin(double conf)
     return b < 0 ? 0 : b >= CC_CALIB_BINS ? CC_CALIB_BINS - 1 : b;
 }
 
-typedef struct event_view {
-    int top[CC_MAX_MEMBERS];
-    double avg[CC_MAX_CLASSES];
-    int ens;
-} event_view;
-
-static void view_event(event_view *e, const float *probs, int m, int k)
-{
-    for (int c = 0; c < k; c++)
-        e->avg[c] = 0.0;
-    for (int i = 0; i < m; i++) {
-        const float *row = probs + (size_t)i * (size_t)k;
-        e->top[i] = cc_argmax_f(row, k);
-        for (int c = 0; c < k; c++)
-            e->avg[c] += row[c];
-    }
-    for (int c = 0; c < k; c++)
-        e->avg[c] /= m;
-    e->ens = cc_argmax_d(e->avg, k);
-}
-
 void cc_summary_add_unlabeled(cc_summary *s, const float *probs, int sign)
 {
     const cc_layout *L = &s->lay;
     int64_t *v = s->v;
     const int m = L->m, k = L->k;
-    event_view e;
-    int votes[CC_MAX_CLASSES], tie;
+    cc_event_view e;
 
-    view_event(&e, probs, m, k);
-    plurality(e.top, m, k, votes, &tie);
-
+    cc_event_view_compute(&e, probs, m, k, -1);
     v[L->n_events] += sign;
-    v[L->vote_ties] += sign * tie;
+    v[L->vote_ties] += sign * e.vote_tie;
     v[L->pred_counts + e.ens] += sign;
     for (int i = 0; i < m; i++)
-        v[L->member_pred + (size_t)i * k + e.top[i]] += sign;
+        v[L->member_pred + (size_t)i * k + e.member_class[i]] += sign;
     int64_t sumsq = 0;
     for (int c = 0; c < k; c++)
-        sumsq += (int64_t)votes[c] * votes[c];
+        sumsq += (int64_t)e.votes[c] * e.votes[c];
     v[L->fleiss_sumsq] += sign * sumsq;
 
-    int differ = 0;
     for (int i = 0; i < m; i++)
-        for (int j = i + 1; j < m; j++) {
-            size_t p = (size_t)cc_pair_index(m, i, j);
-            v[L->pair_agree + p] += sign * (e.top[i] == e.top[j]);
-            differ |= e.top[i] != e.top[j];
-        }
+        for (int j = i + 1; j < m; j++)
+            v[L->pair_agree + (size_t)cc_pair_index(m, i, j)] +=
+                sign * (e.member_class[i] == e.member_class[j]);
 
     cc_uncertainty u;
     cc_uncertainty_split(&u, probs, m, k, NULL);
     v[L->tu_fx] += sign * fx(u.total_nats);
     v[L->au_fx] += sign * fx(u.expected_nats);
 
-    if (differ) {
-        /* top two of the averaged output, second-best ties to lowest index */
-        int a = e.ens, b = -1;
-        for (int c = 0; c < k; c++)
-            if (c != a && (b < 0 || e.avg[c] > e.avg[b]))
-                b = c;
-        int lo = a < b ? a : b, hi = a < b ? b : a;
+    if (!e.unanimous) {
+        /* the averaged output's top two, as an unordered pair */
+        int lo = e.ens < e.second ? e.ens : e.second, hi = e.ens < e.second ? e.second : e.ens;
         v[L->contested + (size_t)lo * k + hi] += sign;
     }
 
@@ -338,34 +290,29 @@ void cc_summary_add_labeled(cc_summary *s, const float *probs, int label, int si
     const cc_layout *L = &s->lay;
     int64_t *v = s->v;
     const int m = L->m, k = L->k;
-    event_view e;
-    int votes[CC_MAX_CLASSES], tie, right[CC_MAX_MEMBERS], nright = 0;
+    cc_event_view e;
 
-    if (label < 0 || label >= k)
+    if (cc_event_view_compute(&e, probs, m, k, label) != 0 || label < 0)
         return;
-    view_event(&e, probs, m, k);
-    int vote = plurality(e.top, m, k, votes, &tie);
-    int ens_right = e.ens == label;
-
     v[L->n_labeled] += sign;
     v[L->label_counts + label] += sign;
     v[L->confusion + (size_t)e.ens * k + label] += sign;
-    v[L->ens_correct] += sign * ens_right;
-    v[L->vote_correct] += sign * (vote == label);
-    v[L->vote_ties_labeled] += sign * tie;
+    v[L->ens_correct] += sign * e.ens_right;
+    v[L->vote_correct] += sign * (e.vote == label);
+    v[L->vote_ties_labeled] += sign * e.vote_tie;
     for (int i = 0; i < m; i++) {
-        right[i] = e.top[i] == label;
-        nright += right[i];
-        v[L->member_correct + i] += sign * right[i];
-        v[L->ens_only + i] += sign * (ens_right && !right[i]);
-        v[L->member_only + i] += sign * (!ens_right && right[i]);
+        int right = e.member_right[i];
+        v[L->member_correct + i] += sign * right;
+        v[L->ens_only + i] += sign * (e.ens_right && !right);
+        v[L->member_only + i] += sign * (!e.ens_right && right);
     }
-    v[L->oracle_correct] += sign * (nright > 0);
-    v[L->n_right_hist + nright] += sign;
+    v[L->oracle_correct] += sign * (e.n_right > 0);
+    v[L->n_right_hist + e.n_right] += sign;
     for (int i = 0; i < m; i++)
         for (int j = i + 1; j < m; j++) {
             size_t p = (size_t)cc_pair_index(m, i, j);
-            int cell = right[i] ? (right[j] ? 0 : 1) : (right[j] ? 2 : 3);
+            int ri = e.member_right[i], rj = e.member_right[j];
+            int cell = ri ? (rj ? 0 : 1) : (rj ? 2 : 3);
             v[L->pair_oracle + p * 4 + cell] += sign;
         }
 
