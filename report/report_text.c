@@ -18,18 +18,25 @@ static void fnum(FILE *f, int width, int prec, double x)
         fprintf(f, " %*s", width, "-");
 }
 
-static void window_label(FILE *f, const cc_report_window *w)
+static void window_name(const cc_report_window *w, char out[24])
 {
-    char a[11], b[11], both[24];
+    char a[11], b[11];
     cc_format_date(w->from, a);
     cc_format_date(w->to, b);
     if (w->from == w->to)
-        snprintf(both, sizeof both, "%s", a);
+        snprintf(out, 24, "%s", a);
     else if (memcmp(a, b, 4) == 0)
-        snprintf(both, sizeof both, "%s..%s", a, b + 5);
+        snprintf(out, 24, "%s..%s", a, b + 5);
     else
-        snprintf(both, sizeof both, "%s..%s", a, b);
-    fprintf(f, "%-23s", both);
+        snprintf(out, 24, "%s..%s", a, b);
+}
+
+/* The window's dates, padded to the first column of the tables. */
+static void window_label(FILE *f, const cc_report_window *w)
+{
+    char name[24];
+    window_name(w, name);
+    fprintf(f, "%-23s", name);
 }
 
 static void headline(FILE *f, const cc_report *r)
@@ -220,9 +227,9 @@ static void detail(FILE *f, const cc_report *r, const cc_report_window *w)
 {
     const cc_model *m = r->model;
     const cc_window_metrics *x = &w->metrics;
-    fprintf(f, "\ndetail of ");
-    window_label(f, w);
-    fputc('\n', f);
+    char name[24];
+    window_name(w, name);
+    fprintf(f, "\ndetail of %s\n", name);
     if (m->m > 1) {
         matrix(f, "disagreement of predicted classes", &x->disagreement, m);
         matrix(f, "Cohen's kappa", &x->kappa, m);
