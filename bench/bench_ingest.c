@@ -488,26 +488,6 @@ static void usage(FILE *f)
           f);
 }
 
-static int parse_i64(const char *s, int64_t *out)
-{
-    char *end;
-    errno = 0;
-    long long v = strtoll(s, &end, 10);
-    if (errno || end == s || *end)
-        return -1;
-    *out = v;
-    return 0;
-}
-
-static int parse_int(const char *s, int *out)
-{
-    int64_t v;
-    if (parse_i64(s, &v) || v < -1000000000 || v > 1000000000)
-        return -1;
-    *out = (int)v;
-    return 0;
-}
-
 static int parse_args(int argc, char **argv, bench *b)
 {
     for (int i = 1; i < argc; i++) {
@@ -540,15 +520,15 @@ static int parse_args(int argc, char **argv, bench *b)
         int64_t seed;
         char *end;
         if (!strcmp(a, "--n"))
-            bad = parse_i64(v, &b->synth.n) || b->synth.n < 1;
+            bad = cc_synth_parse_i64(v, &b->synth.n) || b->synth.n < 1;
         else if (!strcmp(a, "--members"))
-            bad = parse_int(v, &b->synth.members);
+            bad = cc_synth_parse_int(v, &b->synth.members);
         else if (!strcmp(a, "--classes"))
-            bad = parse_int(v, &b->synth.classes);
+            bad = cc_synth_parse_int(v, &b->synth.classes);
         else if (!strcmp(a, "--days"))
-            bad = parse_int(v, &b->synth.days);
+            bad = cc_synth_parse_int(v, &b->synth.days);
         else if (!strcmp(a, "--seed")) {
-            bad = parse_i64(v, &seed) || seed < 0;
+            bad = cc_synth_parse_i64(v, &seed) || seed < 0;
             b->synth.seed = (uint64_t)seed;
         } else if (!strcmp(a, "--label-share")) {
             errno = 0;
@@ -557,9 +537,9 @@ static int parse_args(int argc, char **argv, bench *b)
         } else if (!strcmp(a, "--input"))
             b->input = v;
         else if (!strcmp(a, "--reps"))
-            bad = parse_int(v, &b->reps) || b->reps < 1 || b->reps > MAX_REPS;
+            bad = cc_synth_parse_int(v, &b->reps) || b->reps < 1 || b->reps > MAX_REPS;
         else if (!strcmp(a, "--batch"))
-            bad = parse_int(v, &b->batch) || b->batch < 1;
+            bad = cc_synth_parse_int(v, &b->batch) || b->batch < 1;
         else
             b->parent = v;
         if (bad) {

@@ -33,26 +33,6 @@ static void usage(FILE *f)
           f);
 }
 
-static int parse_i64(const char *s, int64_t *out)
-{
-    char *end;
-    errno = 0;
-    long long v = strtoll(s, &end, 10);
-    if (errno || end == s || *end)
-        return -1;
-    *out = v;
-    return 0;
-}
-
-static int parse_int(const char *s, int *out)
-{
-    int64_t v;
-    if (parse_i64(s, &v) || v < -1000000000 || v > 1000000000)
-        return -1;
-    *out = (int)v;
-    return 0;
-}
-
 static int parse_u64(const char *s, uint64_t *out)
 {
     char *end;
@@ -60,17 +40,6 @@ static int parse_u64(const char *s, uint64_t *out)
     if (*s == '-')
         return -1;
     unsigned long long v = strtoull(s, &end, 10);
-    if (errno || end == s || *end)
-        return -1;
-    *out = v;
-    return 0;
-}
-
-static int parse_double(const char *s, double *out)
-{
-    char *end;
-    errno = 0;
-    double v = strtod(s, &end);
     if (errno || end == s || *end)
         return -1;
     *out = v;
@@ -117,19 +86,19 @@ int main(int argc, char **argv)
             i++;
         int bad = 0;
         if (!strcmp(name, "--n"))
-            bad = parse_i64(val, &o.n);
+            bad = cc_synth_parse_i64(val, &o.n);
         else if (!strcmp(name, "--members"))
-            bad = parse_int(val, &o.members);
+            bad = cc_synth_parse_int(val, &o.members);
         else if (!strcmp(name, "--classes"))
-            bad = parse_int(val, &o.classes);
+            bad = cc_synth_parse_int(val, &o.classes);
         else if (!strcmp(name, "--days"))
-            bad = parse_int(val, &o.days);
+            bad = cc_synth_parse_int(val, &o.days);
         else if (!strcmp(name, "--start"))
             bad = cc_parse_date(val, &o.start_day);
         else if (!strcmp(name, "--seed"))
             bad = parse_u64(val, &o.seed);
         else if (!strcmp(name, "--label-share"))
-            bad = parse_double(val, &o.label_share);
+            bad = cc_synth_parse_double(val, &o.label_share);
         else
             output = val;
         if (bad) {

@@ -253,3 +253,34 @@ int cc_synth_write(FILE *out, const cc_synth_opts *o)
     free(bias);
     return rc;
 }
+
+int cc_synth_parse_i64(const char *s, int64_t *out)
+{
+    char *end;
+    errno = 0;
+    long long v = strtoll(s, &end, 10);
+    if (errno || end == s || *end)
+        return -1;
+    *out = v;
+    return 0;
+}
+
+int cc_synth_parse_int(const char *s, int *out)
+{
+    int64_t v;
+    if (cc_synth_parse_i64(s, &v) || v < -1000000000 || v > 1000000000)
+        return -1;
+    *out = (int)v;
+    return 0;
+}
+
+int cc_synth_parse_double(const char *s, double *out)
+{
+    char *end;
+    errno = 0;
+    double v = strtod(s, &end);
+    if (errno || end == s || *end)
+        return -1;
+    *out = v;
+    return 0;
+}

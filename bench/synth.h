@@ -31,4 +31,10 @@ const char *cc_synth_check(const cc_synth_opts *o);
  * memory (errno set). */
 int cc_synth_write(FILE *out, const cc_synth_opts *o);
 
+/* Whole-string number options of the two bench programs: 0, or -1 when s is
+ * not a number (ints limited to +-1e9). */
+int cc_synth_parse_i64(const char *s, int64_t *out);
+int cc_synth_parse_int(const char *s, int *out);
+int cc_synth_parse_double(const char *s, double *out);
+
 #endif
