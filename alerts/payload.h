@@ -1,5 +1,5 @@
 /* payload.h — the JSON body of a notification (schema "concord.alert/1",
- * docs/alerts.md) and its dedupe key, which names the transition: the same
+ * the README, section Alerts) and its dedupe key, which names the transition: the same
  * model, rule, kind and checked day always give the same key. */
 #ifndef CC_ALERTS_PAYLOAD_H
 #define CC_ALERTS_PAYLOAD_H

@@ -333,7 +333,7 @@ static int parse_condition(const where *w, const cJSON *obj, cc_rule *r,
                                          "(at most 100)");
         if (sigma && pi->kind != CC_PATH_TRACKED)
             return fail(w, conds[i].key, "'%s' has no baseline spread; sigma conditions "
-                                         "need a tracked figure (see docs/alerts.md), use "
+                                         "need a tracked figure (see the README, section Alerts), use "
                                          "above/below here", r->metric);
     }
     if (!found)

@@ -1,5 +1,5 @@
 /* rule.h — the rules file: alert rules, webhook receivers and the delivery
- * policy, parsed and validated with cJSON (docs/alerts.md describes the
+ * policy, parsed and validated with cJSON (the README, section Alerts describes the
  * format). Every error names the rule (or the top-level key) and the key.
  * Also holds the commented default set that `concord rules init` writes. */
 #ifndef CC_ALERTS_RULE_H
@@ -46,7 +46,7 @@ typedef struct cc_receiver {
     int max_attempts;
 } cc_receiver;
 
-/* Defaults of the "delivery" section (docs/alerts.md, "Delivery"). */
+/* Defaults of the "delivery" section (the README, section Alerts, "Delivery"). */
 #define CC_DELIVERY_MAX_ATTEMPTS 10
 #define CC_DELIVERY_BACKOFF_S 60
 #define CC_DELIVERY_MAX_BACKOFF_S 21600

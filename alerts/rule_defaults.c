@@ -6,7 +6,7 @@
 
 static const char default_text[] =
 "// concord alert rules (version 1). JSON with // and /* */ comments.\n"
-"// Reference: docs/alerts.md. Check a file with 'concord rules check FILE'.\n"
+"// Reference: the README, section Alerts. Check a file with 'concord rules check FILE'.\n"
 "//\n"
 "// Conditions: \"above\"/\"below\" a fixed bound, or \"sigmas_above\"/\"sigmas_below\"\n"
 "// k standard deviations of the baseline days' spread (tracked figures only).\n"

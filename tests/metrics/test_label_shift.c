@@ -13,7 +13,7 @@
 /* Bounds on the synthetic cases (n = 5000 source and 5000 target events,
  * K = 3..6, source accuracy 0.77..0.97), from the draws of
  * `gen_label_shift_reference.py --measure` (480 random shifts, 200 of the
- * "large" shift; numbers in docs/glossary_label_shift.md). The first four
+ * "large" shift; numbers in README, "Label shift"). The first four
  * lie above the largest value seen for the kinds of shift they are applied
  * to (BBSE: random shifts only, as in the file), so a new seed should not
  * break them. The last is NOT a general bound: EM on the window's own cell
