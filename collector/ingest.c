@@ -269,7 +269,7 @@ static int reject(cc_ingest *ing, const char *kind, const char *source, const cc
 
 /* Applies a label to a stored event, or parks it until the event arrives. */
 static int apply_label(cc_ingest *ing, model_state *ms, const char *id, int id_len, int label,
-                       cc_error *err)
+                       int64_t arrived, cc_error *err)
 {
     int found;
     cc_stored_event ev;
@@ -278,7 +278,8 @@ static int apply_label(cc_ingest *ing, model_state *ms, const char *id, int id_l
         return rc;
     if (!found) {
         ing->stats.labels_pending++;
-        return cc_store_pending_label_add(ing->store, ms->model, id, id_len, label, err);
+        return cc_store_pending_label_add(ing->store, ms->model, id, id_len, label, arrived,
+                                          err);
     }
     if (ev.label == label) {
         ing->stats.labels_unchanged++;
@@ -294,10 +295,10 @@ static int apply_label(cc_ingest *ing, model_state *ms, const char *id, int id_l
     if (ev.label_at >= 0)
         cc_summary_add_label_delay(d, ev.label_at - ev.ts, -1);
     cc_summary_add_labeled(d, ms->probs, label, 1);
-    cc_summary_add_label_delay(d, ing->now - ev.ts, 1);
+    cc_summary_add_label_delay(d, arrived - ev.ts, 1);
     mark_dirty(ms);
     ing->stats.labels_set++;
-    return cc_store_event_set_label(ing->store, ms->model, id, id_len, label, ing->now, err);
+    return cc_store_event_set_label(ing->store, ms->model, id, id_len, label, arrived, err);
 }
 
 static int resolve_label(const cc_model *model, int label, const char *name, int *out,
@@ -386,7 +387,7 @@ static int take_label(cc_ingest *ing, const char *source, const cc_line *ln, cc_
         return fatal ? -1 : reject(ing, "label", source, ln, why, err);
     if (resolve_label(ms->model, lab.label, lab.label_name, &label, why, sizeof why))
         return reject(ing, "label", source, ln, why, err);
-    return apply_label(ing, ms, lab.id, lab.id_len, label, err);
+    return apply_label(ing, ms, lab.id, lab.id_len, label, ing->now, err);
 }
 
 static int is_blank(const char *s, size_t n)
@@ -456,10 +457,11 @@ int cc_ingest_file(cc_ingest *ing, const char *path, cc_record_kind kind, cc_err
     return rc;
 }
 
-static int drain_one(void *payload, const char *id, int id_len, int label)
+/* A waiting label keeps the time it arrived, not the time its event did. */
+static int drain_one(void *payload, const char *id, int id_len, int label, int64_t received_at)
 {
     void **ctx = payload;
-    return apply_label(ctx[0], ctx[1], id, id_len, label, ctx[2]) ? 1 : 0;
+    return apply_label(ctx[0], ctx[1], id, id_len, label, received_at, ctx[2]) ? 1 : 0;
 }
 
 int cc_ingest_finish(cc_ingest *ing, cc_error *err)

@@ -581,13 +581,13 @@ int cc_store_reject_add(cc_store *s, const char *kind, const char *source, int64
 }
 
 int cc_store_pending_label_add(cc_store *s, const cc_model *m, const char *id, int id_len,
-                               int label, cc_error *err)
+                               int label, int64_t received_at, cc_error *err)
 {
     sqlite3_stmt *st = stmt(s, ST_PENDING_ADD);
     sqlite3_bind_int64(st, 1, m->id);
     sqlite3_bind_text(st, 2, id, id_len, SQLITE_STATIC);
     sqlite3_bind_int(st, 3, label);
-    sqlite3_bind_int64(st, 4, (sqlite3_int64)time(NULL));
+    sqlite3_bind_int64(st, 4, received_at);
     if (sqlite3_step(st) != SQLITE_DONE)
         return db_error(s, err, "storing pending label");
     return 0;
@@ -599,7 +599,7 @@ int cc_store_pending_label_drain(cc_store *s, const cc_model *m, cc_pending_fn f
     sqlite3_stmt *st;
     int rc = 0;
     if (sqlite3_prepare_v2(s->db,
-                           "SELECT p.id, p.label FROM pending_labels p JOIN events e "
+                           "SELECT p.id, p.label, p.received_at FROM pending_labels p JOIN events e "
                            "ON e.model_id = p.model_id AND e.id = p.id WHERE p.model_id = ?1",
                            -1, &st, NULL) != SQLITE_OK)
         return db_error(s, err, "reading pending labels");
@@ -608,7 +608,7 @@ int cc_store_pending_label_drain(cc_store *s, const cc_model *m, cc_pending_fn f
     while (!rc && sqlite3_step(st) == SQLITE_ROW) {
         found = 1;
         rc = fn(payload, (const char *)sqlite3_column_text(st, 0), sqlite3_column_bytes(st, 0),
-                sqlite3_column_int(st, 1));
+                sqlite3_column_int(st, 1), sqlite3_column_int64(st, 2));
     }
     sqlite3_finalize(st);
     if (rc || !found)

@@ -95,11 +95,12 @@ int cc_store_reject_add(cc_store *s, const char *kind, const char *source, int64
 
 /* A label for an id not (yet) ingested. Replaces an earlier pending one. */
 int cc_store_pending_label_add(cc_store *s, const cc_model *m, const char *id, int id_len,
-                               int label, cc_error *err);
+                               int label, int64_t received_at, cc_error *err);
 
 /* Calls fn for each pending label of m whose event now exists, then removes
  * those pending rows. fn returns 0 to go on. */
-typedef int (*cc_pending_fn)(void *payload, const char *id, int id_len, int label);
+typedef int (*cc_pending_fn)(void *payload, const char *id, int id_len, int label,
+                             int64_t received_at);
 int cc_store_pending_label_drain(cc_store *s, const cc_model *m, cc_pending_fn fn,
                                  void *payload, cc_error *err);
 int64_t cc_store_pending_label_count(cc_store *s, const cc_model *m);

@@ -99,14 +99,15 @@ db=$T/lab.db
 good a > "$T/a.jsonl"
 "$CONCORD" ingest --db "$db" --model m --classes ripe,firm,soft "$T/a.jsonl" 2> /dev/null
 printf '{"id":"a","label":"firm"}\n{"id":"later","label":2}\n{"id":"a","label":"pear"}\n{"label":1}\n' > "$T/l.jsonl"
-set +e; "$CONCORD" label --db "$db" --model m "$T/l.jsonl" 2> "$T/err"; rc=$?; set -e
+set +e; CONCORD_NOW=1800000000 "$CONCORD" label --db "$db" --model m "$T/l.jsonl" 2> "$T/err"; rc=$?; set -e
 [ $rc -eq 1 ] || fail "labels: exit $rc"
 grep -q "l.jsonl:3: rejected: field 'label': unknown class name 'pear'" "$T/err" || fail "labels: $(cat "$T/err")"
 grep -q "l.jsonl:4: rejected: field 'id': missing" "$T/err" || fail "labels: $(cat "$T/err")"
 grep -q '1 labels applied .* 1 waiting for their event' "$T/err" || fail "labels tally: $(cat "$T/err")"
 good later > "$T/later.jsonl"
-"$CONCORD" ingest --db "$db" --model m "$T/later.jsonl" 2> "$T/err"
+CONCORD_NOW=1800009999 "$CONCORD" ingest --db "$db" --model m "$T/later.jsonl" 2> "$T/err"
 [ "$(sqlite3 "$db" "SELECT label FROM events WHERE id='later'")" = 2 ] || fail "pending label not applied"
+[ "$(sqlite3 "$db" "SELECT label_at FROM events WHERE id='later'")" = 1800000000 ] || fail "a waiting label must keep the time it arrived"
 [ "$(sqlite3 "$db" "SELECT count(*) FROM pending_labels")" = 0 ] || fail "pending label not cleared"
 "$CONCORD" verify --db "$db" --model m > /dev/null || fail "labels: summaries differ from rows"
 # --classes that contradict the stored model are refused
