@@ -107,18 +107,8 @@ int cc_eval_report(cc_evaluator *ev, int64_t day, const cc_report **out, cc_erro
 /* A number at a dotted path of the window's JSON; NAN for null or absent. */
 static double json_value(cached *c, const char *path)
 {
-    if (!c->window_json) {
-        char *text = cc_report_json(c->report);
-        cJSON *root = text ? cJSON_Parse(text) : NULL;
-        free(text);
-        if (!root)
-            return NAN;
-        cJSON *ws = cJSON_GetObjectItemCaseSensitive(root, "windows");
-        c->window_json = cJSON_DetachItemFromArray(ws, 0);
-        cJSON_Delete(root);
-        if (!c->window_json)
-            return NAN;
-    }
+    if (!c->window_json && !(c->window_json = cc_report_window_json(c->report, 0)))
+        return NAN;
     const cJSON *node = c->window_json;
     char key[128];
     const char *p = path;

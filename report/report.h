@@ -50,6 +50,10 @@ void cc_report_free(cc_report *r);
 
 /* Renderings; malloc'd NUL-terminated text, NULL on out of memory. */
 char *cc_report_json(const cc_report *r);
+
+/* Window i of the JSON contract as a cJSON tree (caller frees with
+ * cJSON_Delete), for readers that look figures up by path (alerts). */
+struct cJSON *cc_report_window_json(const cc_report *r, int i);
 char *cc_report_text(const cc_report *r);
 
 /* The HTML page's inputs besides the report. alerts: lines for the status

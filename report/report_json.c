@@ -152,6 +152,13 @@ static cJSON *tracked_json(const double *x)
     return o;
 }
 
+static cJSON *window_json(const cc_report_window *w, int m, int k);
+
+cJSON *cc_report_window_json(const cc_report *r, int i)
+{
+    return window_json(&r->windows[i], r->model->m, r->model->k);
+}
+
 static cJSON *window_json(const cc_report_window *w, int m, int k)
 {
     const cc_window_metrics *x = &w->metrics;
