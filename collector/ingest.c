@@ -10,6 +10,7 @@
 
 #include "date.h"
 #include "event_parse.h"
+#include "event_view.h"
 #include "line_reader.h"
 #include "summary.h"
 
@@ -43,6 +44,7 @@ struct cc_ingest {
     int in_tx;
     int64_t since_commit;
     int64_t now; /* arrival time given to delayed labels */
+    cc_event_view view; /* scratch: the event being taken (several KiB) */
     strict_reject *held;
     size_t n_held, cap_held;
 };
@@ -347,13 +349,10 @@ static int take_event(cc_ingest *ing, const char *source, const cc_line *ln, cc_
     size_t n = (size_t)model->m * (size_t)model->k;
     for (size_t i = 0; i < n; i++)
         ms->probs[i] = (float)ev.probs[i];
-    double avg[CC_MAX_CLASSES];
-    for (int c = 0; c < model->k; c++)
-        avg[c] = 0.0;
-    for (int i = 0; i < model->m; i++)
-        for (int c = 0; c < model->k; c++)
-            avg[c] += ms->probs[(size_t)i * model->k + c];
-    int pred = cc_argmax_d(avg, model->k);
+    /* one view of the event serves the stored class and both summary parts */
+    cc_event_view *view = &ing->view;
+    cc_event_view_compute(view, ms->probs, model->m, model->k, label);
+    int pred = view->ens;
 
     int inserted;
     if (cc_store_event_insert(ing->store, model, ev.id, ev.id_len, ev.ts, ev.segment,
@@ -366,9 +365,9 @@ static int take_event(cc_ingest *ing, const char *source, const cc_line *ln, cc_
     cc_summary *d = delta_for(ms, cc_day_of_unix(ev.ts));
     if (!d)
         return cc_error_set(err, CC_ENOMEM, "out of memory");
-    cc_summary_add_unlabeled(d, ms->probs, 1);
+    cc_summary_add_unlabeled_view(d, view, ms->probs, 1);
     if (label >= 0)
-        cc_summary_add_labeled(d, ms->probs, label, 1);
+        cc_summary_add_labeled_view(d, view, ms->probs, 1);
     mark_dirty(ms);
     ing->stats.accepted++;
     return 0;

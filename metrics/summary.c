@@ -204,48 +204,54 @@ static int calib_bin(double conf)
 
 void cc_summary_add_unlabeled(cc_summary *s, const float *probs, int sign)
 {
+    cc_event_view e;
+    if (cc_event_view_compute(&e, probs, s->lay.m, s->lay.k, -1) == 0)
+        cc_summary_add_unlabeled_view(s, &e, probs, sign);
+}
+
+void cc_summary_add_unlabeled_view(cc_summary *s, const cc_event_view *e, const float *probs,
+                                   int sign)
+{
     const cc_layout *L = &s->lay;
     int64_t *v = s->v;
     const int m = L->m, k = L->k;
-    cc_event_view e;
 
-    cc_event_view_compute(&e, probs, m, k, -1);
     v[L->n_events] += sign;
-    v[L->vote_ties] += sign * e.vote_tie;
-    v[L->pred_counts + e.ens] += sign;
+    v[L->vote_ties] += sign * e->vote_tie;
+    v[L->pred_counts + e->ens] += sign;
     for (int i = 0; i < m; i++)
-        v[L->member_pred + (size_t)i * k + e.member_class[i]] += sign;
+        v[L->member_pred + (size_t)i * k + e->member_class[i]] += sign;
     int64_t sumsq = 0;
     for (int c = 0; c < k; c++)
-        sumsq += (int64_t)e.votes[c] * e.votes[c];
+        sumsq += (int64_t)e->votes[c] * e->votes[c];
     v[L->fleiss_sumsq] += sign * sumsq;
 
     for (int i = 0; i < m; i++)
         for (int j = i + 1; j < m; j++)
             v[L->pair_agree + (size_t)cc_pair_index(m, i, j)] +=
-                sign * (e.member_class[i] == e.member_class[j]);
+                sign * (e->member_class[i] == e->member_class[j]);
 
     cc_uncertainty u;
     cc_uncertainty_split(&u, probs, m, k, NULL);
     v[L->tu_fx] += sign * fx(u.total_nats);
     v[L->au_fx] += sign * fx(u.expected_nats);
 
-    if (!e.unanimous) {
+    if (!e->unanimous) {
         /* the averaged output's top two, as an unordered pair */
-        int lo = e.ens < e.second ? e.ens : e.second, hi = e.ens < e.second ? e.second : e.ens;
+        int lo = e->ens < e->second ? e->ens : e->second, hi = e->ens < e->second ? e->second : e->ens;
         v[L->contested + (size_t)lo * k + hi] += sign;
     }
 
-    int64_t *cell = v + L->em_cells + (size_t)cc_em_cell(e.avg, k) * (size_t)(k + 1);
+    int64_t *cell = v + L->em_cells + (size_t)cc_em_cell(e->avg, k) * (size_t)(k + 1);
     cell[0] += sign;
     for (int c = 0; c < k; c++)
-        cell[1 + c] += sign * fx(e.avg[c]);
+        cell[1 + c] += sign * fx(e->avg[c]);
 
-    v[L->hist_maxprob + cc_hist_bin_prob(e.avg[e.ens])] += sign;
+    v[L->hist_maxprob + cc_hist_bin_prob(e->avg[e->ens])] += sign;
     v[L->hist_entropy + cc_hist_bin_nats(u.total_nats)] += sign;
     v[L->hist_mi + cc_hist_bin_nats(u.mutual_nats)] += sign;
     for (int c = 0; c < k; c++)
-        v[L->hist_class + (size_t)c * CC_HIST_BINS + cc_hist_bin_prob(e.avg[c])] += sign;
+        v[L->hist_class + (size_t)c * CC_HIST_BINS + cc_hist_bin_prob(e->avg[c])] += sign;
 }
 
 int cc_em_cell(const double *avg, int k)
@@ -287,37 +293,44 @@ static void add_calibration(int64_t *calib, int64_t *brier, int64_t *nll, const 
 
 void cc_summary_add_labeled(cc_summary *s, const float *probs, int label, int sign)
 {
+    cc_event_view e;
+    if (label >= 0 && cc_event_view_compute(&e, probs, s->lay.m, s->lay.k, label) == 0)
+        cc_summary_add_labeled_view(s, &e, probs, sign);
+}
+
+void cc_summary_add_labeled_view(cc_summary *s, const cc_event_view *e, const float *probs,
+                                 int sign)
+{
     const cc_layout *L = &s->lay;
     int64_t *v = s->v;
-    const int m = L->m, k = L->k;
-    cc_event_view e;
+    const int m = L->m, k = L->k, label = e->label;
 
-    if (cc_event_view_compute(&e, probs, m, k, label) != 0 || label < 0)
+    if (label < 0 || label >= k)
         return;
     v[L->n_labeled] += sign;
     v[L->label_counts + label] += sign;
-    v[L->confusion + (size_t)e.ens * k + label] += sign;
-    v[L->ens_correct] += sign * e.ens_right;
-    v[L->vote_correct] += sign * (e.vote == label);
-    v[L->vote_ties_labeled] += sign * e.vote_tie;
+    v[L->confusion + (size_t)e->ens * k + label] += sign;
+    v[L->ens_correct] += sign * e->ens_right;
+    v[L->vote_correct] += sign * (e->vote == label);
+    v[L->vote_ties_labeled] += sign * e->vote_tie;
     for (int i = 0; i < m; i++) {
-        int right = e.member_right[i];
+        int right = e->member_right[i];
         v[L->member_correct + i] += sign * right;
-        v[L->ens_only + i] += sign * (e.ens_right && !right);
-        v[L->member_only + i] += sign * (!e.ens_right && right);
+        v[L->ens_only + i] += sign * (e->ens_right && !right);
+        v[L->member_only + i] += sign * (!e->ens_right && right);
     }
-    v[L->oracle_correct] += sign * (e.n_right > 0);
-    v[L->n_right_hist + e.n_right] += sign;
+    v[L->oracle_correct] += sign * (e->n_right > 0);
+    v[L->n_right_hist + e->n_right] += sign;
     for (int i = 0; i < m; i++)
         for (int j = i + 1; j < m; j++) {
             size_t p = (size_t)cc_pair_index(m, i, j);
-            int ri = e.member_right[i], rj = e.member_right[j];
+            int ri = e->member_right[i], rj = e->member_right[j];
             int cell = ri ? (rj ? 0 : 1) : (rj ? 2 : 3);
             v[L->pair_oracle + p * 4 + cell] += sign;
         }
 
-    v[L->em_cell_labels + (size_t)cc_em_cell(e.avg, k) * k + label] += sign;
-    add_calibration(v + L->calib, v + L->brier_fx, v + L->nll_fx, e.avg, k, label, sign);
+    v[L->em_cell_labels + (size_t)cc_em_cell(e->avg, k) * k + label] += sign;
+    add_calibration(v + L->calib, v + L->brier_fx, v + L->nll_fx, e->avg, k, label, sign);
     double row[CC_MAX_CLASSES];
     for (int i = 0; i < m; i++) {
         for (int c = 0; c < k; c++)

@@ -107,6 +107,15 @@ int cc_summary_equal(const cc_summary *a, const cc_summary *b);
 void cc_summary_add_unlabeled(cc_summary *s, const float *probs, int sign);
 void cc_summary_add_labeled(cc_summary *s, const float *probs, int label, int sign);
 
+/* The same from an event view already computed from the same probs
+ * (metrics/event_view.h; for the labelled part, computed with the label),
+ * so a caller that needs the view too computes it once. */
+struct cc_event_view;
+void cc_summary_add_unlabeled_view(cc_summary *s, const struct cc_event_view *e,
+                                   const float *probs, int sign);
+void cc_summary_add_labeled_view(cc_summary *s, const struct cc_event_view *e,
+                                 const float *probs, int sign);
+
 /* A delayed label's age: arrival time minus event time, in seconds. */
 void cc_summary_add_label_delay(cc_summary *s, int64_t delay_s, int sign);
 
