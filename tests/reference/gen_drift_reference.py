@@ -33,12 +33,10 @@ Sections
 """
 import json
 import math
-import os
 import sys
 
 import refcheck
 
-SKIP = 77
 SEED = 20240613
 REL_TOL = 1e-9
 ABS_TOL = 1e-13
@@ -390,16 +388,7 @@ def check(committed):
 
 
 def main(argv):
-    if len(argv) == 3 and argv[1] == "--check":
-        return check(argv[2])
-    if len(argv) > 2:
-        print(__doc__)
-        return 2
-    here = os.path.dirname(os.path.abspath(__file__))
-    path = argv[1] if len(argv) == 2 else os.path.join(here, "drift_reference.json")
-    generate(path)
-    print(f"wrote {path}")
-    return 0
+    return refcheck.main(argv, __doc__, "drift_reference.json", generate, check)
 
 
 if __name__ == "__main__":

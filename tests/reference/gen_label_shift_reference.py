@@ -36,13 +36,11 @@ Run with Debian's python (python3-numpy).
 """
 import json
 import math
-import os
 import re
 import sys
 
 import refcheck
 
-SKIP = 77
 SEED = 20240617
 MEASURE_SEED = 7
 REL_TOL = 1e-9
@@ -383,19 +381,14 @@ def measure(rounds):
     return 0
 
 
-def main(argv):
-    if len(argv) == 3 and argv[1] == "--check":
-        return check(argv[2])
+def measure_option(argv):
     if len(argv) in (2, 3) and argv[1] == "--measure":
         return measure(int(argv[2]) if len(argv) == 3 else 40)
-    if len(argv) > 2:
-        print(__doc__)
-        return 2
-    here = os.path.dirname(os.path.abspath(__file__))
-    path = argv[1] if len(argv) == 2 else os.path.join(here, "label_shift_reference.json")
-    generate(path)
-    print(f"wrote {path}")
-    return 0
+    return None
+
+
+def main(argv):
+    return refcheck.main(argv, __doc__, "label_shift_reference.json", generate, check, measure_option)
 
 
 if __name__ == "__main__":

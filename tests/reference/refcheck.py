@@ -62,3 +62,23 @@ def check(name, committed, generate, import_libraries, needs, rel_tol, abs_tol):
         return 1
     print(f"{name}: {committed} matches a fresh run")
     return 0
+
+
+def main(argv, doc, default_name, generate, check_fn, extra=None):
+    """The generators' command line: `--check FILE` compares, `[FILE]` writes
+    (default: default_name beside the script); extra(argv) may handle more
+    options and return an exit status, or None to go on."""
+    if len(argv) == 3 and argv[1] == "--check":
+        return check_fn(argv[2])
+    if extra:
+        status = extra(argv)
+        if status is not None:
+            return status
+    if len(argv) > 2:
+        print(doc)
+        return 2
+    here = os.path.dirname(os.path.abspath(__file__))
+    path = argv[1] if len(argv) == 2 else os.path.join(here, default_name)
+    generate(path)
+    print(f"wrote {path}")
+    return 0
