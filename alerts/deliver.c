@@ -9,6 +9,8 @@
 #include <time.h>
 #include <unistd.h>
 
+#include "testpoint.h"
+
 #define MAX_FAILED_RECEIVERS 64
 #define LEASE_MARGIN_S 60
 
@@ -212,6 +214,7 @@ int cc_deliver_run(cc_store *s, const cc_deliver_opts *o, cc_deliver_stats *stat
                                       r.connect_ms, r.timeout_ms};
             ok = send(o->send_ctx, &req, &res) == 0;
         }
+        cc_testpoint("deliver-sent");
         int attempts = r.attempts + 1;
         int dead = !ok && attempts >= r.max_attempts;
         int64_t next_at = now;

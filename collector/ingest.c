@@ -12,6 +12,7 @@
 #include "event_parse.h"
 #include "event_view.h"
 #include "line_reader.h"
+#include "testpoint.h"
 #include "summary.h"
 
 typedef struct day_delta {
@@ -229,11 +230,14 @@ static void discard_deltas(cc_ingest *ing)
 static int commit_batch(cc_ingest *ing, cc_error *err)
 {
     int rc = flush(ing, err);
-    if (!rc)
+    if (!rc) {
+        cc_testpoint("ingest-batch-written");
         rc = cc_store_commit(ing->store, err);
+    }
     ing->in_tx = 0;
     if (rc)
         return rc;
+    cc_testpoint("ingest-batch-committed");
     ing->since_commit = 0;
     return begin(ing, err);
 }

@@ -17,6 +17,11 @@ python3 runs it. The fixtures it reads are synthetic (tests/reference/e2e_gen.py
       inline in place of the original label.
   e2e_compare.py expected A.json B.json
       Numerical comparison of two generated expected files (relative 1e-12).
+  e2e_compare.py jsonl COMMITTED.jsonl REGENERATED.jsonl
+      Line-by-line comparison of two generated JSON Lines fixtures: the same
+      lines in the same order, integers and strings exact, other numbers
+      within 1e-12 relative to max(1, |value|) (float64 results of numpy differ in their last
+      bits between CPUs and library builds, so never byte for byte).
 """
 import json
 import math
@@ -188,10 +193,39 @@ def cmd_expected(a_path, b_path):
     return 0
 
 
+JSONL_REL_TOL = 1e-12   # float64: ~4500 ulp; CPUs differ in the last few bits
+
+
+def cmd_jsonl(committed_path, fresh_path):
+    with open(committed_path) as f:
+        old = [line for line in f if line.strip()]
+    with open(fresh_path) as f:
+        new = [line for line in f if line.strip()]
+    if len(old) != len(new):
+        print("FAIL %s: %d lines committed, %d regenerated" % (
+            committed_path, len(old), len(new)))
+        return 1
+    w = Walk(lambda path: JSONL_REL_TOL, rel=True)
+    for i, (a, b) in enumerate(zip(old, new)):
+        w.run(json.loads(a), json.loads(b), "line %d" % (i + 1))
+    for path in w.unchecked:
+        w.bad(path, "only in the regenerated file")
+    for m in w.mismatches[:40]:
+        print("MISMATCH %s" % m)
+    if w.mismatches:
+        print("FAIL %s: %d values differ beyond %g (relative to max(1, |value|))" % (
+            committed_path, len(w.mismatches), JSONL_REL_TOL))
+        return 1
+    worst = max(w.worst.values(), default=0.0)
+    print("ok: %d lines, %d values regenerate (largest relative difference %.3g, tolerance %g)" % (
+        len(old), w.checked, worst, JSONL_REL_TOL))
+    return 0
+
+
 def main(argv):
     commands = {"report": (cmd_report, 3), "classes": (cmd_classes, 1),
                 "tally": (cmd_tally, None), "final-labels": (cmd_final_labels, 3),
-                "expected": (cmd_expected, 2)}
+                "expected": (cmd_expected, 2), "jsonl": (cmd_jsonl, 2)}
     if len(argv) < 2 or argv[1] not in commands:
         print(__doc__, file=sys.stderr)
         return 2

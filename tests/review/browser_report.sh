@@ -21,7 +21,7 @@ mkdir -p "$ART"
 "$CONCORD" demo --dir "$T/demo" > /dev/null
 PAGE="file://$T/demo/report.html"
 run_chromium() {
-  timeout -k 10 120 "$CHROMIUM" --headless --no-sandbox --disable-gpu --disable-quic \
+  timeout -k 10 600 "$CHROMIUM" --headless --no-sandbox --disable-gpu --disable-quic \
     --no-first-run --disable-background-networking --disable-component-update --disable-sync \
     --disable-extensions --hide-scrollbars --user-data-dir="$(mktemp -d -p "$T")" "$@"
 }
