@@ -70,6 +70,10 @@ int cli_report_html(struct cc_store *store, const struct cc_report *r, int with_
 int cmd_review(int argc, char **argv);
 int cmd_show(int argc, char **argv);
 
+/* How the user invoked concord (argv[0] when it holds a '/', else "concord"),
+ * so printed hints such as the demo's can be pasted as they are (main.c). */
+extern const char *cli_program;
+
 extern const char help_ingest[], help_label[], help_baseline[], help_report[], help_verify[],
     help_demo[];
 extern const char help_review[], help_show[];

@@ -139,10 +139,10 @@ int cmd_demo(int argc, char **argv)
     fputs(text, stdout);
     printf("\nwritten: %s, %s, %s (database), %s and %s (%.1f s)\n", events, labels, db,
            txt, json, (double)(t1.tv_sec - t0.tv_sec) + (double)(t1.tv_nsec - t0.tv_nsec) / 1e9);
-    printf("try: concord report --db %s --model apple-grader --from %s --to %s --by all\n", db,
-           fog_a, fog_b);
-    printf("review the fog days: concord review --db %s --model apple-grader --from %s --to %s "
-           "--where top-mi\n", db, fog_a, fog_b);
+    printf("try: %s report --db %s --model apple-grader --from %s --to %s --by all\n",
+           cli_program, db, fog_a, fog_b);
+    printf("review the fog days: %s review --db %s --model apple-grader --from %s --to %s "
+           "--where top-mi\n", cli_program, db, fog_a, fog_b);
     if ((rc = cli_demo_alerts(store, dir, dopts.first_day, dopts.days)) != EXIT_OK)
         goto done;
     /* the page last, so its status line shows the rules still firing */

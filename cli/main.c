@@ -23,6 +23,8 @@ static const cli_command commands[] = {
      help_follow},
 };
 
+const char *cli_program = "concord";
+
 static void usage(FILE *f)
 {
     fprintf(f, "usage: concord COMMAND [OPTIONS] [FILE...]\n\n"
@@ -39,6 +41,8 @@ static void usage(FILE *f)
 
 int main(int argc, char **argv)
 {
+    if (argc > 0 && argv[0] && strchr(argv[0], '/'))
+        cli_program = argv[0];
     if (argc < 2) {
         usage(stderr);
         return EXIT_USAGE;

@@ -68,3 +68,15 @@ for est in ("bbse", "em"):
     assert l1 <= 0.1, f"{est} over the late-season period: L1 {l1:.3f} from the true mix"
     print(f"demo_incidents: {est} recovers the late-season grade mix, L1 {l1:.3f}")
 PY
+
+# the commands the demo suggests work exactly as printed (issue: hints that
+# said `concord` failed with "command not found" after the quick start)
+grep -E '^(try|review the fog days): ' "$T/out.txt" | sed 's/^[^:]*: //' > "$T/hints"
+[ "$(wc -l < "$T/hints")" = 2 ] || { echo "FAIL: expected 2 suggested commands, saw: $(cat "$T/hints")" >&2; exit 1; }
+while IFS= read -r hint; do
+  case $hint in "$CONCORD "*) ;; *) echo "FAIL: hint does not start with the binary as invoked ($CONCORD): $hint" >&2; exit 1 ;; esac
+  if ! bash -c "$hint" > "$T/hint.out" 2> "$T/hint.err" || [ ! -s "$T/hint.out" ]; then
+    echo "FAIL: the suggested command failed or printed nothing: $hint: $(cat "$T/hint.err")" >&2; exit 1
+  fi
+done < "$T/hints"
+echo "demo_incidents: the 2 suggested commands run as printed"
