@@ -65,7 +65,8 @@ for d in range(1, 31):
                "firing": [r for r in res if r.get("state") == "firing" and r.get("outcome") not in ("fired", "reminder")],
                "resolved": [r for r in res if r.get("outcome") == "resolved"]}
 
-print("day date       phase               gain    MI     dis   fired (value vs bound) | still firing | resolved")
+names = plan["members"]
+print("day date       phase               gain    MI     dis   worst member  fired (value vs bound) | still firing | resolved")
 for d in range(1, 31):
     w = report.get(d, {})
     acc = w.get("accuracy") or {}
@@ -76,10 +77,13 @@ for d in range(1, 31):
     fired = ", ".join(f"{r['rule']} ({r.get('value'):.4g} vs {r.get('bound'):.4g})"
                       if isinstance(r.get("value"), (int, float)) and isinstance(r.get("bound"), (int, float))
                       else r["rule"] for r in days[d]["fired"]) or "-"
+    accs = acc.get("members") or []
+    worst = min(range(len(accs)), key=lambda m: accs[m]) if accs else None
+    worst = f"{names[worst]:6} {accs[worst]:.3f}" if worst is not None else "  -  "
     firing = ", ".join(r["rule"] for r in days[d]["firing"]) or "-"
     resolved = ", ".join(r["rule"] for r in days[d]["resolved"]) or "-"
     print(f"{d:<3} {w.get('from', '?'):10} {plan['days'][str(d)]['phase']:18} {fmt(gain, 4)} {fmt(mi)} {fmt(dis)}  "
-          f"{fired} | {firing} | {resolved}")
+          f"{worst:12}  {fired} | {firing} | {resolved}")
 
 strict, unmet, met = False, [], []
 for raw in open(expect_path):
