@@ -17,13 +17,15 @@
 const char help_demo[] =
     "usage: concord demo [--dir DIR] [--per-day N] [--seed N]\n\n"
     "Runs the whole job on invented data: an apple packhouse that grades fruit into six\n"
-    "grades with five members, 28 days, with three injected incidents - a fogged camera\n"
-    "(days 9-11: members disagree, mutual information rises), a late-season grade mix\n"
-    "(from day 16: class mix moves, labels confirm it) and a retrain after which the\n"
-    "members are near copies (from day 23: disagreement collapses). Writes events.jsonl,\n"
-    "labels.jsonl, demo.db, report.txt, report.json and report.html into DIR (default\n"
-    "./concord-demo, replacing an earlier demo database there). Then checks the default\n"
-    "alert rules day by day (rules.json) and prints the alert timeline (alerts.jsonl).\n\n"
+    "grades with five members, 28 days, with four injected incidents - a fogged camera\n"
+    "(days 9-11: members disagree, mutual information rises), one member running an old\n"
+    "model (days 14-15: 'size' is less accurate and disagrees with the others), a\n"
+    "late-season grade mix (from day 16: class mix moves, labels confirm it) and a retrain\n"
+    "after which the members are near copies (from day 23: disagreement collapses).\n"
+    "Writes events.jsonl, labels.jsonl, demo.db, report.txt, report.json and report.html\n"
+    "into DIR (default ./concord-demo, replacing an earlier demo database there). Then\n"
+    "checks the default alert rules day by day (rules.json) and prints the alert timeline\n"
+    "(alerts.jsonl).\n\n"
     "exit: 0 ok, 2 usage, 3 file or database error\n";
 
 static int write_file(const char *path, const char *text)
@@ -118,24 +120,28 @@ int cmd_demo(int argc, char **argv)
         goto done;
     }
     clock_gettime(CLOCK_MONOTONIC, &t1);
-    char d1[11], fog_a[11], fog_b[11], mix_a[11], re_a[11];
+    char d1[11], fog_a[11], fog_b[11], mix_a[11], re_a[11], br_a[11], br_b[11];
     cc_format_date(dopts.first_day, d1);
     cc_format_date(dopts.first_day + inc.fog_from - 1, fog_a);
     cc_format_date(dopts.first_day + inc.fog_to - 1, fog_b);
     cc_format_date(dopts.first_day + inc.mix_from - 1, mix_a);
     cc_format_date(dopts.first_day + inc.retrain_from - 1, re_a);
+    cc_format_date(dopts.first_day + inc.broken_from - 1, br_a);
+    cc_format_date(dopts.first_day + inc.broken_to - 1, br_b);
     printf("concord demo: an INVENTED apple packhouse (not real data). Five members grade\n"
            "fruit into six grades; %lld events over %d days from %s, %lld labels inline and\n"
            "%lld delayed (stored: %lld events, %lld delayed labels applied).\n"
            "Injected incidents to look for below:\n"
            "  fogged camera    %s..%s  members disagree: 'disagree' and 'mutual' jump\n"
+           "  old model file   %s..%s  member '%s' alone: its accuracy falls, it leans\n"
+           "                               a grade lower and disagrees with the others\n"
            "  late-season mix  from %s  more class-2/juice/cull in both mixes\n"
            "  retrain          from %s  members near copies: 'disagree' falls toward 0,\n"
            "                               kappa toward 1, oracle accuracy meets ensemble\n"
            "Baseline: days 1-7.\n\n",
            (long long)inc.events, dopts.days, d1, (long long)inc.inline_labels,
            (long long)inc.delayed_labels, (long long)s->accepted, (long long)s->labels_set,
-           fog_a, fog_b, mix_a, re_a);
+           fog_a, fog_b, br_a, br_b, members && inc.broken_member < n_members ? members[inc.broken_member] : "?", mix_a, re_a);
     fputs(text, stdout);
     printf("\nwritten: %s, %s, %s (database), %s and %s (%.1f s)\n", events, labels, db,
            txt, json, (double)(t1.tv_sec - t0.tv_sec) + (double)(t1.tv_nsec - t0.tv_nsec) / 1e9);

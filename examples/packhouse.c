@@ -5,7 +5,11 @@
  * the true grade (with leakage to neighbouring grades). Each member sees the
  * fruit its own way: b_m ~ Dirichlet around the true grade, and answers
  * p_m ~ Dirichlet(gamma (w a + (1-w) b_m)), sharpened as p^t / sum p^t.
- * Incidents change gamma, w and the grade mix. Random numbers: GSL's mt19937 and gsl_ran_dirichlet. */
+ * Incidents change gamma, w and the grade mix. On the broken-member days one
+ * member's answer is replaced by an old model's: it leans one grade lower on
+ * about half of the fruit and is less sure; its draws come from a second
+ * generator, so every other number of the scenario stays as it was.
+ * Random numbers: GSL's mt19937 and gsl_ran_dirichlet. */
 #include "packhouse.h"
 
 #include <errno.h>
@@ -22,6 +26,13 @@
 
 static const double base_mix[K] = {0.10, 0.25, 0.30, 0.20, 0.10, 0.05};
 static const double late_mix[K] = {0.03, 0.10, 0.20, 0.30, 0.22, 0.15};
+
+/* The old model of the broken-member incident: share of fruit it sees one
+ * grade lower, weight of the shared view, concentration and sharpening. */
+#define OLD_LEAN 0.65
+#define OLD_W 0.6
+#define OLD_GAMMA 120.0
+#define OLD_SHARPEN 1.1
 
 /* Dirichlet parameter centred on grade y with leakage to its neighbours. */
 static void around(double *alpha, int y, double strength, double leak)
@@ -68,8 +79,16 @@ int cc_demo_generate(const char *events_path, const char *labels_path, const cc_
         fclose(ev);
         return cc_error_set(err, CC_EIO, "%s: %s", labels_path, strerror(errno));
     }
-    gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+    gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937), *old = gsl_rng_alloc(gsl_rng_mt19937);
+    if (!r || !old) {
+        gsl_rng_free(r);
+        gsl_rng_free(old);
+        fclose(ev);
+        fclose(lab);
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    }
     gsl_rng_set(r, (unsigned long)o->seed);
+    gsl_rng_set(old, (unsigned long)o->seed ^ 0x5eedUL);
     static const char *const grade_names[K] = {"premium", "extra",  "class-1",
                                                "class-2", "juice",  "cull"};
 
@@ -77,12 +96,14 @@ int cc_demo_generate(const char *events_path, const char *labels_path, const cc_
     inc->fog_from = 9, inc->fog_to = 11;
     inc->mix_from = 16, inc->mix_to = o->days;
     inc->retrain_from = 23, inc->retrain_to = o->days;
+    inc->broken_from = 14, inc->broken_to = 15, inc->broken_member = 3; /* "size" */
 
     double alpha[K], a[K], b[K], mixed[K], p[M][K];
     for (int day = 1; day <= o->days; day++) {
         int fog = day >= inc->fog_from && day <= inc->fog_to;
         int late = day >= inc->mix_from && day <= inc->mix_to;
         int copies = day >= inc->retrain_from && day <= inc->retrain_to;
+        int broken = day >= inc->broken_from && day <= inc->broken_to;
         int64_t t0 = (o->first_day + day - 1) * 86400;
         for (int i = 0; i < o->per_day; i++) {
             int y = draw_grade(r, late ? late_mix : base_mix);
@@ -103,6 +124,15 @@ int cc_demo_generate(const char *events_path, const char *labels_path, const cc_
                     mixed[c] = gamma * (w * a[c] + (1.0 - w) * b[c]) + 1e-3;
                 gsl_ran_dirichlet(r, K, mixed, p[m]);
                 sharpen(p[m], copies ? 2.0 : 2.4);
+                if (broken && m == inc->broken_member) {
+                    int seen = y + 1 < K && gsl_rng_uniform(old) < OLD_LEAN ? y + 1 : y;
+                    around(alpha, seen, 8.0, 0.5);
+                    gsl_ran_dirichlet(old, K, alpha, b);
+                    for (int c = 0; c < K; c++)
+                        mixed[c] = OLD_GAMMA * (OLD_W * a[c] + (1.0 - OLD_W) * b[c]) + 1e-3;
+                    gsl_ran_dirichlet(old, K, mixed, p[m]);
+                    sharpen(p[m], OLD_SHARPEN);
+                }
             }
             int64_t ts = t0 + (int64_t)((double)i * 86400.0 / o->per_day);
             int y_, mo, d;
@@ -136,6 +166,7 @@ int cc_demo_generate(const char *events_path, const char *labels_path, const cc_
         }
     }
     gsl_rng_free(r);
+    gsl_rng_free(old);
     int bad = ferror(ev) | ferror(lab);
     bad |= fclose(ev) != 0;
     bad |= fclose(lab) != 0;

@@ -25,6 +25,8 @@ typedef struct cc_demo_incidents {
     int fog_from, fog_to;          /* camera fogged: members disagree */
     int mix_from, mix_to;          /* late-season grade mix */
     int retrain_from, retrain_to;  /* retrained members are near copies */
+    int broken_from, broken_to;    /* one member's model file replaced by an old one */
+    int broken_member;             /* its index (0-based) in CC_DEMO_MEMBERS */
     int64_t events, inline_labels, delayed_labels;
 } cc_demo_incidents;
 

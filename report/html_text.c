@@ -32,6 +32,25 @@ void cc_html_escape_short(FILE *f, const char *s, int max_chars)
         escape_n(f, s, cc_html_chars(s) > max_chars ? max_chars - 1 : -1);
 }
 
+void cc_html_escape_middle(FILE *f, const char *s, int max_chars)
+{
+    if (!s)
+        return;
+    int n = cc_html_chars(s);
+    if (n <= max_chars || max_chars < 3) {
+        escape_n(f, s, n <= max_chars ? -1 : max_chars - 1);
+        return;
+    }
+    int head = (max_chars - 1) / 2, skip = n - (max_chars - 1 - head), chars = 0;
+    escape_n(f, s, head);
+    /* escape_n ended with an ellipsis; the tail starts at code point `skip` */
+    const char *p = s;
+    for (; *p; p++)
+        if ((*(const unsigned char *)p & 0xC0) != 0x80 && chars++ == skip)
+            break;
+    escape_n(f, p, -1);
+}
+
 int cc_html_chars(const char *s)
 {
     int n = 0;

@@ -13,6 +13,10 @@ void cc_html_escape(FILE *f, const char *s);
  * ending with an ellipsis when something was cut. */
 void cc_html_escape_short(FILE *f, const char *s, int max_chars);
 
+/* The same, cutting from the middle instead ("member-…-name-03"), for
+ * names that share a long prefix. */
+void cc_html_escape_middle(FILE *f, const char *s, int max_chars);
+
 /* Characters (UTF-8 code points) in s. */
 int cc_html_chars(const char *s);
 

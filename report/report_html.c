@@ -47,7 +47,11 @@ static const char css[] =
     ".tick{font-size:11px;fill:var(--ink)}.axl{font-size:11.5px;fill:var(--muted);"
     "font-style:italic}.cell{font-size:12px}\n"
     ".trio{display:grid;grid-template-columns:repeat(auto-fit,minmax(270px,1fr));gap:8px 18px}\n"
+    ".trio.solo{grid-template-columns:1fr}.trio.solo svg.chart{max-width:780px}\n"
     ".duo{display:grid;grid-template-columns:minmax(300px,460px) 1fr;gap:18px;align-items:start}\n"
+    ".trio>*,.duo>*{min-width:0}\n"
+    ".scroll{max-width:100%;overflow-x:auto;margin:6px 0 14px}.scroll>table{margin:0}\n"
+    ".halo{paint-order:stroke;stroke:var(--paper);stroke-width:3px;stroke-linejoin:round}\n"
     "table{border-collapse:collapse;font-size:12.5px;width:100%;margin:6px 0 14px}\n"
     "th{text-align:left;border-bottom:1.5px solid var(--ink);font-weight:600;"
     "vertical-align:bottom}\n"
@@ -62,6 +66,7 @@ static const char css[] =
     "color:var(--muted)}\n"
     "@media (max-width:720px){main{padding:14px}.duo{grid-template-columns:1fr}}\n"
     "@media print{body{background:#fff}main{border:0;max-width:none;padding:0}"
+    ".scroll{overflow:visible}"
     "nav{display:none}h2{break-after:avoid}figure,table{break-inside:avoid}}\n";
 
 typedef struct daily_spec {
@@ -347,7 +352,7 @@ static void daily_section(page *p, FILE *charts)
               "(share of events per class)</figcaption>\n", charts);
         cc_svg_stacked_chart(charts, "chart-class-mix-daily", n, p->labels,
                              r->by == CC_BY_WEEK ? "ISO week (Monday, UTC)" : "UTC day", m->k,
-                             m->classes, shares);
+                             m->classes, shares, p->base_from, p->base_to);
         fputs("</figure>\n", charts);
     }
     fputs("</section>\n", charts);
@@ -399,7 +404,9 @@ static void pairs_section(page *p)
     const struct { const char *what, *key; } rows[] = {
         {"disagreement", "dis"}, {"Cohen's kappa", "kappa"}, {"Yule's Q", "q"}};
     for (int row = 0; row < 3; row++) {
-        fprintf(f, "<h3>%s</h3><div class=\"trio\">\n", rows[row].what);
+        /* with many members three maps side by side are too small to read */
+        fprintf(f, "<h3>%s</h3><div class=\"trio%s\">\n", rows[row].what,
+                m->m > 6 ? " solo" : "");
         for (int col = 0; col < 3; col++) {
             const cc_window_metrics *wm = col == 0 ? (has_base ? &base : NULL)
                                           : col == 1 ? &p->all.wm
@@ -471,7 +478,7 @@ static void classmix_section(page *p)
     fputs("</figcaption>\n", f);
     cc_svg_grouped_bars(f, "chart-class-mix", m->k, m->classes, 5, names, v, "% of events");
     fputs("</figure>\n", f);
-    fputs("<table><thead><tr><th>class</th>", f);
+    fputs("<div class=\"scroll\"><table><thead><tr><th>class</th>", f);
     for (int s = 0; s < 5; s++)
         fprintf(f, "<th class=\"num\">%s</th>", names[s]);
     fputs("</tr></thead><tbody>\n", f);
@@ -489,7 +496,7 @@ static void classmix_section(page *p)
         }
         fputs("</tr>\n", f);
     }
-    fputs("</tbody></table></section>\n", f);
+    fputs("</tbody></table></div></section>\n", f);
     free(v);
 }
 
@@ -509,9 +516,24 @@ static void reliability_section(page *p)
                "%lld labelled events, %d equal-width bins (Guo et al. 2017)</figcaption>\n",
             (long long)cal->n, CC_CALIB_BINS);
     cc_svg_reliability(f, "chart-reliability", cal);
-    fputs("</figure><div><p class=\"lede\">A dot below the dashed line means the ensemble was "
-          "less often right than it was confident; the hatched bar is the gap. The bars "
-          "underneath count the events in each bin.</p><table><tbody>", f);
+    fputs("</figure><div><p class=\"lede\">A dot below the dashed line means that in this bin "
+          "the ensemble was right less often than its confidence said (over-confident); a dot "
+          "above it, that it was right more often than it claimed (under-confident). The "
+          "hatched bar is the gap, in either direction. The bars underneath count the events "
+          "in each bin.", f);
+    int64_t over = 0, under = 0;
+    for (int b = 0; b < CC_CALIB_BINS; b++) {
+        const cc_calib_bin *bin = &cal->bins[b];
+        if (bin->count > 0 && isfinite(bin->accuracy) && bin->accuracy < bin->confidence)
+            over += bin->count;
+        else if (bin->count > 0 && isfinite(bin->accuracy) && bin->accuracy > bin->confidence)
+            under += bin->count;
+    }
+    if (cal->n > 0)
+        fprintf(f, " Here %.0f %% of the labelled events fall in bins above the line "
+                   "(under-confident) and %.0f %% in bins below it (over-confident).",
+                100.0 * (double)under / (double)cal->n, 100.0 * (double)over / (double)cal->n);
+    fputs("</p><table><tbody>", f);
     fprintf(f, "<tr><td>expected calibration error (ECE)</td><td class=\"num\">%.4f</td></tr>"
                "<tr><td>largest bin gap (MCE)</td><td class=\"num\">%.4f</td></tr>"
                "<tr><td>Brier score (0 to 2)</td><td class=\"num\">%.4f</td></tr>"
@@ -552,7 +574,8 @@ static void contested_section(page *p)
 
 static void event_rows(FILE *f, const cc_review_event *ev, int n, const cc_model *m)
 {
-    fputs("<table class=\"events\"><thead><tr><th>#</th><th>id</th><th>time (UTC)</th>"
+    fputs("<div class=\"scroll\"><table class=\"events\"><thead><tr><th>#</th><th>id</th>"
+          "<th>time (UTC)</th>"
           "<th>segment</th>"
           "<th>label</th><th>ensemble</th><th class=\"num\">margin</th>"
           "<th class=\"num\">MI (nats)</th>", f);
@@ -600,7 +623,7 @@ static void event_rows(FILE *f, const cc_review_event *ev, int n, const cc_model
         }
         fputs("</tr>\n", f);
     }
-    fputs("</tbody></table>\n", f);
+    fputs("</tbody></table></div>\n", f);
 }
 
 static void review_section(page *p)
@@ -658,7 +681,8 @@ static void review_section(page *p)
                                 "label", "ensemble's class", "events", 0.0, 1.0,
                                 "share of the row, 0 to 1", -1};
             cc_svg_heatmap_chart(f, &h);
-            fputs("</figure><div><h3>Lone voices on labelled events</h3><table><thead><tr>"
+            fputs("</figure><div><h3>Lone voices on labelled events</h3><div class=\"scroll\">"
+                  "<table><thead><tr>"
                   "<th>member</th><th class=\"num\">accuracy</th><th class=\"num\">alone "
                   "right</th><th class=\"num\">alone wrong</th></tr></thead><tbody>\n", f);
             for (int i = 0; i < m->m; i++) {
@@ -670,7 +694,7 @@ static void review_section(page *p)
                         (double)s->member_correct[i] / (double)s->labeled,
                         (long long)s->lone_right[i], (long long)s->lone_wrong[i]);
             }
-            fputs("</tbody></table></div></div>\n", f);
+            fputs("</tbody></table></div></div></div>\n", f);
         }
         free(v);
         free(shade);

@@ -156,8 +156,8 @@ void cc_svg_series_chart(FILE *f, const cc_svg_series *s, int *outside)
         double x0 = L + s->base_from * pw / s->n, x1 = L + (s->base_to + 1) * pw / s->n;
         fprintf(f, "<rect x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" height=\"%.1f\" "
                    "fill=\"url(#%s-base)\"><title>baseline days</title></rect>"
-                   "<text class=\"tick\" x=\"%.1f\" y=\"%.1f\">baseline</text>\n",
-                x0, T, x1 - x0, ph, s->id, x0 + 4, T + 11);
+                   "<text class=\"tick halo\" x=\"%.1f\" y=\"%.1f\">baseline</text>\n",
+                x0, T, x1 - x0, ph, s->id, x0 + 2, T - 5);
     }
     for (double t = ceil(lo / step) * step; t <= hi + 1e-12; t += step) {
         double y = T + ph * (hi - t) / (hi - lo);
@@ -252,7 +252,9 @@ static void legend_bar(FILE *f, const char *id, double x, double y, double w, do
     fprintf(f, "</linearGradient></defs><rect x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" "
                "height=\"10\" fill=\"url(#%s-grad)\" stroke=\"" INK "\" stroke-width=\"0.5\"/>\n",
             x, y, w, id);
-    int dg = digits < 0 ? 0 : digits;
+    /* enough decimals for the middle tick: 0 to 1 reads 0.0, 0.5, 1.0 */
+    int dg = digits < 0 ? 0 : digits, need = hi > lo ? step_digits((hi - lo) / 2.0) : 0;
+    dg = dg > need ? dg : need;
     for (int i = 0; i <= 2; i++) {
         double v = lo + (hi - lo) * i / 2.0, xx = x + w * i / 2.0;
         fprintf(f, "<text class=\"tick\" x=\"%.1f\" y=\"%.1f\" text-anchor=\"%s\">%.*f</text>",
@@ -272,8 +274,10 @@ void cc_svg_heatmap_chart(FILE *f, const cc_svg_heatmap *h)
         cmax = cmax > cc_html_chars(h->col_names[j]) ? cmax : cc_html_chars(h->col_names[j]);
     rmax = rmax > 14 ? 14 : rmax;
     cmax = cmax > 14 ? 14 : cmax;
-    const double cell = 50, L = 30 + CHAR_W * rmax, T = 26 + CHAR_W * cmax * 0.72;
-    const int W = (int)(L + cell * h->cols + 20), H = (int)(T + cell * h->rows + 62);
+    const double cell = 50, L = 34 + CHAR_W * rmax, T = 26 + CHAR_W * cmax * 0.72;
+    /* the last column's label, rotated 45 degrees, reaches past its cell to the right */
+    const double reach = fmax(20.0, CHAR_W * cmax * 0.8 - cell / 2 + 12);
+    const int W = (int)(L + cell * h->cols + reach), H = (int)(T + cell * h->rows + 62);
     svg_open(f, h->id, W < 260 ? 260 : W, H, h->value_name);
     for (int j = 0; j < h->cols; j++) {
         double x = L + (j + 0.5) * cell;
@@ -281,7 +285,7 @@ void cc_svg_heatmap_chart(FILE *f, const cc_svg_heatmap *h)
                 x, T - 6);
         cc_html_escape(f, h->col_names[j]);
         fputs("</title>", f);
-        cc_html_escape_short(f, h->col_names[j], 14);
+        cc_html_escape_middle(f, h->col_names[j], 14);
         fputs("</text>\n", f);
     }
     for (int i = 0; i < h->rows; i++) {
@@ -289,7 +293,7 @@ void cc_svg_heatmap_chart(FILE *f, const cc_svg_heatmap *h)
                 L - 6, T + (i + 0.5) * cell + 4);
         cc_html_escape(f, h->row_names[i]);
         fputs("</title>", f);
-        cc_html_escape_short(f, h->row_names[i], 14);
+        cc_html_escape_middle(f, h->row_names[i], 14);
         fputs("</text>\n", f);
         for (int j = 0; j < h->cols; j++) {
             double v = h->v[i * h->cols + j], x = L + j * cell, y = T + i * cell;
@@ -334,7 +338,7 @@ void cc_svg_heatmap_chart(FILE *f, const cc_svg_heatmap *h)
         }
     }
     if (h->row_axis)
-        y_axis_label(f, 10, T + cell * h->rows / 2, h->row_axis);
+        y_axis_label(f, 14, T + cell * h->rows / 2, h->row_axis);
     if (h->col_axis) {
         fprintf(f, "<text class=\"axl\" x=\"%.1f\" y=\"12\" text-anchor=\"middle\">",
                 L + cell * h->cols / 2);
@@ -367,10 +371,12 @@ static double swatches(FILE *f, double x0, double y0, double w, int n, char *con
 }
 
 void cc_svg_stacked_chart(FILE *f, const char *id, int n, const char *const *x_labels,
-                          const char *x_label, int k, char *const *names, const double *shares)
+                          const char *x_label, int k, char *const *names, const double *shares,
+                          int base_from, int base_to)
 {
     const int W = 960;
-    const double L = 74, R = 16, T = 34, ph = 150, pw = W - L - R;
+    const double L = 74, R = 16, ph = 150, pw = W - L - R;
+    const int has_base = base_from >= 0 && base_to >= base_from && base_to < n;
     int rows = 1;
     double x = 0;
     for (int c = 0; c < k; c++) {
@@ -379,10 +385,12 @@ void cc_svg_stacked_chart(FILE *f, const char *id, int n, const char *const *x_l
             rows++, x = 0;
         x += need;
     }
-    const int H = (int)(T + ph + 48 + 16 * (rows - 1));
+    /* legend rows, then a line for the baseline bracket, then the bars */
+    const double T = 34 + 16 * (rows - 1) + (has_base ? 16 : 0);
+    const int H = (int)(T + ph + 48);
     svg_open(f, id, W, H, "class mix per window");
-    char (*fills)[8] = calloc((size_t)k, sizeof *fills);
-    const char **fp = calloc((size_t)k, sizeof *fp);
+    char (*fills)[8] = k > 0 ? calloc((size_t)k, sizeof *fills) : NULL;
+    const char **fp = k > 0 ? calloc((size_t)k, sizeof *fp) : NULL;
     if (!fills || !fp) {
         free(fills);
         free(fp);
@@ -395,6 +403,17 @@ void cc_svg_stacked_chart(FILE *f, const char *id, int n, const char *const *x_l
     }
     swatches(f, L, 16, pw, k, names, fp);
     double bw = pw / n;
+    if (has_base) {
+        double x0 = L + base_from * bw + bw * 0.1, x1 = L + (base_to + 1) * bw - bw * 0.1;
+        fprintf(f, "<defs><pattern id=\"%s-over\" width=\"6\" height=\"6\" "
+                   "patternUnits=\"userSpaceOnUse\" patternTransform=\"rotate(-45)\">"
+                   "<line x1=\"0\" y1=\"0\" x2=\"0\" y2=\"6\" stroke=\"" PAPER "\" "
+                   "stroke-width=\"1.6\" stroke-opacity=\"0.8\"/></pattern></defs>\n"
+                   "<polyline points=\"%.1f,%.1f %.1f,%.1f %.1f,%.1f %.1f,%.1f\" fill=\"none\" "
+                   "stroke=\"" INK "\"/>"
+                   "<text class=\"tick\" x=\"%.1f\" y=\"%.1f\">baseline</text>\n",
+                id, x0, T - 4, x0, T - 9, x1, T - 9, x1, T - 4, x0 + 4, T - 12);
+    }
     for (int i = 0; i < n; i++) {
         double y = T + ph;
         for (int c = k - 1; c >= 0; c--) {
@@ -409,7 +428,14 @@ void cc_svg_stacked_chart(FILE *f, const char *id, int n, const char *const *x_l
             cc_html_escape(f, x_labels[i]);
             fputs(": ", f);
             cc_html_escape(f, names[c]);
-            fprintf(f, " %.1f %%</title></rect>\n", 100.0 * s);
+            fprintf(f, " %.1f %%%s</title></rect>\n", 100.0 * s,
+                    has_base && i >= base_from && i <= base_to ? " (a baseline day)" : "");
+        }
+        if (has_base && i >= base_from && i <= base_to && y < T + ph) {
+            /* on top of the bars, but lets the pointer through to their titles */
+            fprintf(f, "<rect class=\"base-day\" x=\"%.1f\" y=\"%.2f\" width=\"%.1f\" "
+                       "height=\"%.2f\" fill=\"url(#%s-over)\" pointer-events=\"none\"/>\n",
+                    L + i * bw + bw * 0.1, y, bw * 0.8, T + ph - y, id);
         }
     }
     for (int t = 0; t <= 4; t++) {
@@ -520,10 +546,21 @@ void cc_svg_hbars(FILE *f, const char *id, int n, char *const *labels, const dou
 
 void cc_svg_reliability(FILE *f, const char *id, const cc_calibration *cal)
 {
-    const int W = 460, H = 470;
-    const double L = 64, T = 16, P = 320, S = 62, gap = 34;
+    const int W = 460, H = 490;
+    const double L = 64, T = 36, P = 320, S = 62, gap = 34;
     svg_open(f, id, W, H, "reliability diagram");
     patterns(f, id);
+    /* legend above the plot, so that no label sits on the bins */
+    fprintf(f, "<g class=\"legend\"><line x1=\"%.1f\" y1=\"11\" x2=\"%.1f\" y2=\"11\" "
+               "stroke=\"" ALERT "\" stroke-dasharray=\"5 4\"/>"
+               "<text class=\"tick\" x=\"%.1f\" y=\"15\">accuracy = confidence</text>"
+               "<rect x=\"%.1f\" y=\"5\" width=\"12\" height=\"12\" fill=\"url(#%s-hatch)\" "
+               "stroke=\"#3f7479\" stroke-width=\"0.6\"/>"
+               "<text class=\"tick\" x=\"%.1f\" y=\"15\">gap</text>"
+               "<circle cx=\"%.1f\" cy=\"11\" r=\"4\" fill=\"" INK "\"/>"
+               "<text class=\"tick\" x=\"%.1f\" y=\"15\">a bin's accuracy</text></g>\n",
+            L, L + 24, L + 30, L + 30 + CHAR_W * 21 + 14, id, L + 30 + CHAR_W * 21 + 32,
+            L + 30 + CHAR_W * 24 + 48, L + 30 + CHAR_W * 24 + 58);
     fprintf(f, "<rect x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" height=\"%.1f\" fill=\"" PAPER "\" "
                "stroke=\"" GRID "\"/>\n", L, T, P, P);
     for (int t = 0; t <= 5; t++) {
@@ -565,8 +602,6 @@ void cc_svg_reliability(FILE *f, const char *id, const cc_calibration *cal)
     fprintf(f, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"" ALERT "\" "
                "stroke-dasharray=\"5 4\"><title>accuracy = confidence</title></line>\n",
             L, T + P, L + P, T);
-    fprintf(f, "<text class=\"tick\" x=\"%.1f\" y=\"%.1f\">accuracy = confidence</text>\n",
-            L + P * 0.52, T + P * 0.52 - 8);
     y_axis_label(f, 14, T + P / 2, "accuracy (share right)");
     y_axis_label(f, 14, T + P + gap + S / 2, "events");
     fprintf(f, "<text class=\"tick\" x=\"%.1f\" y=\"%.1f\" text-anchor=\"end\">%lld</text>\n",

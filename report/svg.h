@@ -53,9 +53,11 @@ typedef struct cc_svg_heatmap {
 
 void cc_svg_heatmap_chart(FILE *f, const cc_svg_heatmap *h);
 
-/* Shares per window stacked to 1 (k classes). */
+/* Shares per window stacked to 1 (k classes). The windows base_from..base_to
+ * (indices; -1 without a baseline) are hatched over and bracketed "baseline". */
 void cc_svg_stacked_chart(FILE *f, const char *id, int n, const char *const *x_labels,
-                          const char *x_label, int k, char *const *names, const double *shares);
+                          const char *x_label, int k, char *const *names, const double *shares,
+                          int base_from, int base_to);
 
 /* Grouped vertical bars: groups (classes) x series, values are shares 0..1. */
 void cc_svg_grouped_bars(FILE *f, const char *id, int groups, char *const *group_names,

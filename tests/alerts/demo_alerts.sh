@@ -48,7 +48,10 @@ bad = []
 def outcome(d, rule): return days[d][rule]["outcome"]
 def state(d, rule): return days[d][rule]["state"]
 fog, mix, retrain = range(9, 12), range(16, 29), range(23, 29)
-clean = list(range(1, 9)) + list(range(12, 16))
+# days 14-15: one member runs an old model (the fourth incident); no rule of this
+# set watches a single member, and score drift (per-class KS on the averaged
+# output) fires on day 15, so those days are neither clean nor asserted here
+clean = list(range(1, 9)) + [12, 13]
 # the incidents fire their rules on their first day and keep them firing
 if outcome(9, "disagreement-spike") != "fired": bad.append("fog day 9: disagreement-spike did not fire")
 bad += [f"fog day {d}: disagreement-spike {state(d, 'disagreement-spike')}" for d in fog

@@ -1,6 +1,10 @@
 #!/usr/bin/env bash
-# demo_incidents.sh — `concord demo`'s report shows the three injected
-# incidents on their days and nowhere else.
+# demo_incidents.sh — `concord demo` writes its files and its report shows the
+# four injected incidents on their days and nowhere else: the fogged camera
+# (days 9-11), member 'size' running an old model alone (days 14-15), the
+# late-season grade mix (from day 16) and the retrain into near copies (from
+# day 23). The bounds are the generator's (examples/packhouse.c) effects with
+# wide margins: common practice, not a published reference.
 # Usage: demo_incidents.sh CONCORD
 set -euo pipefail
 CONCORD=$1
@@ -9,6 +13,7 @@ trap 'rm -rf "$T"' EXIT
 "$CONCORD" demo --dir "$T" > "$T/out.txt"
 grep -q 'INVENTED' "$T/out.txt"
 grep -q 'fogged camera' "$T/out.txt"
+grep -q "old model file   2026-10-18..2026-10-19  member 'size' alone" "$T/out.txt"
 [ -s "$T/report.json" ] && [ -s "$T/report.txt" ]
 python3 - "$T/report.json" <<'PY'
 import json, sys
@@ -26,10 +31,33 @@ dis0 = mean([x["diversity"]["disagreement"]["mean"] for x in base])
 def low_share(x):  # share of the three lowest grades among predictions
     c = x["class_counts"]; return sum(c[3:]) / sum(c)
 low0 = mean([low_share(x) for x in base])
+SIZE = r["members"].index("size")
+def member_dis(x, m):  # a member's mean disagreement with each of the others
+    p = x["diversity"]["disagreement"]["pairs"]; return mean([p[m][j] for j in range(len(p)) if j != m])
+acc_size0 = mean([x["accuracy"]["members"][SIZE] for x in base])
+dis_size0 = mean([member_dis(x, SIZE) for x in base])
+acc0 = mean([x["accuracy"]["ensemble"] for x in base])
 bad = []
 for day, x in enumerate(w, 1):
     mi = x["uncertainty"]["mutual_information"]; dis = x["diversity"]["disagreement"]["mean"]
-    fog, late, copies = 9 <= day <= 11, day >= 16, day >= 23
+    fog, late, copies, broken = 9 <= day <= 11, day >= 16, day >= 23, 14 <= day <= 15
+    # the old model file: 'size' alone loses accuracy (about 0.83 -> 0.69) and disagrees
+    # with the others more (about 0.26 -> 0.33); fog and retrain move every member
+    if not (fog or copies):
+        a = x["accuracy"]["members"][SIZE]; md = member_dis(x, SIZE)
+        if broken != (a < acc_size0 - 0.08): bad.append(f"day {day}: size's accuracy {a:.3f} vs baseline {acc_size0:.3f}")
+        if broken != (md > dis_size0 + 0.04): bad.append(f"day {day}: size's disagreement {md:.3f} vs baseline {dis_size0:.3f}")
+        others = [m for m in range(len(r["members"])) if m != SIZE]
+        if broken and max(x["accuracy"]["members"][m] for m in others) < a + 0.08:
+            bad.append(f"day {day}: size is not the member that broke")
+    if broken:
+        # the ensemble moves little: its accuracy within 0.05 of the baseline's, mutual
+        # information below 1.2 times the baseline's, its class mix unmoved (PSI < 0.05)
+        if x["accuracy"]["ensemble"] < acc0 - 0.05: bad.append(f"day {day}: ensemble accuracy {x['accuracy']['ensemble']:.3f} vs {acc0:.3f}")
+        if mi > 1.2 * mi0: bad.append(f"day {day}: mutual information {mi:.3f} vs baseline {mi0:.3f}")
+        if x["drift"]["class_mix"]["psi"] > 0.05: bad.append(f"day {day}: class-mix PSI {x['drift']['class_mix']['psi']:.3f}")
+        # the member's own answers lean a grade lower: its PSI against its baseline rises
+        if x["drift"]["members_psi"][SIZE] < 0.015: bad.append(f"day {day}: size's PSI {x['drift']['members_psi'][SIZE]:.3f}")
     if fog != (mi > 2 * mi0): bad.append(f"day {day}: mutual information {mi:.3f} vs baseline {mi0:.3f}")
     if copies != (dis < 0.3 * dis0): bad.append(f"day {day}: disagreement {dis:.3f} vs baseline {dis0:.3f}")
     if late != (low_share(x) > low0 + 0.15): bad.append(f"day {day}: low-grade share {low_share(x):.3f} vs {low0:.3f}")
@@ -49,12 +77,14 @@ for day, x in enumerate(w, 1):
         v = x["label_shift"][est]
         l1 = sum(abs(a - b) for a, b in zip(v, truth))
         if l1 > 0.15: bad.append(f"day {day}: {est} L1 {l1:.3f} from the true mix")
-    # mutual information spike is also a score drift: KS on MI flags the fog days
+    # a change of the members' spread is also a score drift: KS on MI flags the fog,
+    # the broken member and the retrain days (1,500 events make small moves significant)
     ks_p = x["drift"]["mutual_information"]["p_value"]
-    if (fog or copies) != (ks_p < 0.001): bad.append(f"day {day}: KS on mutual information p {ks_p:.3g}")
+    if (fog or copies or broken) != (ks_p < 0.001): bad.append(f"day {day}: KS on mutual information p {ks_p:.3g}")
 for b in bad: print("FAIL:", b)
 assert not bad
-print(f"demo_incidents: per-day checks ok (baseline MI {mi0:.3f}, disagreement {dis0:.3f})")
+print(f"demo_incidents: per-day checks ok (baseline MI {mi0:.3f}, disagreement {dis0:.3f}; "
+      f"size's accuracy {acc_size0:.3f}, its disagreement {dis_size0:.3f})")
 PY
 # over the whole late-season period the label-shift estimates recover the generator's mix
 "$CONCORD" report --db "$T/demo.db" --model apple-grader --from 2026-10-20 --to 2026-11-01 --by all \
