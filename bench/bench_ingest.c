@@ -238,10 +238,8 @@ static void phase_report(const bench *b, phase_out *out, int by)
             out->m = r->model->m;
             out->k = r->model->k;
             out->json_bytes = strlen(json);
-            for (int w = 0; w < r->n_windows; w++) {
-                const cc_summary *sum = r->windows[w].summary;
-                out->report_events += cc_summary_data(sum)[cc_summary_layout(sum)->n_events];
-            }
+            for (int w = 0; w < r->n_windows; w++)
+                out->report_events += r->windows[w].metrics.events;
         }
         free(json);
         cc_report_free(r);
