@@ -28,6 +28,7 @@ static void usage(FILE *f)
           "  --start DATE       first day, YYYY-MM-DD (default 2026-11-02)\n"
           "  --seed S           random seed, unsigned integer (default 1)\n"
           "  --label-share F    fraction of events with a \"label\" (default 0.3)\n"
+          "  --random-ids       ids like random UUIDs, in no order (default: e0000001...)\n"
           "  -o, --output FILE  write to FILE instead of standard output\n"
           "  -h, --help         show this text\n",
           f);
@@ -57,6 +58,10 @@ int main(int argc, char **argv)
         if (!strcmp(a, "-h") || !strcmp(a, "--help")) {
             usage(stdout);
             return 0;
+        }
+        if (!strcmp(a, "--random-ids")) {
+            o.random_ids = 1;
+            continue;
         }
         const char *name = a, *val = NULL;
         char key[32];

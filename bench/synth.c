@@ -111,6 +111,25 @@ static char *put_digits(char *p, uint64_t v, int width)
     return p;
 }
 
+/* 8-4-4-4-12 hex digits from a hash of (seed, i): unique per event and in no
+ * order, like the random request ids of a production log. Kept off the
+ * generator's stream so every other byte is the same as with ordered ids. */
+static char *put_uuid_like(char *p, uint64_t seed, uint64_t i)
+{
+    static const char hex[] = "0123456789abcdef";
+    uint64_t state = seed * 0x9E3779B97F4A7C15ull ^ i, h[2];
+    /* the first half is a bijection of i for a fixed seed: ids never repeat */
+    h[0] = state * 0xD1B54A32D192ED03ull;
+    h[0] ^= h[0] >> 29;
+    h[1] = splitmix64(&state);
+    for (int d = 0; d < 32; d++) {
+        if (d == 8 || d == 12 || d == 16 || d == 20)
+            *p++ = '-';
+        *p++ = hex[(h[d / 16] >> (60 - 4 * (d % 16))) & 15];
+    }
+    return p;
+}
+
 static char *put_str(char *p, const char *s)
 {
     size_t n = strlen(s);
@@ -152,7 +171,7 @@ int cc_synth_write(FILE *out, const cc_synth_opts *o)
     int id_width = 7;
     for (int64_t v = o->n; v >= 10000000; v /= 10)
         id_width++;
-    size_t max_line = 128 + (size_t)id_width + (size_t)m * ((size_t)k * 8 + 3);
+    size_t max_line = 128 + 36 + (size_t)id_width + (size_t)m * ((size_t)k * 8 + 3);
     size_t cap = max_line * 4 > (1u << 20) ? max_line * 4 : (1u << 20);
     char *buf = malloc(cap);
     double *bias = malloc((size_t)m * (size_t)k * sizeof *bias);
@@ -205,8 +224,13 @@ int cc_synth_write(FILE *out, const cc_synth_opts *o)
         shared[truth] += margin;
         shared[rival] += pull;
 
-        p = put_str(p, "{\"id\":\"e");
-        p = put_digits(p, (uint64_t)i + 1, id_width);
+        if (o->random_ids) {
+            p = put_str(p, "{\"id\":\"");
+            p = put_uuid_like(p, o->seed, (uint64_t)i);
+        } else {
+            p = put_str(p, "{\"id\":\"e");
+            p = put_digits(p, (uint64_t)i + 1, id_width);
+        }
         p = put_str(p, "\",\"ts\":\"");
         p = put_str(p, date);
         *p++ = 'T';

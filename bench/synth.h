@@ -18,6 +18,8 @@ typedef struct cc_synth_opts {
     uint64_t seed;
     double label_share; /* fraction of events carrying "label" */
     int64_t start_day;  /* UTC day number of the first day */
+    int random_ids;     /* 1: ids look like random UUIDs (36 characters, no order);
+                           0: "e" and the event's number (ascending) */
 } cc_synth_opts;
 
 /* n = 1,000,000, 5 members, 10 classes, 28 days, seed 1, label share 0.3,

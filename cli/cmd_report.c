@@ -1,4 +1,4 @@
-/* cmd_report.c — `concord report`: windows of stored summaries as text or JSON. */
+/* cmd_report.c — `concord report`: windows of stored summaries as text, JSON or HTML. */
 #include <errno.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -145,14 +145,36 @@ int cmd_report(int argc, char **argv)
     cc_store *store = NULL;
     cc_report *r = NULL;
     int rc = EXIT_OK;
-    if (cc_store_open(&store, db, 0, &err) || cc_report_build(&r, store, &ro, &err)) {
+    if (cc_store_open(&store, db, 0, &err))
+        return cli_fail(&err);
+    if (!html) {
+        /* text and JSON are written window by window as they are computed */
+        FILE *f = out ? fopen(out, "w") : stdout;
+        if (!f) {
+            fprintf(stderr, "concord report: %s: cannot write: %s\n", out, strerror(errno));
+            cc_store_close(store);
+            return EXIT_IO;
+        }
+        if ((json ? cc_report_write_json(f, store, &ro, &err)
+                  : cc_report_write_text(f, store, &ro, &err)) != 0)
+            rc = cli_fail(&err);
+        else if (json)
+            fputc('\n', f);
+        if ((out ? fclose(f) : fflush(f)) != 0 && rc == EXIT_OK) {
+            fprintf(stderr, "concord report: %s: write failed: %s\n", out ? out : "<stdout>",
+                    strerror(errno));
+            rc = EXIT_IO;
+        }
+        if (rc != EXIT_OK && out)
+            remove(out); /* not a partial report */
+        cc_store_close(store);
+        return rc;
+    }
+    if (cc_report_build(&r, store, &ro, &err)) {
         rc = cli_fail(&err);
     } else {
         char *text = NULL;
-        if (html)
-            rc = cli_report_html(store, r, !cli_get(opts, n_opts, "no-review"), NULL, &text);
-        else
-            text = json ? cc_report_json(r) : cc_report_text(r);
+        rc = cli_report_html(store, r, !cli_get(opts, n_opts, "no-review"), NULL, &text);
         if (rc != EXIT_OK) {
             cc_report_free(r);
             cc_store_close(store);
@@ -167,8 +189,6 @@ int cmd_report(int argc, char **argv)
             rc = EXIT_IO;
         } else {
             fputs(text, f);
-            if (json)
-                fputc('\n', f);
             if ((out ? fclose(f) : fflush(f)) != 0) {
                 fprintf(stderr, "concord report: %s: write failed: %s\n",
                         out ? out : "<stdout>", strerror(errno));

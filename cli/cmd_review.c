@@ -117,22 +117,6 @@ static int parse_where(const char *where, const cc_model *m, cc_review_opts *o)
     return 0;
 }
 
-static int write_out(const char *command, const char *out, const char *text)
-{
-    FILE *f = out ? fopen(out, "w") : stdout;
-    if (!f) {
-        fprintf(stderr, "concord %s: %s: cannot write: %s\n", command, out, strerror(errno));
-        return EXIT_IO;
-    }
-    fputs(text, f);
-    if ((out ? fclose(f) : fflush(f)) != 0) {
-        fprintf(stderr, "concord %s: %s: write failed: %s\n", command, out ? out : "<stdout>",
-                strerror(errno));
-        return EXIT_IO;
-    }
-    return EXIT_OK;
-}
-
 int cmd_review(int argc, char **argv)
 {
     cli_opt opts[] = {{"db", 0, 1, NULL},      {"model", 0, 1, NULL},  {"from", 0, 1, NULL},
@@ -172,6 +156,7 @@ int cmd_review(int argc, char **argv)
     else if (format && strcmp(format, "text") != 0)
         return cli_usage("review", "--format must be text, json or csv, not '%s'", format);
     ro.segment = cli_get(opts, n_opts, "segment");
+    ro.deferred = 1;
 
     cc_error err = CC_ERROR_INIT;
     cc_store *store = NULL;
@@ -185,24 +170,28 @@ int cmd_review(int argc, char **argv)
     } else if (cc_review_run(&rv, store, m, &ro, &err)) {
         rc = cli_fail(&err);
     } else {
-        char *text = fmt == JSON ? cc_review_json(rv, m)
-                     : fmt == CSV ? cc_review_csv(rv, m)
-                                  : cc_review_text(rv, m);
-        if (!text) {
-            fprintf(stderr, "concord review: out of memory\n");
+        /* events are read and written one at a time (deferred review) */
+        const char *out = cli_get(opts, n_opts, "output");
+        FILE *f = out ? fopen(out, "w") : stdout;
+        if (!f) {
+            fprintf(stderr, "concord review: %s: cannot write: %s\n", out, strerror(errno));
             rc = EXIT_IO;
         } else {
-            if (fmt == JSON) {
-                size_t n = strlen(text);
-                char *grown = realloc(text, n + 2);
-                if (grown) {
-                    text = grown;
-                    memcpy(text + n, "\n", 2);
-                }
+            int wrc = fmt == JSON ? cc_review_write_json(f, rv, m, &err)
+                      : fmt == CSV ? cc_review_write_csv(f, rv, m, &err)
+                                   : cc_review_write_text(f, rv, m, &err);
+            if (!wrc && fmt == JSON)
+                fputc('\n', f);
+            if (wrc && !ferror(f))
+                rc = cli_fail(&err);
+            if ((out ? fclose(f) : fflush(f)) != 0 || (wrc && rc == EXIT_OK)) {
+                fprintf(stderr, "concord review: %s: write failed: %s\n",
+                        out ? out : "<stdout>", strerror(errno));
+                rc = EXIT_IO;
             }
-            rc = write_out("review", cli_get(opts, n_opts, "output"), text);
+            if (rc != EXIT_OK && out)
+                remove(out); /* not a partial review */
         }
-        free(text);
     }
     cc_review_free(rv);
     cc_model_free(m);

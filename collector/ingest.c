@@ -15,9 +15,15 @@
 #include "testpoint.h"
 #include "summary.h"
 
+/* A day's summary changes not yet added to the store. The deltas held at
+ * once are bounded by opts.delta_budget bytes: past it, the least recently
+ * used day's delta is added to the store inside the open transaction and its
+ * buffer serves the new day (so a batch's rows and summary changes still
+ * commit together). */
 typedef struct day_delta {
     int64_t day;
     cc_summary *delta;
+    uint64_t used;   /* ing->clock when last touched, for LRU eviction */
     int dirty;
 } day_delta;
 
@@ -25,6 +31,7 @@ typedef struct model_state {
     cc_model *model;
     day_delta *days;
     int n_days, cap_days, last;
+    size_t delta_bytes; /* one summary of this model's shape */
     float *probs; /* m*k scratch */
 } model_state;
 
@@ -45,6 +52,8 @@ struct cc_ingest {
     int in_tx;
     int64_t since_commit;
     int64_t now; /* arrival time given to delayed labels */
+    uint64_t clock;     /* ticks on every delta lookup */
+    size_t held_bytes;  /* deltas allocated over all models */
     cc_event_view view; /* scratch: the event being taken (several KiB) */
     strict_reject *held;
     size_t n_held, cap_held;
@@ -81,6 +90,8 @@ int cc_ingest_create(cc_ingest **out, cc_store *store, const cc_ingest_opts *opt
         ing->opts.model = "default";
     if (ing->opts.batch < 1)
         ing->opts.batch = 20000;
+    if (ing->opts.delta_budget == 0)
+        ing->opts.delta_budget = CC_INGEST_DELTA_BUDGET;
     ing->now = opts->now > 0 ? opts->now : (int64_t)time(NULL);
     int rc = begin(ing, err);
     if (rc) {
@@ -170,32 +181,98 @@ static model_state *model_for(cc_ingest *ing, const char *name, int m, int k, ch
     memset(ms, 0, sizeof *ms);
     ms->model = model;
     ms->probs = probs;
+    cc_layout lay;
+    cc_layout_init(&lay, model->m, model->k);
+    ms->delta_bytes = lay.len * sizeof(int64_t);
     return ms;
 }
 
-static cc_summary *delta_for(model_state *ms, int64_t day)
+/* Adds a held delta to the store (inside the open transaction) and zeroes it. */
+static int delta_flush(cc_ingest *ing, model_state *ms, day_delta *dd, cc_error *err)
 {
-    if (ms->last < ms->n_days && ms->days[ms->last].day == day)
+    if (!dd->dirty)
+        return 0;
+    int rc = cc_store_summary_add(ing->store, ms->model, dd->day, dd->delta, err);
+    if (rc)
+        return rc;
+    cc_summary_clear(dd->delta);
+    dd->dirty = 0;
+    return 0;
+}
+
+/* Makes room for one more delta of ms's shape: while the budget would be
+ * exceeded, the least recently used delta of any model is flushed; one of
+ * ms's own is kept for reuse (*reuse), others are freed. At least one delta
+ * is always allowed, whatever the budget. */
+static int make_room(cc_ingest *ing, model_state *ms, day_delta **reuse, cc_error *err)
+{
+    *reuse = NULL;
+    while (ing->held_bytes > 0 && ing->held_bytes + ms->delta_bytes > ing->opts.delta_budget) {
+        model_state *owner = NULL;
+        int at = -1;
+        for (int i = 0; i < ing->n_models; i++)
+            for (int j = 0; j < ing->models[i].n_days; j++)
+                if (!owner || ing->models[i].days[j].used < owner->days[at].used) {
+                    owner = &ing->models[i];
+                    at = j;
+                }
+        int rc = delta_flush(ing, owner, &owner->days[at], err);
+        if (rc)
+            return rc;
+        if (owner == ms) {
+            *reuse = &ms->days[at];
+            return 0;
+        }
+        cc_summary_free(owner->days[at].delta);
+        owner->days[at] = owner->days[--owner->n_days];
+        owner->last = 0;
+        ing->held_bytes -= owner->delta_bytes;
+    }
+    return 0;
+}
+
+/* The held delta of (ms, day), made when absent; NULL with err set on a
+ * store failure or out of memory. */
+static cc_summary *delta_for(cc_ingest *ing, model_state *ms, int64_t day, cc_error *err)
+{
+    ing->clock++;
+    if (ms->last < ms->n_days && ms->days[ms->last].day == day) {
+        ms->days[ms->last].used = ing->clock;
         return ms->days[ms->last].delta;
+    }
     for (int i = 0; i < ms->n_days; i++)
         if (ms->days[i].day == day) {
             ms->last = i;
+            ms->days[i].used = ing->clock;
             return ms->days[i].delta;
         }
-    if (ms->n_days == ms->cap_days) {
-        int cap = ms->cap_days ? 2 * ms->cap_days : 8;
-        day_delta *grown = realloc(ms->days, (size_t)cap * sizeof *grown);
-        if (!grown)
-            return NULL;
-        ms->days = grown;
-        ms->cap_days = cap;
-    }
-    cc_summary *d = cc_summary_create(ms->model->m, ms->model->k);
-    if (!d)
+    day_delta *dd;
+    if (make_room(ing, ms, &dd, err))
         return NULL;
-    ms->days[ms->n_days] = (day_delta){day, d, 0};
-    ms->last = ms->n_days++;
-    return d;
+    if (!dd) {
+        if (ms->n_days == ms->cap_days) {
+            int cap = ms->cap_days ? 2 * ms->cap_days : 8;
+            day_delta *grown = realloc(ms->days, (size_t)cap * sizeof *grown);
+            if (!grown)
+                goto oom;
+            ms->days = grown;
+            ms->cap_days = cap;
+        }
+        cc_summary *d = cc_summary_create(ms->model->m, ms->model->k);
+        if (!d)
+            goto oom;
+        dd = &ms->days[ms->n_days++];
+        dd->delta = d;
+        ing->held_bytes += ms->delta_bytes;
+    }
+    dd->day = day;
+    dd->used = ing->clock;
+    dd->dirty = 0;
+    ms->last = (int)(dd - ms->days);
+    return dd->delta;
+oom:
+    cc_error_set(err, CC_ENOMEM, "out of memory");
+    return NULL;
 }
 
 static void mark_dirty(model_state *ms) { ms->days[ms->last].dirty = 1; }
@@ -205,14 +282,9 @@ static int flush(cc_ingest *ing, cc_error *err)
     for (int i = 0; i < ing->n_models; i++) {
         model_state *ms = &ing->models[i];
         for (int j = 0; j < ms->n_days; j++) {
-            day_delta *dd = &ms->days[j];
-            if (!dd->dirty)
-                continue;
-            int rc = cc_store_summary_add(ing->store, ms->model, dd->day, dd->delta, err);
+            int rc = delta_flush(ing, ms, &ms->days[j], err);
             if (rc)
                 return rc;
-            cc_summary_clear(dd->delta);
-            dd->dirty = 0;
         }
     }
     return 0;
@@ -291,9 +363,9 @@ static int apply_label(cc_ingest *ing, model_state *ms, const char *id, int id_l
         ing->stats.labels_unchanged++;
         return 0;
     }
-    cc_summary *d = delta_for(ms, ev.day);
+    cc_summary *d = delta_for(ing, ms, ev.day, err);
     if (!d)
-        return cc_error_set(err, CC_ENOMEM, "out of memory");
+        return -1;
     if (ev.label >= 0) {
         cc_summary_add_labeled(d, ms->probs, ev.label, -1);
         ing->stats.labels_changed++;
@@ -366,9 +438,9 @@ static int take_event(cc_ingest *ing, const char *source, const cc_line *ln, cc_
         ing->stats.duplicates++;
         return 0;
     }
-    cc_summary *d = delta_for(ms, cc_day_of_unix(ev.ts));
+    cc_summary *d = delta_for(ing, ms, cc_day_of_unix(ev.ts), err);
     if (!d)
-        return cc_error_set(err, CC_ENOMEM, "out of memory");
+        return -1;
     cc_summary_add_unlabeled_view(d, view, ms->probs, 1);
     if (label >= 0)
         cc_summary_add_labeled_view(d, view, ms->probs, 1);

@@ -3,7 +3,10 @@
  * Events and labels are written in batches; each batch is one transaction
  * holding the event rows, the label updates and the per-day summary deltas
  * they cause, so a crash at any point leaves rows and summaries consistent,
- * and re-reading the same file adds nothing twice (ids are unique per model). */
+ * and re-reading the same file adds nothing twice (ids are unique per model).
+ * Memory does not grow with the days a run touches: summary deltas are held
+ * for a bounded number of recently used days (see delta_budget) and the
+ * others are added to the store early, inside the same transaction. */
 #ifndef CC_COLLECTOR_INGEST_H
 #define CC_COLLECTOR_INGEST_H
 
@@ -30,9 +33,15 @@ typedef struct cc_ingest_opts {
     cc_reject_fn on_reject;
     void *payload;
     int64_t now;                /* Unix time delayed labels arrive at; 0 = the clock */
+    size_t delta_budget;        /* bytes of day-summary deltas held at once; 0 = default */
 } cc_ingest_opts;
 
-#define CC_INGEST_OPTS_INIT {"default", NULL, 0, NULL, 0, 0, 20000, NULL, NULL, 0}
+/* Default bound on the per-day summary deltas an ingest holds in memory:
+ * about 140 days at 5 members x 10 classes (224 KiB each), 2 days at the
+ * largest shape, 64 x 256 (15.3 MiB each). At least one day is always held. */
+#define CC_INGEST_DELTA_BUDGET ((size_t)32 << 20)
+
+#define CC_INGEST_OPTS_INIT {"default", NULL, 0, NULL, 0, 0, 20000, NULL, NULL, 0, 0}
 
 typedef struct cc_ingest_stats {
     int64_t lines;              /* non-blank lines read */

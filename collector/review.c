@@ -133,6 +133,13 @@ struct cc_review {
     cc_review_summary sum;
     int64_t *pair_counts;   /* k * k, [a * k + b], a < b */
     list lists[CC_REVIEW_KINDS];
+    /* deferred: each list's candidates, best first; events are read one at
+     * a time by cc_review_each inside the read transaction kept open */
+    heap kept[CC_REVIEW_KINDS];
+    cc_store *store;
+    const cc_model *model;
+    sqlite3_stmt *fetch;
+    int own_txn;
 };
 
 static int wants(const cc_review_opts *o, cc_review_where w) { return (o->lists >> w) & 1u; }
@@ -169,7 +176,11 @@ void cc_review_free(cc_review *rv)
         for (int i = 0; i < rv->lists[w].n; i++)
             event_clear(&rv->lists[w].events[i]);
         free(rv->lists[w].events);
+        heap_clear(&rv->kept[w]);
     }
+    sqlite3_finalize(rv->fetch);
+    if (rv->own_txn && !sqlite3_get_autocommit(cc_store_db(rv->store)))
+        sqlite3_exec(cc_store_db(rv->store), "COMMIT", NULL, NULL, NULL);
     free(rv->segment);
     free(rv);
 }
@@ -186,10 +197,10 @@ const cc_review_event *cc_review_get_list(const cc_review *rv, cc_review_where w
             *matched = 0;
         return NULL;
     }
-    *n = rv->lists[w].n;
+    *n = rv->opts.deferred ? rv->kept[w].n : rv->lists[w].n;
     if (matched)
         *matched = rv->lists[w].matched;
-    return rv->lists[w].events;
+    return rv->opts.deferred ? NULL : rv->lists[w].events;
 }
 
 static int db_fail(cc_store *s, cc_error *err, const char *what)
@@ -258,6 +269,33 @@ int cc_review_event_get(cc_store *s, const cc_model *m, const char *id, cc_revie
     }
     *out = e;
     return 0;
+}
+
+int cc_review_each(cc_review *rv, cc_review_where w, cc_review_event_fn fn, void *payload,
+                   cc_error *err)
+{
+    int n;
+    const cc_review_event *ev = cc_review_get_list(rv, w, &n, NULL);
+    if (!rv->opts.deferred) {
+        for (int i = 0; i < n; i++)
+            if (fn(payload, i + 1, &ev[i]))
+                return cc_error_set(err, CC_EIO, "review: the event writer stopped");
+        return 0;
+    }
+    int rank = 0, rc = 0;
+    for (int i = 0; !rc && i < n; i++) {
+        cc_review_event e;
+        int found;
+        memset(&e, 0, sizeof e);
+        e.id = rv->kept[w].v[i].id;
+        rc = fetch(rv->fetch, rv->store, rv->model, &e, &found, err);
+        if (!rc && found && fn(payload, ++rank, &e))
+            rc = cc_error_set(err, CC_EIO, "review: the event writer stopped");
+        e.id = NULL; /* still the candidate's */
+        event_clear(&e);
+    }
+    sqlite3_reset(rv->fetch);
+    return rc;
 }
 
 static int pair_cmp(const void *a, const void *b)
@@ -530,12 +568,25 @@ int cc_review_run(cc_review **out, cc_store *s, const cc_model *m, const cc_revi
             heap *per = w == CC_REVIEW_HELPED ? st.helped : st.hurt;
             h = per && sum->best_member >= 0 ? &per[sum->best_member] : NULL;
         }
-        if (h && h->cap)
+        if (h && h->cap && o->deferred) {
+            /* keep the ranked ids only; the heap's memory moves to rv */
+            qsort(h->v, (size_t)h->n, sizeof *h->v, cand_cmp);
+            rv->kept[w] = *h;
+            memset(h, 0, sizeof *h);
+        } else if (h && h->cap) {
             rc = materialize(rv, (cc_review_where)w, h, fq, s, m, err);
+        }
     }
-    sqlite3_finalize(fq);
-    if (own_txn && !sqlite3_get_autocommit(db))
-        sqlite3_exec(db, rc ? "ROLLBACK" : "COMMIT", NULL, NULL, NULL);
+    if (!rc && o->deferred) {
+        rv->fetch = fq;
+        rv->store = s;
+        rv->model = m;
+        rv->own_txn = own_txn;
+    } else {
+        sqlite3_finalize(fq);
+        if (own_txn && !sqlite3_get_autocommit(db))
+            sqlite3_exec(db, rc ? "ROLLBACK" : "COMMIT", NULL, NULL, NULL);
+    }
 
     for (int w = 0; w < CC_REVIEW_KINDS; w++)
         heap_clear(&st.plain[w]);

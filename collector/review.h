@@ -39,9 +39,12 @@ typedef struct cc_review_opts {
     unsigned lists;       /* (1u << where) for each list to keep */
     int limit;            /* events kept per list, >= 0 */
     int pair_a, pair_b;   /* classes for CC_REVIEW_PAIR */
+    int deferred;         /* 1: keep each list's ranked ids only and read the events
+                             one at a time in cc_review_each (memory: about 50 bytes
+                             per kept id instead of a few KiB per event) */
 } cc_review_opts;
 
-#define CC_REVIEW_OPTS_INIT {0, 0, NULL, 1u << CC_REVIEW_WRONG, 20, -1, -1}
+#define CC_REVIEW_OPTS_INIT {0, 0, NULL, 1u << CC_REVIEW_WRONG, 20, -1, -1, 0}
 
 typedef struct cc_review_event {
     char *id;
@@ -88,6 +91,16 @@ const cc_review_summary *cc_review_get_summary(const cc_review *rv);
  * for); *matched, if not NULL, gets how many events of the range qualified. */
 const cc_review_event *cc_review_get_list(const cc_review *rv, cc_review_where w, int *n,
                                           int64_t *matched);
+
+/* Calls fn for each event of list w, best first (rank from 1); fn returns
+ * 0 to go on. In a deferred review each event is read by id just before
+ * the call and freed after it (the review keeps its read transaction open
+ * until cc_review_free, so the events are those of the scanned snapshot);
+ * cc_review_get_list then returns NULL with the list's length in *n.
+ * Returns 0, a database error, or an error when fn stopped. */
+typedef int (*cc_review_event_fn)(void *payload, int rank, const cc_review_event *e);
+int cc_review_each(cc_review *rv, cc_review_where w, cc_review_event_fn fn, void *payload,
+                   cc_error *err);
 
 /* One event by id, or -CC_ENOTFOUND. Free with cc_review_event_free. */
 int cc_review_event_get(cc_store *s, const cc_model *m, const char *id, cc_review_event **out,

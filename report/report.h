@@ -5,6 +5,7 @@
 #define CC_REPORT_REPORT_H
 
 #include <stdint.h>
+#include <stdio.h>
 
 #include "compare.h"
 #include "control.h"
@@ -23,7 +24,11 @@ typedef struct cc_report_opts {
 
 typedef struct cc_report_window {
     int64_t from, to;           /* days */
-    cc_summary *summary;
+    cc_summary *summary;        /* merged days; only while a cc_report_stream callback
+                                   runs (NULL in a built report, see cc_report.range) */
+    int64_t *counts;            /* 2k: predicted-class counts (metrics.class_counts
+                                   points here), then label counts */
+    const int64_t *label_counts; /* counts + k: labelled events per true class */
     cc_window_metrics metrics;
     cc_comparison cmp;          /* against the baseline (has_baseline = 0 without one) */
     double *z;                  /* cc_tracked_count(): z-score against the baseline days */
@@ -38,15 +43,37 @@ typedef struct cc_report {
     cc_summary *baseline;       /* merged baseline summary, NULL without one */
     cc_baseline_stat *stats;    /* cc_tracked_count(): the baseline days' mean and sd */
     cc_grouping by;
-    cc_report_window *windows;
-    int n_windows;
+    cc_report_window *windows;  /* cc_report_build only; none when streamed */
+    int n_windows, cap_windows;
+    cc_summary *range;          /* cc_report_build only: all windows merged */
 } cc_report;
 
-/* Builds the report; *out is NULL on error. An unknown model is
- * -CC_ENOTFOUND. A range without events yields zero windows, not an error. */
+/* Builds the report with every window's figures kept (summaries are not:
+ * each window's is merged into r->range and dropped); *out is NULL on error.
+ * An unknown model is -CC_ENOTFOUND. A range without events yields zero
+ * windows, not an error. Memory grows with the number of windows by their
+ * figures (pair matrices: about 6 x 8 x m^2 bytes each), not their summaries. */
 int cc_report_build(cc_report **out, cc_store *store, const cc_report_opts *opts,
                     cc_error *err);
 void cc_report_free(cc_report *r);
+
+/* Called once with w = NULL when the head of r (model, baseline) is ready,
+ * then once per window in date order. w is the callback's during the call:
+ * it may move members out (leaving NULL behind); whatever is left, and
+ * w->summary, is freed or reused after it returns. Return 0 to go on, a
+ * positive value for out of memory, or a negative error code (with the
+ * payload's own message) to stop. */
+typedef int (*cc_report_window_fn)(void *payload, const cc_report *r, cc_report_window *w);
+
+/* The same windows as cc_report_build, handed to fn one at a time, so a
+ * caller that renders each window and lets it go needs memory for one
+ * window whatever the number of days. *out is the head, with no windows. */
+int cc_report_stream(cc_report **out, cc_store *store, const cc_report_opts *opts,
+                     cc_report_window_fn fn, void *payload, cc_error *err);
+
+/* Frees what a window owns and zeroes it (for windows moved out of a
+ * cc_report_stream callback). */
+void cc_report_window_free(cc_report_window *w);
 
 /* Renderings; malloc'd NUL-terminated text, NULL on out of memory. */
 char *cc_report_json(const cc_report *r);
@@ -55,6 +82,15 @@ char *cc_report_json(const cc_report *r);
  * cJSON_Delete), for readers that look figures up by path (alerts). */
 struct cJSON *cc_report_window_json(const cc_report *r, int i);
 char *cc_report_text(const cc_report *r);
+
+/* The JSON or text rendering of the report opts asks for, built with
+ * cc_report_stream and written to out window by window: the same bytes as
+ * cc_report_json (without its final newline) or cc_report_text of
+ * cc_report_build, in memory bounded by one window's figures (text keeps
+ * its tables' rows, a few hundred bytes per window and class). Returns
+ * cc_report_build's errors; write errors are left in out (ferror). */
+int cc_report_write_json(FILE *out, cc_store *store, const cc_report_opts *opts, cc_error *err);
+int cc_report_write_text(FILE *out, cc_store *store, const cc_report_opts *opts, cc_error *err);
 
 /* The HTML page's inputs besides the report. alerts: lines for the status
  * line, when the caller evaluated alert rules (alerts_known = 1); review:

@@ -111,9 +111,9 @@ static void fmt_num(FILE *f, double x, int digits)
         fputs("&ndash;", f);
 }
 
-/* The report's range as one window, merged from its windows. */
+/* The report's range as one window (its windows merged, borrowed). */
 typedef struct whole {
-    cc_summary *sum;
+    const cc_summary *sum;
     cc_window_metrics wm;
     cc_comparison cmp;
     int ok;
@@ -124,10 +124,7 @@ static int whole_build(whole *w, const cc_report *r)
     memset(w, 0, sizeof *w);
     if (r->n_windows == 0)
         return 0;
-    if (!(w->sum = cc_summary_create(r->model->m, r->model->k)))
-        return -1;
-    for (int i = 0; i < r->n_windows; i++)
-        cc_summary_merge(w->sum, r->windows[i].summary);
+    w->sum = r->range;
     if (cc_window_metrics_compute(&w->wm, w->sum))
         return -1;
     if (cc_comparison_compute(&w->cmp, w->sum, r->has_baseline ? r->baseline : NULL)) {
@@ -144,7 +141,6 @@ static void whole_free(whole *w)
         cc_window_metrics_free(&w->wm);
         cc_comparison_free(&w->cmp);
     }
-    cc_summary_free(w->sum);
 }
 
 typedef struct page {

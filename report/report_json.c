@@ -3,6 +3,7 @@
 #include <cjson/cJSON.h>
 #include <math.h>
 #include <stdlib.h>
+#include <string.h>
 
 #include "date.h"
 #include "report.h"
@@ -245,7 +246,8 @@ static cJSON *window_json(const cc_report_window *w, int m, int k)
     return o;
 }
 
-char *cc_report_json(const cc_report *r)
+/* The report's object with an empty "windows" array (the last key). */
+static cJSON *report_root(const cc_report *r)
 {
     const cc_model *m = r->model;
     cJSON *root = cJSON_CreateObject();
@@ -279,10 +281,68 @@ char *cc_report_json(const cc_report *r)
     cJSON_AddNumberToObject(set, "nll_epsilon", CC_NLL_EPS);
     cJSON_AddNumberToObject(set, "histogram_bins", CC_HIST_BINS);
     cJSON_AddStringToObject(set, "ks_p_value", "Kolmogorov limit, sqrt(nm/(n+m)) D");
-    cJSON *ws = cJSON_AddArrayToObject(root, "windows");
+    cJSON_AddArrayToObject(root, "windows");
+    return root;
+}
+
+char *cc_report_json(const cc_report *r)
+{
+    const cc_model *m = r->model;
+    cJSON *root = report_root(r);
+    cJSON *ws = cJSON_GetObjectItemCaseSensitive(root, "windows");
     for (int i = 0; i < r->n_windows; i++)
         cJSON_AddItemToArray(ws, window_json(&r->windows[i], m->m, m->k));
     char *text = cJSON_Print(root);
     cJSON_Delete(root);
     return text;
+}
+
+/* Streaming: the root is printed with its empty windows array left open,
+ * then each window as cJSON_Print would lay it out inside that array (two
+ * more tabs after every line break), then the closing brackets. */
+typedef struct json_stream {
+    FILE *out;
+    int n_windows;
+} json_stream;
+
+static int json_window(void *payload, const cc_report *r, cc_report_window *w)
+{
+    json_stream *js = payload;
+    cJSON *tree = w ? window_json(w, r->model->m, r->model->k) : report_root(r);
+    char *text = tree ? cJSON_Print(tree) : NULL;
+    cJSON_Delete(tree);
+    if (!text)
+        return 1;
+    size_t len = strlen(text);
+    if (!w) {
+        /* the printed root ends with "[]\n}": keep up to the '[' */
+        if (len < 4 || strcmp(text + len - 4, "[]\n}") != 0) {
+            free(text);
+            return 1;
+        }
+        fwrite(text, 1, len - 3, js->out);
+    } else {
+        if (js->n_windows++)
+            fputs(", ", js->out);
+        const char *p = text, *nl;
+        while ((nl = strchr(p, '\n')) != NULL) {
+            fwrite(p, 1, (size_t)(nl - p) + 1, js->out);
+            fputs("\t\t", js->out);
+            p = nl + 1;
+        }
+        fputs(p, js->out);
+    }
+    free(text);
+    return 0;
+}
+
+int cc_report_write_json(FILE *out, cc_store *store, const cc_report_opts *opts, cc_error *err)
+{
+    json_stream js = {out, 0};
+    cc_report *r = NULL;
+    int rc = cc_report_stream(&r, store, opts, json_window, &js, err);
+    if (!rc)
+        fputs("]\n}", out);
+    cc_report_free(r);
+    return rc;
 }

@@ -39,59 +39,57 @@ static void window_label(FILE *f, const cc_report_window *w)
     fprintf(f, "%-23s", name);
 }
 
-static void headline(FILE *f, const cc_report *r)
+static void headline_head(FILE *f)
 {
-    const cc_model *m = r->model;
     fprintf(f, "%-23s %7s %7s %8s %6s %6s %7s %7s %6s %6s %6s %6s  %s\n", "window", "events",
             "labeled", "disagree", "kappa", "fleiss", "entropy", "mutual", "ens", "best", "vote",
             "oracle", "top contested pair");
     fprintf(f, "%-23s %7s %7s %8s %6s %6s %7s %7s %6s %6s %6s %6s\n", "", "", "", "(mean)",
             "(mean)", "", "(nats)", "(nats)", "acc", "acc", "acc", "acc");
-    for (int i = 0; i < r->n_windows; i++) {
-        const cc_report_window *w = &r->windows[i];
-        const cc_window_metrics *x = &w->metrics;
-        window_label(f, w);
-        fprintf(f, " %7lld %7lld", (long long)x->events, (long long)x->labeled);
-        fnum(f, 8, 3, x->disagreement.mean);
-        fnum(f, 6, 3, x->kappa.mean);
-        fnum(f, 6, 3, x->fleiss_kappa);
-        fnum(f, 7, 3, x->entropy);
-        fnum(f, 7, 3, x->mutual_information);
-        if (x->has_labels) {
-            fnum(f, 6, 3, x->ensemble_accuracy);
-            fnum(f, 6, 3, x->best_member >= 0 ? x->member_accuracy[x->best_member] : NAN);
-            fnum(f, 6, 3, x->vote_accuracy);
-            fnum(f, 6, 3, x->oracle_accuracy);
-        } else {
-            fprintf(f, " %6s %6s %6s %6s", "-", "-", "-", "-");
-        }
-        if (x->n_contested > 0)
-            fprintf(f, "  %s/%s (%lld)", m->classes[x->contested[0].a],
-                    m->classes[x->contested[0].b], (long long)x->contested[0].count);
-        fputc('\n', f);
-    }
 }
 
-static void class_mix(FILE *f, const cc_report *r, int labels)
+static void headline_row(FILE *f, const cc_model *m, const cc_report_window *w)
 {
-    const cc_model *m = r->model;
+    const cc_window_metrics *x = &w->metrics;
+    window_label(f, w);
+    fprintf(f, " %7lld %7lld", (long long)x->events, (long long)x->labeled);
+    fnum(f, 8, 3, x->disagreement.mean);
+    fnum(f, 6, 3, x->kappa.mean);
+    fnum(f, 6, 3, x->fleiss_kappa);
+    fnum(f, 7, 3, x->entropy);
+    fnum(f, 7, 3, x->mutual_information);
+    if (x->has_labels) {
+        fnum(f, 6, 3, x->ensemble_accuracy);
+        fnum(f, 6, 3, x->best_member >= 0 ? x->member_accuracy[x->best_member] : NAN);
+        fnum(f, 6, 3, x->vote_accuracy);
+        fnum(f, 6, 3, x->oracle_accuracy);
+    } else {
+        fprintf(f, " %6s %6s %6s %6s", "-", "-", "-", "-");
+    }
+    if (x->n_contested > 0)
+        fprintf(f, "  %s/%s (%lld)", m->classes[x->contested[0].a],
+                m->classes[x->contested[0].b], (long long)x->contested[0].count);
+    fputc('\n', f);
+}
+
+static void class_mix_head(FILE *f, const cc_model *m, int labels)
+{
     fprintf(f, "\n%s\n", labels ? "label mix (% of labelled events)"
                                  : "class mix of the ensemble's predictions (% of events)");
     fprintf(f, "%-23s", "window");
     for (int c = 0; c < m->k; c++)
         fprintf(f, " %7.7s", m->classes[c]);
     fputc('\n', f);
-    for (int i = 0; i < r->n_windows; i++) {
-        const cc_report_window *w = &r->windows[i];
-        const cc_layout *lay = cc_summary_layout(w->summary);
-        const int64_t *v = cc_summary_data(w->summary);
-        const int64_t *cnt = v + (labels ? lay->label_counts : lay->pred_counts);
-        int64_t n = labels ? v[lay->n_labeled] : v[lay->n_events];
-        window_label(f, w);
-        for (int c = 0; c < m->k; c++)
-            fnum(f, 7, 1, n > 0 ? 100.0 * (double)cnt[c] / (double)n : NAN);
-        fputc('\n', f);
-    }
+}
+
+static void class_mix_row(FILE *f, const cc_model *m, const cc_report_window *w, int labels)
+{
+    const int64_t *cnt = labels ? w->label_counts : w->metrics.class_counts;
+    int64_t n = labels ? w->metrics.labeled : w->metrics.events;
+    window_label(f, w);
+    for (int c = 0; c < m->k; c++)
+        fnum(f, 7, 1, n > 0 ? 100.0 * (double)cnt[c] / (double)n : NAN);
+    fputc('\n', f);
 }
 
 static void fp(FILE *f, int width, double p)
@@ -112,37 +110,38 @@ static int tracked_index(const char *path)
     return -1;
 }
 
-static void drift_table(FILE *f, const cc_report *r)
+static void drift_head(FILE *f)
 {
-    int zd = tracked_index("diversity.disagreement.mean");
-    int zm = tracked_index("uncertainty.mutual_information");
-    int za = tracked_index("accuracy.ensemble");
     fprintf(f, "\nagainst the baseline (p-values of the class-mix chi-square, of KS on the\n"
                "averaged output's max probability and mutual information, and the\n"
                "Bonferroni minimum over per-class KS; z = (x - baseline mean)/sd of days)\n");
     fprintf(f, "%-23s %7s %6s %6s %6s %7s %6s %7s %7s %6s %6s %6s %6s %6s %6s\n", "window",
             "mix p", "PSI", "KS max", "p", "KS MI", "p", "class p", "BBSE L1", "EM L1", "ECE",
             "cover", "z dis", "z MI", "z acc");
-    for (int i = 0; i < r->n_windows; i++) {
-        const cc_report_window *w = &r->windows[i];
-        const cc_comparison *c = &w->cmp;
-        window_label(f, w);
-        fp(f, 7, c->class_mix.p_value);
-        fnum(f, 6, 3, c->class_mix_psi);
-        fnum(f, 6, 3, c->max_prob.d);
-        fp(f, 6, c->max_prob.p_value);
-        fnum(f, 7, 3, c->mutual_information.d);
-        fp(f, 6, c->mutual_information.p_value);
-        fp(f, 7, c->per_class_min_p_bonferroni);
-        fnum(f, 7, 3, c->bbse_l1);
-        fnum(f, 6, 3, c->em_l1);
-        fnum(f, 6, 3, c->has_labels ? c->calibration.ece : NAN);
-        fnum(f, 6, 2, c->label_coverage);
-        fnum(f, 6, 1, w->z[zd]);
-        fnum(f, 6, 1, w->z[zm]);
-        fnum(f, 6, 1, w->z[za]);
-        fputc('\n', f);
-    }
+}
+
+static void drift_row(FILE *f, const cc_report_window *w)
+{
+    int zd = tracked_index("diversity.disagreement.mean");
+    int zm = tracked_index("uncertainty.mutual_information");
+    int za = tracked_index("accuracy.ensemble");
+    const cc_comparison *c = &w->cmp;
+    window_label(f, w);
+    fp(f, 7, c->class_mix.p_value);
+    fnum(f, 6, 3, c->class_mix_psi);
+    fnum(f, 6, 3, c->max_prob.d);
+    fp(f, 6, c->max_prob.p_value);
+    fnum(f, 7, 3, c->mutual_information.d);
+    fp(f, 6, c->mutual_information.p_value);
+    fp(f, 7, c->per_class_min_p_bonferroni);
+    fnum(f, 7, 3, c->bbse_l1);
+    fnum(f, 6, 3, c->em_l1);
+    fnum(f, 6, 3, c->has_labels ? c->calibration.ece : NAN);
+    fnum(f, 6, 2, c->label_coverage);
+    fnum(f, 6, 1, w->z[zd]);
+    fnum(f, 6, 1, w->z[zm]);
+    fnum(f, 6, 1, w->z[za]);
+    fputc('\n', f);
 }
 
 static void shift_detail(FILE *f, const cc_report *r, const cc_comparison *c)
@@ -268,13 +267,8 @@ static void detail(FILE *f, const cc_report *r, const cc_report_window *w)
     }
 }
 
-char *cc_report_text(const cc_report *r)
+static void head(FILE *f, const cc_report *r)
 {
-    char *buf = NULL;
-    size_t len = 0;
-    FILE *f = open_memstream(&buf, &len);
-    if (!f)
-        return NULL;
     const cc_model *m = r->model;
     fprintf(f, "model %s: %d members, %d classes\n", m->name, m->m, m->k);
     if (r->has_baseline) {
@@ -286,15 +280,34 @@ char *cc_report_text(const cc_report *r)
     } else {
         fprintf(f, "no baseline set\n");
     }
+}
+
+char *cc_report_text(const cc_report *r)
+{
+    char *buf = NULL;
+    size_t len = 0;
+    FILE *f = open_memstream(&buf, &len);
+    if (!f)
+        return NULL;
+    const cc_model *m = r->model;
+    head(f, r);
     if (r->n_windows == 0) {
         fprintf(f, "no events in the requested range\n");
     } else {
         fputc('\n', f);
-        headline(f, r);
-        class_mix(f, r, 0);
-        class_mix(f, r, 1);
-        if (r->has_baseline)
-            drift_table(f, r);
+        headline_head(f);
+        for (int i = 0; i < r->n_windows; i++)
+            headline_row(f, m, &r->windows[i]);
+        for (int labels = 0; labels < 2; labels++) {
+            class_mix_head(f, m, labels);
+            for (int i = 0; i < r->n_windows; i++)
+                class_mix_row(f, m, &r->windows[i], labels);
+        }
+        if (r->has_baseline) {
+            drift_head(f);
+            for (int i = 0; i < r->n_windows; i++)
+                drift_row(f, &r->windows[i]);
+        }
         if (r->n_windows == 1)
             detail(f, r, &r->windows[0]);
     }
@@ -303,4 +316,77 @@ char *cc_report_text(const cc_report *r)
         return NULL;
     }
     return buf;
+}
+
+/* Streaming: each table's rows go to its own text buffer as windows arrive
+ * (the text is all that grows with the days), the first window is kept for
+ * the detail a one-window report shows. */
+enum { T_HEADLINE, T_PREDICTED, T_LABELS, T_DRIFT, T_TABLES };
+
+typedef struct text_stream {
+    FILE *table[T_TABLES];
+    char *buf[T_TABLES];
+    size_t len[T_TABLES];
+    int n_windows;
+    cc_report_window first;
+} text_stream;
+
+static int text_window(void *payload, const cc_report *r, cc_report_window *w)
+{
+    text_stream *ts = payload;
+    const cc_model *m = r->model;
+    if (!w) {
+        for (int t = 0; t < T_TABLES; t++)
+            if (!(ts->table[t] = open_memstream(&ts->buf[t], &ts->len[t])))
+                return 1;
+        headline_head(ts->table[T_HEADLINE]);
+        class_mix_head(ts->table[T_PREDICTED], m, 0);
+        class_mix_head(ts->table[T_LABELS], m, 1);
+        drift_head(ts->table[T_DRIFT]);
+        return 0;
+    }
+    headline_row(ts->table[T_HEADLINE], m, w);
+    class_mix_row(ts->table[T_PREDICTED], m, w, 0);
+    class_mix_row(ts->table[T_LABELS], m, w, 1);
+    drift_row(ts->table[T_DRIFT], w);
+    if (ts->n_windows++ == 0) {
+        ts->first = *w;
+        ts->first.summary = NULL;
+        memset(w, 0, sizeof *w);
+    } else if (ts->n_windows == 2) {
+        cc_report_window_free(&ts->first);
+    }
+    for (int t = 0; t < T_TABLES; t++)
+        if (ferror(ts->table[t]))
+            return 1;
+    return 0;
+}
+
+int cc_report_write_text(FILE *out, cc_store *store, const cc_report_opts *opts, cc_error *err)
+{
+    text_stream ts;
+    memset(&ts, 0, sizeof ts);
+    cc_report *r = NULL;
+    int rc = cc_report_stream(&r, store, opts, text_window, &ts, err);
+    for (int t = 0; t < T_TABLES; t++)
+        if (ts.table[t] && fclose(ts.table[t]) != 0 && !rc)
+            rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+    if (!rc) {
+        head(out, r);
+        if (ts.n_windows == 0) {
+            fprintf(out, "no events in the requested range\n");
+        } else {
+            fputc('\n', out);
+            for (int t = 0; t < T_TABLES; t++)
+                if (t != T_DRIFT || r->has_baseline)
+                    fwrite(ts.buf[t], 1, ts.len[t], out);
+            if (ts.n_windows == 1)
+                detail(out, r, &ts.first);
+        }
+    }
+    for (int t = 0; t < T_TABLES; t++)
+        free(ts.buf[t]);
+    cc_report_window_free(&ts.first);
+    cc_report_free(r);
+    return rc;
 }

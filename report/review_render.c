@@ -142,32 +142,39 @@ static void text_summary(FILE *f, const cc_review *rv, const cc_model *m)
     }
 }
 
-char *cc_review_text(const cc_review *rv, const cc_model *m)
+typedef struct event_sink {
+    FILE *f;
+    const cc_model *m;
+    cc_review_where w;
+    int depth;  /* JSON: tabs added to each line of an event printed alone */
+    int n;
+} event_sink;
+
+static int text_one(void *payload, int rank, const cc_review_event *e)
 {
-    char *buf = NULL;
-    size_t len = 0;
-    FILE *f = open_memstream(&buf, &len);
-    if (!f)
-        return NULL;
+    event_sink *k = payload;
+    fputc('\n', k->f);
+    text_event(k->f, e, k->m, rank);
+    return ferror(k->f);
+}
+
+int cc_review_write_text(FILE *f, cc_review *rv, const cc_model *m, cc_error *err)
+{
     text_summary(f, rv, m);
     for (int w = 0; w < CC_REVIEW_KINDS; w++) {
         int n;
         int64_t matched;
-        const cc_review_event *ev = cc_review_get_list(rv, (cc_review_where)w, &n, &matched);
+        cc_review_get_list(rv, (cc_review_where)w, &n, &matched);
         if (!(cc_review_get_opts(rv)->lists & (1u << w)))
             continue;
         fprintf(f, "\n%s: %s: %d of %lld shown\n", cc_review_where_name((cc_review_where)w),
                 list_title((cc_review_where)w), n, (long long)matched);
-        for (int i = 0; i < n; i++) {
-            fputc('\n', f);
-            text_event(f, &ev[i], m, i + 1);
-        }
+        event_sink k = {f, m, (cc_review_where)w, 0, 0};
+        int rc = cc_review_each(rv, (cc_review_where)w, text_one, &k, err);
+        if (rc)
+            return rc;
     }
-    if (fclose(f) != 0) {
-        free(buf);
-        return NULL;
-    }
-    return buf;
+    return 0;
 }
 
 char *cc_review_event_text(const cc_review_event *e, const cc_model *m)
@@ -317,7 +324,33 @@ static char *print_json(cJSON *root)
     return text;
 }
 
-char *cc_review_json(const cc_review *rv, const cc_model *m)
+/* The root is printed with every list's "events" array empty; the text is
+ * then written up to each of those arrays, whose events are printed one at
+ * a time with the indentation cJSON_Print gives elements at that depth. */
+static int json_one(void *payload, int rank, const cc_review_event *e)
+{
+    event_sink *k = payload;
+    (void)rank;
+    cJSON *tree = event_json(e, k->m, 0);
+    char *text = tree ? cJSON_Print(tree) : NULL;
+    cJSON_Delete(tree);
+    if (!text)
+        return 1;
+    if (k->n++)
+        fputs(", ", k->f);
+    const char *p = text, *nl;
+    while ((nl = strchr(p, '\n')) != NULL) {
+        fwrite(p, 1, (size_t)(nl - p) + 1, k->f);
+        for (int t = 0; t < k->depth; t++)
+            fputc('\t', k->f);
+        p = nl + 1;
+    }
+    fputs(p, k->f);
+    free(text);
+    return ferror(k->f);
+}
+
+int cc_review_write_json(FILE *f, cc_review *rv, const cc_model *m, cc_error *err)
 {
     const cc_review_opts *o = cc_review_get_opts(rv);
     const cc_review_summary *s = cc_review_get_summary(rv);
@@ -391,7 +424,7 @@ char *cc_review_json(const cc_review *rv, const cc_model *m)
             continue;
         int n;
         int64_t matched;
-        const cc_review_event *ev = cc_review_get_list(rv, (cc_review_where)w, &n, &matched);
+        cc_review_get_list(rv, (cc_review_where)w, &n, &matched);
         cJSON *l = cJSON_AddObjectToObject(lists, cc_review_where_name((cc_review_where)w));
         cJSON_AddStringToObject(l, "meaning", list_title((cc_review_where)w));
         if (w == CC_REVIEW_PAIR) {
@@ -400,11 +433,35 @@ char *cc_review_json(const cc_review *rv, const cc_model *m)
             cJSON_AddItemToArray(pr, cJSON_CreateString(m->classes[o->pair_b]));
         }
         cJSON_AddNumberToObject(l, "matched", (double)matched);
-        cJSON *arr = cJSON_AddArrayToObject(l, "events");
-        for (int i = 0; i < n; i++)
-            cJSON_AddItemToArray(arr, event_json(&ev[i], m, 0));
+        cJSON_AddArrayToObject(l, "events");
     }
-    return print_json(root);
+    char *text = print_json(root);
+    if (!text)
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    /* a TAB is escaped inside strings, so this marks the arrays themselves */
+    static const char mark[] = "\t\"events\":\t[]";
+    const char *p = text;
+    int rc = 0;
+    for (int w = 0; w < CC_REVIEW_KINDS && !rc; w++) {
+        if (!(o->lists & (1u << w)))
+            continue;
+        const char *at = strstr(p, mark);
+        if (!at) {
+            rc = cc_error_set(err, CC_EIO, "review: JSON layout not as expected");
+            break;
+        }
+        const char *line = at;
+        while (line > text && line[-1] == '\t')
+            line--;
+        event_sink k = {f, m, (cc_review_where)w, (int)(at - line) + 2, 0};
+        fwrite(p, 1, (size_t)(at - p) + sizeof mark - 2, f); /* up to and with '[' */
+        rc = cc_review_each(rv, (cc_review_where)w, json_one, &k, err);
+        p = at + sizeof mark - 2;
+    }
+    if (!rc)
+        fputs(p, f);
+    free(text);
+    return rc;
 }
 
 char *cc_review_event_json(const cc_review_event *e, const cc_model *m)
@@ -447,13 +504,54 @@ static void csv_bool(FILE *f, int x)
     fputs(x < 0 ? "," : x ? ",1" : ",0", f);
 }
 
-char *cc_review_csv(const cc_review *rv, const cc_model *m)
+static int csv_one(void *payload, int rank, const cc_review_event *e)
 {
-    char *buf = NULL;
-    size_t len = 0;
-    FILE *f = open_memstream(&buf, &len);
-    if (!f)
-        return NULL;
+    event_sink *k = payload;
+    FILE *f = k->f;
+    const cc_model *m = k->m;
+    const cc_event_view *v = &e->view;
+    char t[21];
+    cc_review_format_time(e->ts, t);
+    fprintf(f, "%s,%d,", cc_review_where_name(k->w), rank);
+    csv_field(f, e->id);
+    fprintf(f, ",%s,", t);
+    csv_field(f, e->segment);
+    fputc(',', f);
+    csv_field(f, e->label >= 0 ? m->classes[e->label] : NULL);
+    fputc(',', f);
+    csv_field(f, m->classes[v->ens]);
+    csv_num(f, v->avg[v->ens]);
+    fputc(',', f);
+    csv_field(f, m->classes[v->second]);
+    csv_num(f, v->avg[v->second]);
+    csv_num(f, v->margin);
+    csv_bool(f, v->ens_right);
+    fputc(',', f);
+    csv_field(f, m->classes[v->vote]);
+    fprintf(f, ",%d", v->votes[v->vote]);
+    csv_bool(f, v->vote_tie);
+    csv_num(f, v->mutual_information);
+    csv_num(f, v->entropy);
+    csv_num(f, v->disagreement);
+    if (e->label >= 0)
+        fprintf(f, ",%d", v->n_right);
+    else
+        fputc(',', f);
+    for (int i = 0; i < m->m; i++) {
+        const float *row = e->probs + (size_t)i * (size_t)m->k;
+        fputc(',', f);
+        csv_field(f, m->classes[v->member_class[i]]);
+        csv_num(f, row[v->member_class[i]]);
+        csv_num(f, row[v->ens]);
+        csv_num(f, row[v->second]);
+        csv_bool(f, v->member_right[i]);
+    }
+    fputs("\r\n", f);
+    return ferror(f);
+}
+
+int cc_review_write_csv(FILE *f, cc_review *rv, const cc_model *m, cc_error *err)
+{
     fputs("list,rank,id,time,segment,label,ensemble,p_ensemble,runner_up,p_runner_up,margin,"
           "ensemble_right,vote,vote_count,vote_tie,mutual_information,entropy,disagreement,"
           "members_right", f);
@@ -470,53 +568,10 @@ char *cc_review_csv(const cc_review *rv, const cc_model *m)
     for (int w = 0; w < CC_REVIEW_KINDS; w++) {
         if (!(o->lists & (1u << w)))
             continue;
-        int n;
-        const cc_review_event *ev = cc_review_get_list(rv, (cc_review_where)w, &n, NULL);
-        for (int r = 0; r < n; r++) {
-            const cc_review_event *e = &ev[r];
-            const cc_event_view *v = &e->view;
-            char t[21];
-            cc_review_format_time(e->ts, t);
-            fprintf(f, "%s,%d,", cc_review_where_name((cc_review_where)w), r + 1);
-            csv_field(f, e->id);
-            fprintf(f, ",%s,", t);
-            csv_field(f, e->segment);
-            fputc(',', f);
-            csv_field(f, e->label >= 0 ? m->classes[e->label] : NULL);
-            fputc(',', f);
-            csv_field(f, m->classes[v->ens]);
-            csv_num(f, v->avg[v->ens]);
-            fputc(',', f);
-            csv_field(f, m->classes[v->second]);
-            csv_num(f, v->avg[v->second]);
-            csv_num(f, v->margin);
-            csv_bool(f, v->ens_right);
-            fputc(',', f);
-            csv_field(f, m->classes[v->vote]);
-            fprintf(f, ",%d", v->votes[v->vote]);
-            csv_bool(f, v->vote_tie);
-            csv_num(f, v->mutual_information);
-            csv_num(f, v->entropy);
-            csv_num(f, v->disagreement);
-            if (e->label >= 0)
-                fprintf(f, ",%d", v->n_right);
-            else
-                fputc(',', f);
-            for (int i = 0; i < m->m; i++) {
-                const float *row = e->probs + (size_t)i * (size_t)m->k;
-                fputc(',', f);
-                csv_field(f, m->classes[v->member_class[i]]);
-                csv_num(f, row[v->member_class[i]]);
-                csv_num(f, row[v->ens]);
-                csv_num(f, row[v->second]);
-                csv_bool(f, v->member_right[i]);
-            }
-            fputs("\r\n", f);
-        }
+        event_sink k = {f, m, (cc_review_where)w, 0, 0};
+        int rc = cc_review_each(rv, (cc_review_where)w, csv_one, &k, err);
+        if (rc)
+            return rc;
     }
-    if (fclose(f) != 0) {
-        free(buf);
-        return NULL;
-    }
-    return buf;
+    return 0;
 }

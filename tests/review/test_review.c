@@ -3,7 +3,9 @@
  * whose categories, counts and orderings were worked out by hand (the
  * comments give each event's averaged output). Also checks that the scan
  * uses the (model, day, ts) index and the event lookup the primary key. */
+#include <math.h>
 #include <sqlite3.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <unistd.h>
@@ -54,6 +56,25 @@ static void check_list(check_log *log, const cc_review *rv, cc_review_where w,
                  want[i], ev[i].id);
         check_int(log, what, strcmp(ev[i].id, want[i]) == 0, 1, SRC);
     }
+}
+
+/* What cc_review_each handed over: ids in order, and the first event's
+ * mutual information (the events themselves are gone after each call). */
+typedef struct seen {
+    int n;
+    char ids[8][8];
+    double first_mi;
+} seen;
+
+static int collect(void *payload, int rank, const cc_review_event *e)
+{
+    seen *s = payload;
+    if (rank != s->n + 1 || s->n >= 8)
+        return 1;
+    if (s->n == 0)
+        s->first_mi = e->view.mutual_information;
+    snprintf(s->ids[s->n++], sizeof s->ids[0], "%s", e->id);
+    return 0;
 }
 
 static int plan_uses(sqlite3 *db, const char *sql, const char *needle)
@@ -198,6 +219,41 @@ int main(void)
     check_int(&log, "an event without a segment keeps NULL", e6 && e6->segment == NULL, 1,
               "e6 has none");
     cc_review_free(rv);
+
+    /* deferred: the same lists, read one event at a time by cc_review_each */
+    o.deferred = 1;
+    if (cc_review_run(&rv, s, m, &o, &err)) {
+        fprintf(stderr, "deferred review: %s\n", err.msg);
+        return 1;
+    }
+    const struct { cc_review_where w; const char *const *ids; int n; } want[] = {
+        {CC_REVIEW_WRONG, wrong, 2},        {CC_REVIEW_HELPED, NULL, 0},
+        {CC_REVIEW_HURT, hurt_l, 1},        {CC_REVIEW_TOP_DISAGREEMENT, dis, 7},
+        {CC_REVIEW_PAIR, pair, 5},          {CC_REVIEW_LOW_MARGIN, low, 2},
+        {CC_REVIEW_TOP_MI, mi_order, 5}};
+    for (size_t i = 0; i < sizeof want / sizeof *want; i++) {
+        seen got = {0, {{0}}, NAN};
+        char what[96];
+        int n_list;
+        check_int(&log, "deferred: no event array", cc_review_get_list(rv, want[i].w, &n_list,
+                                                                        NULL) == NULL, 1,
+                  "review.h");
+        check_int(&log, "deferred: each", cc_review_each(rv, want[i].w, collect, &got, &err), 0,
+                  "review.h");
+        snprintf(what, sizeof what, "deferred %s: length", cc_review_where_name(want[i].w));
+        check_int(&log, what, n_list, want[i].w == CC_REVIEW_TOP_MI ? 7 : want[i].n, SRC);
+        check_int(&log, what, got.n, n_list, SRC);
+        for (int j = 0; j < want[i].n && j < got.n; j++) {
+            snprintf(what, sizeof what, "deferred %s: #%d is %s (got %s)",
+                     cc_review_where_name(want[i].w), j + 1, want[i].ids[j], got.ids[j]);
+            check_int(&log, what, strcmp(got.ids[j], want[i].ids[j]), 0, SRC);
+        }
+        if (want[i].w == CC_REVIEW_TOP_MI)
+            check_close(&log, "deferred top-mi: e7's mutual information", got.first_mi,
+                        0.279288, 5e-7, 0, "computed, python3 math");
+    }
+    cc_review_free(rv);
+    o.deferred = 0;
 
     /* limit, segment and inclusive bounds */
     o.limit = 1;
