@@ -48,6 +48,15 @@ int cli_fail(const cc_error *err);
 int cli_usage(const char *command, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 int cli_exit_for(int code);
 
+/* Opens the store as cc_store_open_with does (flags CC_STORE_*), waiting for
+ * a writer's lock up to --wait / CONCORD_WAIT seconds (default 60) and
+ * saying so once on stderr when it has to wait. */
+struct cc_store;
+int cli_store_open(struct cc_store **out, const char *path, int flags, cc_error *err);
+/* The wait bound in ms: --wait (any command accepts it), else CONCORD_WAIT,
+ * else dflt_ms. */
+int cli_wait_ms(int64_t dflt_ms);
+
 /* "YYYY-MM-DD" -> day; prints a usage error on failure. */
 int cli_date(const char *command, const char *opt, const char *text, int64_t *day);
 
@@ -69,6 +78,9 @@ int cli_report_html(struct cc_store *store, const struct cc_report *r, int with_
                     const char *note, char **out);
 int cmd_review(int argc, char **argv);
 int cmd_show(int argc, char **argv);
+int cmd_prune(int argc, char **argv);
+int cmd_backup(int argc, char **argv);
+extern const char help_prune[], help_backup[];
 
 extern const char help_ingest[], help_label[], help_baseline[], help_report[], help_verify[],
     help_demo[];

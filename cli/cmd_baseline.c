@@ -42,7 +42,7 @@ int cmd_baseline(int argc, char **argv)
     cc_model *m = NULL;
     int64_t *days = NULL;
     int n_days = 0, rc = EXIT_OK;
-    if (cc_store_open(&store, db, 0, &err) || cc_store_model_get(store, model, &m, &err) ||
+    if (cli_store_open(&store, db, 0, &err) || cc_store_model_get(store, model, &m, &err) ||
         cc_store_summary_days(store, m, from, to, &days, &n_days, &err)) {
         rc = cli_fail(&err);
     } else if (n_days == 0) {

@@ -178,7 +178,7 @@ int cmd_review(int argc, char **argv)
     cc_model *m = NULL;
     cc_review *rv = NULL;
     int rc = EXIT_OK;
-    if (cc_store_open(&store, db, 0, &err) || cc_store_model_get(store, model, &m, &err)) {
+    if (cli_store_open(&store, db, CC_STORE_READONLY, &err) || cc_store_model_get(store, model, &m, &err)) {
         rc = cli_fail(&err);
     } else if (parse_where(cli_get(opts, n_opts, "where"), m, &ro)) {
         rc = EXIT_USAGE;

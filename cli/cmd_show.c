@@ -40,7 +40,7 @@ int cmd_show(int argc, char **argv)
     cc_model *m = NULL;
     cc_review_event *e = NULL;
     int rc = EXIT_OK;
-    if (cc_store_open(&store, db, 0, &err) || cc_store_model_get(store, model, &m, &err) ||
+    if (cli_store_open(&store, db, CC_STORE_READONLY, &err) || cc_store_model_get(store, model, &m, &err) ||
         cc_review_event_get(store, m, pos[0], &e, &err)) {
         rc = cli_fail(&err);
     } else {
