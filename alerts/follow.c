@@ -361,10 +361,9 @@ static int busy_backoff(follower *f, int *tries, cc_error *err)
         ms *= 2;
     if (ms > 30000)
         ms = 30000;
-    char msg[900];
-    snprintf(msg, sizeof msg, "the database stayed locked by another writer (%s); backing "
-                              "off %d ms, then trying again",
-             err->msg, ms);
+    char msg[128];
+    snprintf(msg, sizeof msg, "still locked by another writer after the wait bound; "
+                              "keeping what was read, backing off %d ms and trying again", ms);
     note(f, cc_store_path(f->store), msg);
     ++*tries;
     *err = (cc_error)CC_ERROR_INIT;

@@ -206,3 +206,19 @@ int cli_store_open(struct cc_store **out, const char *path, int flags, cc_error 
     o.ctx = &wait_ms;
     return cc_store_open_with(out, path, &o, err);
 }
+
+void cli_note_pruned(struct cc_store *store, const struct cc_model *m, int64_t from_day,
+                     int64_t to_day, const char *command)
+{
+    cc_pruned_range pr;
+    if (cc_store_pruned_range(store, m, from_day, to_day, &pr, NULL) || pr.days == 0)
+        return;
+    char first[11], last[11];
+    cc_format_date(pr.first, first);
+    cc_format_date(pr.last, last);
+    fprintf(stderr, "concord %s: note: %d day%s from %s to %s %s pruned: the event rows of "
+                    "%lld events are gone, only their summaries remain (concord report "
+                    "still counts them); nothing from those days can be listed\n",
+            command, pr.days, pr.days == 1 ? "" : "s", first, last,
+            pr.days == 1 ? "was" : "were", (long long)pr.events);
+}

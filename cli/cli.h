@@ -57,6 +57,12 @@ int cli_store_open(struct cc_store **out, const char *path, int flags, cc_error 
  * else dflt_ms. */
 int cli_wait_ms(int64_t dflt_ms);
 
+/* Tells on stderr when days in [from_day, to_day] were pruned (their rows
+ * are gone), for the commands that list rows. */
+struct cc_model;
+void cli_note_pruned(struct cc_store *store, const struct cc_model *m, int64_t from_day,
+                     int64_t to_day, const char *command);
+
 /* "YYYY-MM-DD" -> day; prints a usage error on failure. */
 int cli_date(const char *command, const char *opt, const char *text, int64_t *day);
 

@@ -185,6 +185,7 @@ int cmd_review(int argc, char **argv)
     } else if (cc_review_run(&rv, store, m, &ro, &err)) {
         rc = cli_fail(&err);
     } else {
+        cli_note_pruned(store, m, cc_day_of_unix(ro.from), cc_day_of_unix(ro.to), "review");
         char *text = fmt == JSON ? cc_review_json(rv, m)
                      : fmt == CSV ? cc_review_csv(rv, m)
                                   : cc_review_text(rv, m);
