@@ -247,7 +247,10 @@ static int read_version(cc_store *s, int64_t *version, cc_error *err)
 
 static int check_version(cc_store *s, int64_t version, cc_error *err)
 {
-    if (version > SCHEMA_VERSION || version < 0)
+    if (version < 0)
+        return cc_error_set(err, CC_EIO, "%s: schema version %lld is not valid; the database "
+                                         "was left untouched", s->path, (long long)version);
+    if (version > SCHEMA_VERSION)
         return cc_error_set(err, CC_EIO,
                             "%s: schema version %lld is newer than this concord (%d); the "
                             "database was left untouched",
