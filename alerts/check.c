@@ -46,9 +46,15 @@ static int check_model(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o
                        cc_check_result *res, cc_error *err)
 {
     cc_evaluator *ev = NULL;
-    int rc = cc_eval_create(&ev, s, model, res->day, err);
-    if (rc)
+    /* the figures come from one snapshot; the write lock is taken only for
+     * the state changes below */
+    int rc = cc_store_snapshot_begin(s, err);
+    if (!rc)
+        rc = cc_eval_create(&ev, s, model, res->day, err);
+    if (rc) {
+        cc_store_snapshot_end(s);
         return rc;
+    }
     int first = res->n_items;
     for (int i = 0; !rc && i < cc_rules_count(rs); i++) {
         const cc_rule *rule = cc_rules_get(rs, i);
@@ -64,6 +70,7 @@ static int check_model(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o
         it->rule = rule;
         rc = cc_eval_rule(ev, rule, &it->ev, err);
     }
+    cc_store_snapshot_end(s);
     if (!rc)
         rc = cc_store_begin(s, err);
     if (rc) {

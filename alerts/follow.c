@@ -52,6 +52,8 @@ static void note(follower *f, const char *path, const char *what)
     f->o->on_note(f->o->ctx, msg);
 }
 
+static void sleep_ms(int ms);
+
 static int prepare(cc_store *s, cc_error *err)
 {
     char *msg = NULL;
@@ -347,6 +349,36 @@ static int run_deliver(follower *f, int64_t now, cc_error *err)
     return rc;
 }
 
+/* A failure because another writer kept the lock past the wait bound: follow
+ * does not stop for it, it backs off (doubling, up to 30 s) and tries again;
+ * what it had read stays in memory and is committed by a later attempt. */
+static int busy_backoff(follower *f, int *tries, cc_error *err)
+{
+    if (err->code != CC_EBUSY && !cc_store_take_timed_out(f->store))
+        return 0;
+    int ms = f->o->poll_ms;
+    for (int i = 0; i < *tries && ms < 30000; i++)
+        ms *= 2;
+    if (ms > 30000)
+        ms = 30000;
+    char msg[128];
+    snprintf(msg, sizeof msg, "still locked by another writer after the wait bound; "
+                              "keeping what was read, backing off %d ms and trying again", ms);
+    note(f, cc_store_path(f->store), msg);
+    ++*tries;
+    *err = (cc_error)CC_ERROR_INIT;
+    sleep_ms(ms);
+    return 1;
+}
+
+static int setup(follower *f, cc_error *err)
+{
+    int rc = prepare(f->store, err);
+    if (!rc && f->o->rules)
+        rc = cc_state_prepare(f->store, err);
+    return rc;
+}
+
 int cc_follow_run(cc_store *s, const cc_follow_opts *o, cc_follow_stats *stats, cc_error *err)
 {
     memset(stats, 0, sizeof *stats);
@@ -362,11 +394,13 @@ int cc_follow_run(cc_store *s, const cc_follow_opts *o, cc_follow_stats *stats, 
     f->store = s;
     f->o = o;
     f->stats = stats;
+    cc_error local = CC_ERROR_INIT;
+    int tries = 0;
+    if (!err)
+        err = &local;
     rc = open_chunk(f, err);
-    if (!rc)
-        rc = prepare(s, err);
-    if (!rc && o->rules)
-        rc = cc_state_prepare(s, err);
+    while (!rc && (rc = setup(f, err)) && !*o->stop && busy_backoff(f, &tries, err))
+        rc = 0;
     for (int i = 0; i < n; i++) {
         tails[i].path = i < o->n_paths ? o->paths[i] : o->labels_path;
         tails[i].kind = i < o->n_paths ? CC_RECORD_EVENTS : CC_RECORD_LABELS;
@@ -397,17 +431,23 @@ int cc_follow_run(cc_store *s, const cc_follow_opts *o, cc_follow_stats *stats, 
         int64_t closed = cc_day_of_unix(now - o->grace_s) - 1;
         if (closed > last_checked) {
             if ((rc = run_check(f, closed, now, err)))
-                break;
+                goto next;
             last_checked = closed;
             deliver_now = 1;
         }
         if (deliver_now || now - last_deliver >= o->deliver_every_s) {
             if ((rc = run_deliver(f, now, err)))
-                break;
+                goto next;
             last_deliver = now;
             deliver_now = 0;
         }
     next:
+        if (rc && !*o->stop && busy_backoff(f, &tries, err)) {
+            rc = 0;
+            continue;
+        }
+        if (!rc)
+            tries = 0;
         if (!rc && !*o->stop)
             sleep_ms(o->poll_ms);
     }

@@ -56,12 +56,29 @@ int cc_history_evaluated(cc_store *s, const char *model)
     return yes;
 }
 
+/* A reader opened a database on which no check ever ran: nothing to list. */
+static int has_table(cc_store *s, const char *name)
+{
+    sqlite3_stmt *st = NULL;
+    int yes = 0;
+    if (sqlite3_prepare_v2(cc_store_db(s), "SELECT 1 FROM sqlite_master WHERE type = 'table' "
+                                           "AND name = ?1",
+                           -1, &st, NULL) == SQLITE_OK) {
+        sqlite3_bind_text(st, 1, name, -1, SQLITE_STATIC);
+        yes = sqlite3_step(st) == SQLITE_ROW;
+    }
+    sqlite3_finalize(st);
+    return yes;
+}
+
 int cc_history_states(cc_store *s, const char *model, const char *state, cc_state_row_fn fn,
                       void *ctx, cc_error *err)
 {
     int rc = cc_state_prepare(s, err);
     if (rc)
         return rc;
+    if (!has_table(s, "rule_state"))
+        return 0;
     sqlite3_stmt *st = NULL;
     if (sqlite3_prepare_v2(cc_store_db(s),
                            "SELECT model, rule, state, metric, severity, since_day, last_day, "
@@ -93,6 +110,8 @@ int cc_history_notifications(cc_store *s, const char *model, const char *deliver
     int rc = cc_state_prepare(s, err);
     if (rc)
         return rc;
+    if (!has_table(s, "notifications") || !has_table(s, "outbox"))
+        return 0;
     sqlite3_stmt *st = NULL;
     if (sqlite3_prepare_v2(
             cc_store_db(s),

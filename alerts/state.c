@@ -40,6 +40,8 @@ static int db_fail(cc_store *s, cc_error *err, const char *what)
 int cc_state_prepare(cc_store *s, cc_error *err)
 {
     char *msg = NULL;
+    if (cc_store_readonly(s))
+        return 0; /* a reader creates nothing; the history reads treat missing tables as empty */
     if (sqlite3_exec(cc_store_db(s), schema, NULL, NULL, &msg) != SQLITE_OK) {
         int rc = cc_error_set(err, CC_EIO, "%s: creating the alert tables: %s",
                               cc_store_path(s), msg ? msg : "?");

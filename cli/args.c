@@ -1,4 +1,5 @@
 /* args.c — option parsing, error printing and exit-code mapping for cli/. */
+#include <errno.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -6,6 +7,21 @@
 
 #include "cli.h"
 #include "date.h"
+#include "store.h"
+
+/* --wait SECONDS, accepted by every command; -1 when not given. */
+static int64_t wait_option_ms = -1;
+
+/* A whole number of seconds, 0..10^6, as milliseconds; -1 when invalid. */
+static int64_t parse_wait(const char *text)
+{
+    char *end;
+    errno = 0;
+    long long v = strtoll(text, &end, 10);
+    if (errno || end == text || *end || v < 0 || v > 1000000)
+        return -1;
+    return (int64_t)v * 1000;
+}
 
 int cli_exit_for(int code)
 {
@@ -66,6 +82,14 @@ int cli_parse(int argc, char **argv, cli_opt *opts, int n_opts, char **pos, int 
         }
         cli_opt *o;
         const char *value = NULL;
+        if (strcmp(a, "--wait") == 0 || strncmp(a, "--wait=", 7) == 0) {
+            const char *v = a[6] == '=' ? a + 7 : i + 1 < argc ? argv[++i] : NULL;
+            if (!v || (wait_option_ms = parse_wait(v)) < 0) {
+                cli_usage(command, "--wait needs a whole number of seconds (0 to 1000000)");
+                return -1;
+            }
+            continue;
+        }
         if (a[1] == '-') {
             const char *eq = strchr(a + 2, '=');
             size_t len = eq ? (size_t)(eq - a - 2) : strlen(a + 2);
@@ -147,4 +171,54 @@ char **cli_split_names(const char *text, int *n)
                 return NULL;
             }
     return out;
+}
+
+int cli_wait_ms(int64_t dflt_ms)
+{
+    if (wait_option_ms >= 0)
+        return (int)wait_option_ms;
+    const char *env = getenv("CONCORD_WAIT");
+    if (env && *env) {
+        int64_t v = parse_wait(env);
+        if (v >= 0)
+            return (int)v;
+        fprintf(stderr, "concord: CONCORD_WAIT='%s' is not a whole number of seconds; "
+                        "waiting the default %lld s\n", env, (long long)(dflt_ms / 1000));
+    }
+    return (int)dflt_ms;
+}
+
+static void note_wait(void *ctx, const char *path)
+{
+    const int *wait_ms = ctx;
+    fprintf(stderr, "concord: waiting for the database lock held by another writer on %s "
+                    "(up to %d s; see --wait)\n", path, *wait_ms / 1000);
+}
+
+int cli_store_open(struct cc_store **out, const char *path, int flags, cc_error *err)
+{
+    static int wait_ms;
+    cc_store_opts o = CC_STORE_OPTS_INIT;
+    wait_ms = cli_wait_ms(CC_STORE_WAIT_DEFAULT_MS);
+    o.flags = flags;
+    o.wait_ms = wait_ms;
+    o.on_wait = note_wait;
+    o.ctx = &wait_ms;
+    return cc_store_open_with(out, path, &o, err);
+}
+
+void cli_note_pruned(struct cc_store *store, const struct cc_model *m, int64_t from_day,
+                     int64_t to_day, const char *command)
+{
+    cc_pruned_range pr;
+    if (cc_store_pruned_range(store, m, from_day, to_day, &pr, NULL) || pr.days == 0)
+        return;
+    char first[11], last[11];
+    cc_format_date(pr.first, first);
+    cc_format_date(pr.last, last);
+    fprintf(stderr, "concord %s: note: %d day%s from %s to %s %s pruned: the event rows of "
+                    "%lld events are gone, only their summaries remain (concord report "
+                    "still counts them); nothing from those days can be listed\n",
+            command, pr.days, pr.days == 1 ? "" : "s", first, last,
+            pr.days == 1 ? "was" : "were", (long long)pr.events);
 }

@@ -48,6 +48,21 @@ int cli_fail(const cc_error *err);
 int cli_usage(const char *command, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 int cli_exit_for(int code);
 
+/* Opens the store as cc_store_open_with does (flags CC_STORE_*), waiting for
+ * a writer's lock up to --wait / CONCORD_WAIT seconds (default 60) and
+ * saying so once on stderr when it has to wait. */
+struct cc_store;
+int cli_store_open(struct cc_store **out, const char *path, int flags, cc_error *err);
+/* The wait bound in ms: --wait (any command accepts it), else CONCORD_WAIT,
+ * else dflt_ms. */
+int cli_wait_ms(int64_t dflt_ms);
+
+/* Tells on stderr when days in [from_day, to_day] were pruned (their rows
+ * are gone), for the commands that list rows. */
+struct cc_model;
+void cli_note_pruned(struct cc_store *store, const struct cc_model *m, int64_t from_day,
+                     int64_t to_day, const char *command);
+
 /* "YYYY-MM-DD" -> day; prints a usage error on failure. */
 int cli_date(const char *command, const char *opt, const char *text, int64_t *day);
 
@@ -69,6 +84,9 @@ int cli_report_html(struct cc_store *store, const struct cc_report *r, int with_
                     const char *note, char **out);
 int cmd_review(int argc, char **argv);
 int cmd_show(int argc, char **argv);
+int cmd_prune(int argc, char **argv);
+int cmd_backup(int argc, char **argv);
+extern const char help_prune[], help_backup[];
 
 /* How the user invoked concord (argv[0] when it holds a '/', else "concord"),
  * so printed hints such as the demo's can be pasted as they are (main.c). */

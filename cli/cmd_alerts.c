@@ -198,7 +198,7 @@ int cmd_alerts(int argc, char **argv)
     int rc = EXIT_OK;
     listing st = {json, json ? cJSON_CreateArray() : NULL, -1, 0};
     listing hi = {json, json ? cJSON_CreateArray() : NULL, -1, 0};
-    if (cc_store_open(&store, db, 0, &err)) {
+    if (cli_store_open(&store, db, CC_STORE_READONLY, &err)) {
         rc = cli_fail(&err);
         goto done;
     }

@@ -42,14 +42,17 @@ int cmd_baseline(int argc, char **argv)
     cc_model *m = NULL;
     int64_t *days = NULL;
     int n_days = 0, rc = EXIT_OK;
-    if (cc_store_open(&store, db, 0, &err) || cc_store_model_get(store, model, &m, &err) ||
+    if (cli_store_open(&store, db, 0, &err) || cc_store_model_get(store, model, &m, &err) ||
         cc_store_summary_days(store, m, from, to, &days, &n_days, &err)) {
         rc = cli_fail(&err);
     } else if (n_days == 0) {
         fprintf(stderr, "concord baseline: model '%s' has no events from %s to %s\n", model, fv,
                 tv);
         rc = EXIT_NOTFOUND;
-    } else if (cc_store_baseline_set(store, m, from, to, &err)) {
+    } else if (cc_store_begin(store, &err) || cc_store_baseline_set(store, m, from, to, &err) ||
+               cc_store_commit(store, &err)) {
+        /* an explicit transaction: a waiting writer raises its flag (store.h) */
+        cc_store_rollback(store);
         rc = cli_fail(&err);
     } else {
         fprintf(stderr, "baseline of '%s': %s..%s (%d days with events)\n", model, fv, tv,

@@ -251,7 +251,7 @@ int cmd_check(int argc, char **argv)
         co.extra = &extra;
         co.n_extra = 1;
     }
-    if (cc_store_open(&store, db, 0, &err) || cc_check_run(store, rs, &co, &res, &err)) {
+    if (cli_store_open(&store, db, 0, &err) || cc_check_run(store, rs, &co, &res, &err)) {
         rc = cli_fail(&err);
         goto done;
     }

@@ -62,7 +62,7 @@ int cmd_deliver(int argc, char **argv)
     if (!json)
         o.on_event = on_event;
     cc_webhook_global_init();
-    if (cc_store_open(&store, db, 0, &err) || cc_state_prepare(store, &err) ||
+    if (cli_store_open(&store, db, 0, &err) || cc_state_prepare(store, &err) ||
         (cli_get(opts, n_opts, "requeue-dead") &&
          cc_deliver_requeue_dead(store, o.now, &requeued, &err)) ||
         cc_deliver_run(store, &o, &st, &err)) {

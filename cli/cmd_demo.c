@@ -98,7 +98,7 @@ int cmd_demo(int argc, char **argv)
     io.n_classes = n_classes;
     io.members = members;
     io.n_members = n_members;
-    if (cc_store_open(&store, db, 1, &err) || cc_ingest_create(&ing, store, &io, &err) ||
+    if (cli_store_open(&store, db, CC_STORE_CREATE, &err) || cc_ingest_create(&ing, store, &io, &err) ||
         cc_ingest_file(ing, events, CC_RECORD_EVENTS, &err) ||
         cc_ingest_file(ing, labels, CC_RECORD_LABELS, &err) || cc_ingest_finish(ing, &err) ||
         cc_store_model_get(store, io.model, &model, &err) ||

@@ -24,7 +24,10 @@ const char help_follow[] =
     "for each UTC day once it has been closed for --grace seconds (300), and the outbox\n"
     "is drained every minute. SIGINT or SIGTERM stops it after the current chunk is\n"
     "committed: no line that was read is lost.\n\n"
-    "  --interval MS    how often to look for new lines (1000)\n\n"
+    "  --interval MS    how often to look for new lines (1000)\n"
+    "  --wait SECONDS   how long one attempt waits for another writer's lock (60); follow\n"
+    "                   does not stop on a locked database: it says so, backs off and\n"
+    "                   tries again, keeping what it has read\n\n"
     "exit: 0 stopped by a signal, 1 invalid rules file, 2 usage, 3 file or database error\n";
 
 static volatile sig_atomic_t stop_flag;
@@ -160,7 +163,14 @@ int cmd_follow(int argc, char **argv)
         fo.ingest_now = ctx.start_now;
     cc_follow_stats st;
     cc_webhook_global_init();
-    if (cc_store_open(&store, db, 1, &err) || cc_follow_run(store, &fo, &st, &err)) {
+    int opened;
+    while ((opened = cli_store_open(&store, db, CC_STORE_CREATE, &err)) != 0 &&
+           err.code == CC_EBUSY && !stop_flag) {
+        fprintf(stderr, "concord follow: %s; trying again in 5 s\n", err.msg);
+        err = (cc_error)CC_ERROR_INIT;
+        nanosleep(&(struct timespec){5, 0}, NULL);
+    }
+    if (opened || cc_follow_run(store, &fo, &st, &err)) {
         rc = cli_fail(&err);
     } else {
         fprintf(stderr, "concord follow: stopped; %lld lines, %lld events stored, %lld "

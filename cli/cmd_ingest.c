@@ -110,7 +110,7 @@ static int run(int argc, char **argv, cc_record_kind kind)
     cc_error err = CC_ERROR_INIT;
     cc_store *store = NULL;
     cc_ingest *ing = NULL;
-    int e = cc_store_open(&store, db, 1, &err);
+    int e = cli_store_open(&store, db, kind == CC_RECORD_EVENTS ? CC_STORE_CREATE : 0, &err);
     if (!e)
         e = cc_ingest_create(&ing, store, &io, &err);
     for (int i = 0; !e && i < n_pos; i++)

@@ -145,7 +145,7 @@ int cmd_report(int argc, char **argv)
     cc_store *store = NULL;
     cc_report *r = NULL;
     int rc = EXIT_OK;
-    if (cc_store_open(&store, db, 0, &err))
+    if (cli_store_open(&store, db, CC_STORE_READONLY, &err))
         return cli_fail(&err);
     if (!html) {
         /* text and JSON are written window by window as they are computed */

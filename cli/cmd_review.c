@@ -163,13 +163,14 @@ int cmd_review(int argc, char **argv)
     cc_model *m = NULL;
     cc_review *rv = NULL;
     int rc = EXIT_OK;
-    if (cc_store_open(&store, db, 0, &err) || cc_store_model_get(store, model, &m, &err)) {
+    if (cli_store_open(&store, db, CC_STORE_READONLY, &err) || cc_store_model_get(store, model, &m, &err)) {
         rc = cli_fail(&err);
     } else if (parse_where(cli_get(opts, n_opts, "where"), m, &ro)) {
         rc = EXIT_USAGE;
     } else if (cc_review_run(&rv, store, m, &ro, &err)) {
         rc = cli_fail(&err);
     } else {
+        cli_note_pruned(store, m, cc_day_of_unix(ro.from), cc_day_of_unix(ro.to), "review");
         /* events are read and written one at a time (deferred review) */
         const char *out = cli_get(opts, n_opts, "output");
         FILE *f = out ? fopen(out, "w") : stdout;

@@ -40,9 +40,11 @@ int cmd_show(int argc, char **argv)
     cc_model *m = NULL;
     cc_review_event *e = NULL;
     int rc = EXIT_OK;
-    if (cc_store_open(&store, db, 0, &err) || cc_store_model_get(store, model, &m, &err) ||
+    if (cli_store_open(&store, db, CC_STORE_READONLY, &err) || cc_store_model_get(store, model, &m, &err) ||
         cc_review_event_get(store, m, pos[0], &e, &err)) {
         rc = cli_fail(&err);
+        if (m && err.code == CC_ENOTFOUND)
+            cli_note_pruned(store, m, INT64_MIN / 4, INT64_MAX / 4, "show");
     } else {
         char *text = json ? cc_review_event_json(e, m) : cc_review_event_text(e, m);
         if (!text) {

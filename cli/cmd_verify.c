@@ -1,5 +1,7 @@
 /* cmd_verify.c — `concord verify`: rebuilds each day's summary from its
- * event rows and compares it with the stored one. */
+ * event rows (plus the part kept for pruned rows) and compares it with the
+ * stored one; finds days with rows but no summary, and class indexes out of
+ * range; with --deep, SQLite's integrity check. */
 #include <stdio.h>
 #include <stdlib.h>
 
@@ -8,16 +10,54 @@
 #include "store.h"
 
 const char help_verify[] =
-    "usage: concord verify --db FILE --model NAME\n\n"
-    "Recomputes every day's summary from the stored events and labels and compares it,\n"
-    "counter by counter, with the summary the reports read. Prints one line per day.\n\n"
-    "exit: 0 all days match, 1 some day differs, 2 usage, 3 file or database error,\n"
+    "usage: concord verify --db FILE --model NAME [--deep]\n\n"
+    "Recomputes every day's summary from the stored events and labels (adding, for a\n"
+    "pruned day, the part kept for its deleted rows) and compares it, counter by\n"
+    "counter, with the summary the reports read. Prints one line per day. Also reports\n"
+    "days with event rows but no summary, summaries with neither rows nor a pruned\n"
+    "record, and stored labels or classes outside 0..K-1. Reads one snapshot; writes\n"
+    "nothing.\n\n"
+    "  --deep   also run SQLite's PRAGMA integrity_check on the whole file\n\n"
+    "exit: 0 nothing found, 1 some finding (listed), 2 usage, 3 file or database error,\n"
     "4 unknown model\n";
+
+static int show_fault(void *ctx, const char *what, const char *id, int64_t value)
+{
+    int *shown = ctx;
+    if ((*shown)++ < 20)
+        printf("%s %lld of event '%.128s' is outside 0..K-1\n", what, (long long)value,
+               id ? id : "?");
+    return 0;
+}
+
+static int show_integrity(void *ctx, const char *line)
+{
+    int *shown = ctx;
+    if ((*shown)++ < 50)
+        printf("integrity_check: %s\n", line);
+    return 0;
+}
+
+/* Index of day in the sorted array, or -1. */
+static int find_day(const int64_t *days, int n, int64_t day)
+{
+    int lo = 0, hi = n - 1;
+    while (lo <= hi) {
+        int mid = lo + (hi - lo) / 2;
+        if (days[mid] == day)
+            return mid;
+        if (days[mid] < day)
+            lo = mid + 1;
+        else
+            hi = mid - 1;
+    }
+    return -1;
+}
 
 int cmd_verify(int argc, char **argv)
 {
-    cli_opt opts[] = {{"db", 0, 1, NULL}, {"model", 0, 1, NULL}};
-    int n_opts = 2, n_pos, help;
+    cli_opt opts[] = {{"db", 0, 1, NULL}, {"model", 0, 1, NULL}, {"deep", 0, 0, NULL}};
+    int n_opts = 3, n_pos, help;
     char *pos[64];
     if (argc > 64 || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, "verify"))
         return EXIT_USAGE;
@@ -28,45 +68,82 @@ int cmd_verify(int argc, char **argv)
     const char *db = cli_get(opts, n_opts, "db"), *model = cli_get(opts, n_opts, "model");
     if (!db || !model)
         return cli_usage("verify", "--db and --model are required");
+    if (n_pos)
+        return cli_usage("verify", "unexpected argument '%s'", pos[0]);
 
     cc_error err = CC_ERROR_INIT;
     cc_store *store = NULL;
     cc_model *m = NULL;
-    cc_summary *stored = NULL, *rebuilt = NULL;
-    int64_t *days = NULL;
-    int n_days = 0, rc = EXIT_OK, bad = 0;
-    if (cc_store_open(&store, db, 0, &err) || cc_store_model_get(store, model, &m, &err) ||
-        cc_store_summary_days(store, m, INT64_MIN / 4, INT64_MAX / 4, &days, &n_days, &err)) {
+    cc_summary *stored = NULL, *rebuilt = NULL, *pruned = NULL;
+    int64_t *days = NULL, *row_days = NULL, faults = 0;
+    int n_days = 0, n_row_days = 0, rc = EXIT_OK, bad = 0, orphans = 0, shown = 0;
+    if (cli_store_open(&store, db, CC_STORE_READONLY, &err) ||
+        cc_store_model_get(store, model, &m, &err) ||
+        cc_store_summary_days(store, m, INT64_MIN / 4, INT64_MAX / 4, &days, &n_days, &err) ||
+        cc_store_row_days(store, m, &row_days, &n_row_days, &err)) {
         rc = cli_fail(&err);
         goto done;
     }
     stored = cc_summary_create(m->m, m->k);
     rebuilt = cc_summary_create(m->m, m->k);
-    if (!stored || !rebuilt) {
+    pruned = cc_summary_create(m->m, m->k);
+    if (!stored || !rebuilt || !pruned) {
         fprintf(stderr, "concord verify: out of memory\n");
         rc = EXIT_IO;
         goto done;
     }
     for (int i = 0; i < n_days; i++) {
         char d[11];
+        int was_pruned;
         cc_format_date(days[i], d);
         if (cc_store_summary_get(store, m, days[i], stored, &err) ||
-            cc_store_summary_from_rows(store, m, days[i], rebuilt, &err)) {
+            cc_store_summary_from_rows(store, m, days[i], rebuilt, &err) ||
+            cc_store_pruned_get(store, m, days[i], &was_pruned, pruned, &err)) {
             rc = cli_fail(&err);
             goto done;
         }
+        int has_rows = find_day(row_days, n_row_days, days[i]) >= 0;
+        cc_summary_merge(rebuilt, pruned);
         int same = cc_summary_equal(stored, rebuilt);
         bad += !same;
-        printf("%s %lld events %s\n", d,
+        const char *verdict = same ? "ok" : "MISMATCH";
+        if (!has_rows && !was_pruned)
+            verdict = "MISMATCH: a summary without event rows and without a pruned record";
+        printf("%s %lld events %s%s\n", d,
                (long long)cc_summary_data(stored)[cc_summary_layout(stored)->n_events],
-               same ? "ok" : "MISMATCH");
+               verdict, same && was_pruned ? (has_rows ? " (partly pruned)" : " (pruned)") : "");
     }
-    printf("%d days checked, %d mismatched\n", n_days, bad);
-    rc = bad ? EXIT_REJECTED : EXIT_OK;
+    for (int i = 0; i < n_row_days; i++)
+        if (find_day(days, n_days, row_days[i]) < 0) {
+            char d[11];
+            cc_format_date(row_days[i], d);
+            printf("%s MISSING SUMMARY: the day has event rows but no summary\n", d);
+            orphans++;
+        }
+    if (cc_store_class_faults(store, m, show_fault, &shown, &faults, &err)) {
+        rc = cli_fail(&err);
+        goto done;
+    }
+    printf("%d days checked, %d mismatched, %d days with rows but no summary, %lld class "
+           "indexes out of range\n",
+           n_days, bad, orphans, (long long)faults);
+    int found = bad || orphans || faults;
+    if (cli_get(opts, n_opts, "deep")) {
+        int ok, lines = 0;
+        if (cc_store_integrity(store, show_integrity, &lines, &ok, &err)) {
+            rc = cli_fail(&err);
+            goto done;
+        }
+        printf("integrity_check: %s\n", ok ? "ok" : "PROBLEMS (listed above)");
+        found |= !ok;
+    }
+    rc = found ? EXIT_REJECTED : EXIT_OK;
 done:
     free(days);
+    free(row_days);
     cc_summary_free(stored);
     cc_summary_free(rebuilt);
+    cc_summary_free(pruned);
     cc_model_free(m);
     cc_store_close(store);
     return rc;

@@ -1,6 +1,7 @@
 /* main.c — concord's entry point: dispatches to one command per file. */
 #include <stdio.h>
 #include <string.h>
+#include <sys/stat.h>
 
 #include "cli.h"
 
@@ -14,6 +15,9 @@ static const cli_command commands[] = {
     {"review", cmd_review, "the events behind an incident: wrong, helped, hurt, uncertain",
      help_review},
     {"show", cmd_show, "one stored event in full", help_show},
+    {"prune", cmd_prune, "delete old event rows, keep their days' summaries", help_prune},
+    {"backup", cmd_backup, "a consistent copy of the database, taken while writers run",
+     help_backup},
     {"demo", cmd_demo, "run the whole job on an invented fruit-grading ensemble", help_demo},
     {"rules", cmd_rules, "write the default alert rules, check a rules file", help_rules},
     {"check", cmd_check, "evaluate alert rules on a day, notify on transitions", help_check},
@@ -32,7 +36,9 @@ static void usage(FILE *f)
                "commands:\n");
     for (size_t i = 0; i < sizeof commands / sizeof *commands; i++)
         fprintf(f, "  %-9s %s\n", commands[i].name, commands[i].summary);
-    fprintf(f, "\n'concord COMMAND --help' describes a command.\n"
+    fprintf(f, "\n'concord COMMAND --help' describes a command. Every command takes\n"
+               "--wait SECONDS (or CONCORD_WAIT): how long a writer waits for another\n"
+               "writer's lock before giving up with exit 3 (default 60; follow retries).\n"
                "exit codes: 0 ok, 1 some input lines rejected, 2 usage error,\n"
                "            3 file or database error, 4 unknown model or nothing to report;\n"
                "            check: 10 a rule fired, 11 rules still firing; deliver: 12 some\n"
@@ -41,6 +47,9 @@ static void usage(FILE *f)
 
 int main(int argc, char **argv)
 {
+    /* files concord creates (database, WAL, outputs, demo files) are the
+     * owner's only; a stricter umask stays */
+    umask(umask(0) | 077);
     if (argc > 0 && argv[0] && strchr(argv[0], '/'))
         cli_program = argv[0];
     if (argc < 2) {

@@ -33,6 +33,7 @@ typedef struct model_state {
     int n_days, cap_days, last;
     size_t delta_bytes; /* one summary of this model's shape */
     float *probs; /* m*k scratch */
+    int64_t pruned_last; /* last pruned day (events on or before it are refused) */
 } model_state;
 
 typedef struct strict_reject {
@@ -184,6 +185,12 @@ static model_state *model_for(cc_ingest *ing, const char *name, int m, int k, ch
     cc_layout lay;
     cc_layout_init(&lay, model->m, model->k);
     ms->delta_bytes = lay.len * sizeof(int64_t);
+    cc_pruned_range pr;
+    if (cc_store_pruned_range(ing->store, model, INT64_MIN / 4, INT64_MAX / 4, &pr, err)) {
+        *fatal = 1;
+        return NULL;
+    }
+    ms->pruned_last = pr.days ? pr.last : INT64_MIN;
     return ms;
 }
 
@@ -422,6 +429,14 @@ static int take_event(cc_ingest *ing, const char *source, const cc_line *ln, cc_
         resolve_label(model, ev.label, ev.label_name, &label, why, sizeof why))
         return reject(ing, "event", source, ln, why, err);
 
+    if (cc_day_of_unix(ev.ts) <= ms->pruned_last) {
+        char last[11];
+        cc_format_date(ms->pruned_last, last);
+        snprintf(why, sizeof why, "field 'ts': model '%s' was pruned up to %s; events of "
+                                  "pruned days are refused (their ids cannot be checked)",
+                 model->name, last);
+        return reject(ing, "event", source, ln, why, err);
+    }
     size_t n = (size_t)model->m * (size_t)model->k;
     for (size_t i = 0; i < n; i++)
         ms->probs[i] = (float)ev.probs[i];

@@ -2,16 +2,22 @@
 #include "store.h"
 
 #include <cjson/cJSON.h>
+#include <errno.h>
+#include <fcntl.h>
 #include <sqlite3.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/file.h>
+#include <sys/stat.h>
 #include <time.h>
+#include <unistd.h>
 
 #include "date.h"
 #include "summary_codec.h"
 
-#define SCHEMA_VERSION 1
+/* 1: the first layout; 2: pruned_days. */
+#define SCHEMA_VERSION 2
 
 enum {
     ST_EVENT_INSERT,
@@ -45,6 +51,15 @@ struct cc_store {
     char *path;
     sqlite3_stmt *st[ST_COUNT];
     cc_summary *scratch; /* reused by cc_store_summary_add */
+    cc_store_opts o;
+    int readonly;
+    int64_t version;     /* schema version of the file */
+    int lock_fd;         /* the database file, for the waiting-writer flag (flock) */
+    int in_begin;        /* inside cc_store_begin: a wait raises the flag */
+    int flagged;         /* this store holds the flag */
+    int wait_noted, timed_out;
+    int own_snapshot;    /* cc_store_snapshot_begin opened a read transaction */
+    int64_t wait_start_ms;
 };
 
 static const char schema_sql[] =
@@ -71,10 +86,35 @@ static const char schema_sql[] =
     "  source TEXT NOT NULL, line INTEGER NOT NULL, reason TEXT NOT NULL, text TEXT);"
     "CREATE TABLE IF NOT EXISTS pending_labels("
     "  model_id INTEGER NOT NULL, id TEXT NOT NULL, label INTEGER NOT NULL,"
-    "  received_at INTEGER NOT NULL, PRIMARY KEY(model_id, id)) WITHOUT ROWID;";
+    "  received_at INTEGER NOT NULL, PRIMARY KEY(model_id, id)) WITHOUT ROWID;"
+    /* version 2: the summary part of pruned rows, per day */
+    "CREATE TABLE IF NOT EXISTS pruned_days("
+    "  model_id INTEGER NOT NULL, day INTEGER NOT NULL, version INTEGER NOT NULL,"
+    "  events INTEGER NOT NULL, counters BLOB NOT NULL, pruned_at INTEGER NOT NULL,"
+    "  PRIMARY KEY(model_id, day)) WITHOUT ROWID;";
+
+static int64_t now_ms(void)
+{
+    struct timespec ts;
+    clock_gettime(CLOCK_MONOTONIC, &ts);
+    return (int64_t)ts.tv_sec * 1000 + ts.tv_nsec / 1000000;
+}
+
+static void sleep_ms(int ms)
+{
+    struct timespec ts = {ms / 1000, (long)(ms % 1000) * 1000000L};
+    while (nanosleep(&ts, &ts) != 0 && errno == EINTR)
+        ;
+}
 
 static int db_error(cc_store *s, cc_error *err, const char *what)
 {
+    int code = sqlite3_errcode(s->db);
+    if (code == SQLITE_BUSY || code == SQLITE_LOCKED)
+        return cc_error_set(err, CC_EBUSY,
+                            "%s: %s: another writer held the database lock for more than "
+                            "%d s; gave up (see --wait)",
+                            s->path, what, s->o.wait_ms / 1000);
     return cc_error_set(err, CC_EIO, "%s: %s: %s", s->path, what, sqlite3_errmsg(s->db));
 }
 
@@ -82,7 +122,11 @@ static int exec(cc_store *s, const char *sql, cc_error *err)
 {
     char *msg = NULL;
     if (sqlite3_exec(s->db, sql, NULL, NULL, &msg) != SQLITE_OK) {
-        int rc = cc_error_set(err, CC_EIO, "%s: %s", s->path, msg ? msg : "sqlite error");
+        int code = sqlite3_errcode(s->db), rc;
+        if (code == SQLITE_BUSY || code == SQLITE_LOCKED)
+            rc = db_error(s, err, "waiting for the write lock");
+        else
+            rc = cc_error_set(err, CC_EIO, "%s: %s", s->path, msg ? msg : "sqlite error");
         sqlite3_free(msg);
         return rc;
     }
@@ -97,7 +141,243 @@ static sqlite3_stmt *stmt(cc_store *s, int which)
     return st;
 }
 
-int cc_store_open(cc_store **out, const char *path, int create, cc_error *err)
+/* Waiting for the lock. SQLite's locks are not fair: a writer that commits
+ * and begins again at once would keep a polling waiter out for its whole
+ * run. So a writer waiting in cc_store_begin raises a flag (an exclusive
+ * flock on the database file, which does not touch SQLite's own fcntl
+ * locks), and cc_store_commit, seeing the flag, pauses until the waiter has
+ * the lock and lowers it (at most HANDOFF_MS). */
+#define HANDOFF_MS 2000
+
+static int busy_handler(void *p, int count)
+{
+    cc_store *s = p;
+    int64_t t = now_ms();
+    if (count == 0) {
+        s->wait_start_ms = t;
+        s->timed_out = 0;
+        if (!s->wait_noted) {
+            s->wait_noted = 1;
+            if (s->o.on_wait)
+                s->o.on_wait(s->o.ctx, s->path);
+        }
+    }
+    if (s->in_begin && !s->flagged && s->lock_fd >= 0 &&
+        flock(s->lock_fd, LOCK_EX | LOCK_NB) == 0)
+        s->flagged = 1;
+    int64_t waited = t - s->wait_start_ms;
+    if (s->o.wait_ms >= 0 && waited >= s->o.wait_ms) {
+        s->timed_out = 1;
+        return 0;
+    }
+    /* back off: poll often at first, then less */
+    sleep_ms(waited < 200 ? 1 : waited < 5000 ? 5 : 25);
+    return 1;
+}
+
+static void lower_flag(cc_store *s)
+{
+    if (s->flagged) {
+        flock(s->lock_fd, LOCK_UN);
+        s->flagged = 0;
+    }
+}
+
+static void hand_off(cc_store *s)
+{
+    if (s->lock_fd < 0)
+        return;
+    int64_t until = now_ms() + HANDOFF_MS;
+    while (flock(s->lock_fd, LOCK_SH | LOCK_NB) != 0) {
+        if (errno != EWOULDBLOCK && errno != EINTR)
+            return;
+        if (now_ms() >= until)
+            return;
+        sleep_ms(1);
+    }
+    flock(s->lock_fd, LOCK_UN);
+}
+
+int cc_store_take_timed_out(cc_store *s)
+{
+    int t = s->timed_out;
+    s->timed_out = 0;
+    return t;
+}
+
+int cc_store_readonly(const cc_store *s) { return s->readonly; }
+
+static int begin_write(cc_store *s, cc_error *err)
+{
+    if (s->readonly)
+        return cc_error_set(err, CC_EIO, "%s: opened read-only", s->path);
+    s->in_begin = 1;
+    int rc = exec(s, "BEGIN IMMEDIATE;", err);
+    s->in_begin = 0;
+    lower_flag(s);
+    return rc;
+}
+
+/* schema_version from meta: 0 when there is no meta table or no row. Read
+ * as 64 bits, so no version wraps round to an old one. */
+static int read_version(cc_store *s, int64_t *version, cc_error *err)
+{
+    sqlite3_stmt *st = NULL;
+    *version = 0;
+    int rc = sqlite3_prepare_v2(s->db,
+                                "SELECT 1 FROM sqlite_master WHERE type = 'table' "
+                                "AND name = 'meta'", -1, &st, NULL);
+    int step = rc == SQLITE_OK ? sqlite3_step(st) : rc;
+    sqlite3_finalize(st);
+    if (step == SQLITE_DONE)
+        return 0;
+    if (step != SQLITE_ROW)
+        return db_error(s, err, "reading the schema");
+    if (sqlite3_prepare_v2(s->db, "SELECT value FROM meta WHERE key = 'schema_version'", -1,
+                           &st, NULL) != SQLITE_OK)
+        return db_error(s, err, "reading the schema version");
+    step = sqlite3_step(st);
+    if (step == SQLITE_ROW)
+        *version = sqlite3_column_int64(st, 0);
+    sqlite3_finalize(st);
+    if (step != SQLITE_ROW && step != SQLITE_DONE)
+        return db_error(s, err, "reading the schema version");
+    return 0;
+}
+
+static int check_version(cc_store *s, int64_t version, cc_error *err)
+{
+    if (version < 0)
+        return cc_error_set(err, CC_EIO, "%s: schema version %lld is not valid; the database "
+                                         "was left untouched", s->path, (long long)version);
+    if (version > SCHEMA_VERSION)
+        return cc_error_set(err, CC_EIO,
+                            "%s: schema version %lld is newer than this concord (%d); the "
+                            "database was left untouched",
+                            s->path, (long long)version, SCHEMA_VERSION);
+    return 0;
+}
+
+/* Creates or upgrades the schema in one write transaction, unless it is
+ * current already (then nothing is written). */
+static int bring_up_to_date(cc_store *s, cc_error *err)
+{
+    int64_t version;
+    int rc = read_version(s, &version, err);
+    if (rc || (rc = check_version(s, version, err)))
+        return rc;
+    if (version == SCHEMA_VERSION) {
+        s->version = version;
+        return 0;
+    }
+    if ((rc = begin_write(s, err)))
+        return rc;
+    /* another writer may have done it meanwhile */
+    if ((rc = read_version(s, &version, err)) || (rc = check_version(s, version, err)) ||
+        (rc = exec(s, schema_sql, err))) {
+        cc_store_rollback(s);
+        return rc;
+    }
+    char sql[128];
+    snprintf(sql, sizeof sql,
+             "INSERT OR REPLACE INTO meta(key, value) VALUES ('schema_version', '%d');",
+             SCHEMA_VERSION);
+    if ((rc = exec(s, sql, err)) || (rc = exec(s, "COMMIT;", err))) {
+        cc_store_rollback(s);
+        return rc;
+    }
+    s->version = SCHEMA_VERSION;
+    return 0;
+}
+
+static int open_errno(cc_store *s, const char *what, cc_error *err)
+{
+    if (errno == ENOENT)
+        return cc_error_set(err, CC_EIO, "%s: no such database (a reading command never "
+                                         "creates one; run 'concord ingest' first)", s->path);
+    return cc_error_set(err, CC_EIO, "%s: %s: %s", s->path, what, strerror(errno));
+}
+
+/* "file:" URI of a path for SQLite's immutable mode. */
+static char *immutable_uri(const char *path)
+{
+    size_t n = strlen(path);
+    char *u = malloc(3 * n + 32);
+    if (!u)
+        return NULL;
+    char *p = u + sprintf(u, path[0] == '/' ? "file://" : "file:");
+    for (const unsigned char *c = (const unsigned char *)path; *c; c++)
+        p += (*c == '%' || *c == '?' || *c == '#') ? sprintf(p, "%%%02X", *c)
+                                                   : (*p = (char)*c, 1);
+    strcpy(p, "?immutable=1");
+    return u;
+}
+
+/* A WAL with content means committed data that only the WAL index can find. */
+static int wal_pending(const char *path)
+{
+    char wal[4200];
+    struct stat st;
+    if (snprintf(wal, sizeof wal, "%s-wal", path) >= (int)sizeof wal)
+        return 1;
+    return stat(wal, &st) == 0 && st.st_size > 0;
+}
+
+static int start_snapshot(cc_store *s)
+{
+    return sqlite3_exec(s->db, "BEGIN; SELECT count(*) FROM sqlite_master;", NULL, NULL,
+                        NULL);
+}
+
+static int open_reader(cc_store *s, cc_error *err)
+{
+    int flags = SQLITE_OPEN_READONLY | SQLITE_OPEN_NOMUTEX;
+    int rc = sqlite3_open_v2(s->path, &s->db, flags, NULL);
+    if (rc == SQLITE_OK) {
+        sqlite3_busy_handler(s->db, busy_handler, s);
+        rc = start_snapshot(s);
+    }
+    if (rc == SQLITE_OK)
+        return 0;
+    int ext = s->db ? sqlite3_extended_errcode(s->db) : rc;
+    int prim = ext & 0xff;
+    if ((prim == SQLITE_CANTOPEN || prim == SQLITE_IOERR || prim == SQLITE_READONLY) &&
+        !wal_pending(s->path)) {
+        /* the WAL index could not be made (read-only mount, full disk) and no
+         * WAL is pending: the file alone is the database */
+        char *uri = immutable_uri(s->path);
+        sqlite3_close(s->db);
+        s->db = NULL;
+        if (!uri)
+            return cc_error_set(err, CC_ENOMEM, "out of memory");
+        rc = sqlite3_open_v2(uri, &s->db, flags | SQLITE_OPEN_URI, NULL);
+        free(uri);
+        if (rc == SQLITE_OK)
+            rc = start_snapshot(s);
+        if (rc == SQLITE_OK)
+            return 0;
+    }
+    if (prim == SQLITE_BUSY)
+        return db_error(s, err, "reading");
+    return cc_error_set(err, CC_EIO, "%s: cannot read the database: %s", s->path,
+                        s->db ? sqlite3_errmsg(s->db) : sqlite3_errstr(rc));
+}
+
+static int open_writer(cc_store *s, cc_error *err)
+{
+    int flags = SQLITE_OPEN_READWRITE | SQLITE_OPEN_NOMUTEX;
+    if (sqlite3_open_v2(s->path, &s->db, flags, NULL) != SQLITE_OK)
+        return cc_error_set(err, CC_EIO, "%s: cannot open database: %s", s->path,
+                            s->db ? sqlite3_errmsg(s->db) : "out of memory");
+    sqlite3_busy_handler(s->db, busy_handler, s);
+    return exec(s, "PRAGMA page_size=16384; PRAGMA journal_mode=WAL; PRAGMA synchronous=NORMAL;"
+                   "PRAGMA foreign_keys=ON; PRAGMA cache_size=-65536;"
+                   "PRAGMA wal_autocheckpoint=8192; PRAGMA journal_size_limit=67108864;",
+                err);
+}
+
+int cc_store_open_with(cc_store **out, const char *path, const cc_store_opts *o,
+                       cc_error *err)
 {
     cc_store *s = calloc(1, sizeof *s);
     int rc;
@@ -106,59 +386,57 @@ int cc_store_open(cc_store **out, const char *path, int create, cc_error *err)
         free(s);
         return cc_error_set(err, CC_ENOMEM, "out of memory");
     }
-    /* one connection per thread: SQLite's own mutexes are not needed */
-    int flags = SQLITE_OPEN_READWRITE | SQLITE_OPEN_NOMUTEX | (create ? SQLITE_OPEN_CREATE : 0);
-    if (sqlite3_open_v2(path, &s->db, flags, NULL) != SQLITE_OK) {
-        rc = cc_error_set(err, CC_EIO, "%s: cannot open database: %s", path,
-                          s->db ? sqlite3_errmsg(s->db) : "out of memory");
-        goto fail;
-    }
-    sqlite3_busy_timeout(s->db, 10000);
-    if ((rc = exec(s, "PRAGMA page_size=16384; PRAGMA journal_mode=WAL; PRAGMA synchronous=NORMAL;"
-                      "PRAGMA foreign_keys=ON; PRAGMA cache_size=-65536;"
-                      "PRAGMA wal_autocheckpoint=8192; PRAGMA journal_size_limit=67108864;", err)))
-        goto fail;
-    if ((rc = exec(s, "BEGIN IMMEDIATE;", err)))
-        goto fail;
-    if ((rc = exec(s, schema_sql, err))) {
-        exec(s, "ROLLBACK;", NULL);
-        goto fail;
-    }
-    {
-        sqlite3_stmt *st;
-        int version = 0;
-        sqlite3_prepare_v2(s->db, "SELECT value FROM meta WHERE key = 'schema_version'", -1,
-                           &st, NULL);
-        if (st && sqlite3_step(st) == SQLITE_ROW)
-            version = sqlite3_column_int(st, 0);
-        sqlite3_finalize(st);
-        if (version > SCHEMA_VERSION) {
-            exec(s, "ROLLBACK;", NULL);
-            rc = cc_error_set(err, CC_EIO,
-                              "%s: schema version %d is newer than this concord (%d)", path,
-                              version, SCHEMA_VERSION);
+    s->o = *o;
+    s->lock_fd = -1;
+    s->readonly = (o->flags & CC_STORE_READONLY) != 0;
+    if (s->readonly) {
+        struct stat st;
+        if (stat(path, &st) != 0) {
+            rc = open_errno(s, "cannot open database", err);
             goto fail;
         }
-        char sql[128];
-        snprintf(sql, sizeof sql,
-                 "INSERT OR REPLACE INTO meta(key, value) VALUES ('schema_version', '%d');",
-                 SCHEMA_VERSION);
-        if ((rc = exec(s, sql, err)) || (rc = exec(s, "COMMIT;", err))) {
-            exec(s, "ROLLBACK;", NULL);
+        if ((rc = open_reader(s, err)) || (rc = read_version(s, &s->version, err)) ||
+            (rc = check_version(s, s->version, err)))
+            goto fail;
+        if (s->version == 0) {
+            rc = cc_error_set(err, CC_EIO, "%s: not a concord database (no schema)", path);
             goto fail;
         }
+        exec(s, "PRAGMA cache_size=-65536;", NULL);
+    } else {
+        /* created owner-only: it will hold webhook receivers; SQLite gives
+         * the WAL and its index the database file's mode */
+        int oflags = O_RDONLY | O_CLOEXEC;
+        if (o->flags & CC_STORE_CREATE)
+            oflags = O_RDWR | O_CREAT | O_CLOEXEC;
+        if ((s->lock_fd = open(path, oflags, 0600)) < 0) {
+            rc = open_errno(s, "cannot open database", err);
+            goto fail;
+        }
+        if ((rc = open_writer(s, err)) || (rc = bring_up_to_date(s, err)))
+            goto fail;
     }
-    for (int i = 0; i < ST_COUNT; i++)
+    for (int i = 0; i < ST_COUNT; i++) {
+        if (s->readonly && i != ST_EVENT_GET && i != ST_SUMMARY_GET)
+            continue;
         if (sqlite3_prepare_v3(s->db, stmt_sql[i], -1, SQLITE_PREPARE_PERSISTENT, &s->st[i],
                                NULL) != SQLITE_OK) {
             rc = db_error(s, err, "preparing statements");
             goto fail;
         }
+    }
     *out = s;
     return 0;
 fail:
     cc_store_close(s);
     return rc;
+}
+
+int cc_store_open(cc_store **out, const char *path, int flags, cc_error *err)
+{
+    cc_store_opts o = CC_STORE_OPTS_INIT;
+    o.flags = flags;
+    return cc_store_open_with(out, path, &o, err);
 }
 
 void cc_store_close(cc_store *s)
@@ -168,7 +446,13 @@ void cc_store_close(cc_store *s)
     for (int i = 0; i < ST_COUNT; i++)
         sqlite3_finalize(s->st[i]);
     cc_summary_free(s->scratch);
+    if (s->db && !sqlite3_get_autocommit(s->db))
+        sqlite3_exec(s->db, "ROLLBACK;", NULL, NULL, NULL);
     sqlite3_close(s->db);
+    /* only now: closing another descriptor of the file would drop SQLite's
+     * fcntl locks */
+    if (s->lock_fd >= 0)
+        close(s->lock_fd);
     free(s->path);
     free(s);
 }
@@ -176,8 +460,34 @@ void cc_store_close(cc_store *s)
 sqlite3 *cc_store_db(cc_store *s) { return s->db; }
 const char *cc_store_path(const cc_store *s) { return s->path; }
 
-int cc_store_begin(cc_store *s, cc_error *err) { return exec(s, "BEGIN IMMEDIATE;", err); }
-int cc_store_commit(cc_store *s, cc_error *err) { return exec(s, "COMMIT;", err); }
+int cc_store_snapshot_begin(cc_store *s, cc_error *err)
+{
+    if (!sqlite3_get_autocommit(s->db))
+        return 0;
+    s->own_snapshot = 1;
+    if (start_snapshot(s) != SQLITE_OK) {
+        int rc = db_error(s, err, "starting a read transaction");
+        cc_store_snapshot_end(s);
+        return rc;
+    }
+    return 0;
+}
+
+void cc_store_snapshot_end(cc_store *s)
+{
+    if (s->own_snapshot && !sqlite3_get_autocommit(s->db))
+        sqlite3_exec(s->db, "COMMIT;", NULL, NULL, NULL);
+    s->own_snapshot = 0;
+}
+
+int cc_store_begin(cc_store *s, cc_error *err) { return begin_write(s, err); }
+int cc_store_commit(cc_store *s, cc_error *err)
+{
+    int rc = exec(s, "COMMIT;", err);
+    if (!rc)
+        hand_off(s);
+    return rc;
+}
 void cc_store_rollback(cc_store *s)
 {
     if (!sqlite3_get_autocommit(s->db))
@@ -637,4 +947,278 @@ int64_t cc_store_pending_label_count(cc_store *s, const cc_model *m)
         n = sqlite3_column_int64(st, 0);
     sqlite3_finalize(st);
     return n;
+}
+
+/* Whether a table exists: a reader may open a database of an older schema
+ * version that lacks the newer tables. */
+static int has_table(cc_store *s, const char *name)
+{
+    sqlite3_stmt *st = NULL;
+    int yes = 0;
+    if (sqlite3_prepare_v2(s->db, "SELECT 1 FROM sqlite_master WHERE type = 'table' AND name = ?1",
+                           -1, &st, NULL) == SQLITE_OK) {
+        sqlite3_bind_text(st, 1, name, -1, SQLITE_STATIC);
+        yes = sqlite3_step(st) == SQLITE_ROW;
+    }
+    sqlite3_finalize(st);
+    return yes;
+}
+
+int cc_store_pruned_get(cc_store *s, const cc_model *m, int64_t day, int *found,
+                        cc_summary *out, cc_error *err)
+{
+    sqlite3_stmt *st = NULL;
+    const cc_layout *lay = cc_summary_layout(out);
+    *found = 0;
+    cc_summary_clear(out);
+    if (!has_table(s, "pruned_days"))
+        return 0;
+    if (sqlite3_prepare_v2(s->db, "SELECT version, counters FROM pruned_days "
+                                  "WHERE model_id = ?1 AND day = ?2",
+                           -1, &st, NULL) != SQLITE_OK)
+        return db_error(s, err, "reading pruned days");
+    sqlite3_bind_int64(st, 1, m->id);
+    sqlite3_bind_int64(st, 2, day);
+    int step = sqlite3_step(st), rc = 0;
+    if (step == SQLITE_ROW) {
+        char date[11];
+        cc_format_date(day, date);
+        *found = 1;
+        if (sqlite3_column_int64(st, 0) != CC_SUMMARY_VERSION ||
+            cc_codec_decode(sqlite3_column_blob(st, 1), (size_t)sqlite3_column_bytes(st, 1),
+                            cc_summary_data_mut(out), lay->len))
+            rc = cc_error_set(err, CC_EIO, "%s: pruned part of %s for model '%s' is damaged",
+                              s->path, date, m->name);
+    } else if (step != SQLITE_DONE) {
+        rc = db_error(s, err, "reading pruned days");
+    }
+    sqlite3_finalize(st);
+    return rc;
+}
+
+int cc_store_prune_day(cc_store *s, const cc_model *m, int64_t day, int64_t now,
+                       int64_t *removed, cc_error *err)
+{
+    cc_summary *rows = cc_summary_create(m->m, m->k), *kept = cc_summary_create(m->m, m->k);
+    unsigned char *blob = NULL;
+    sqlite3_stmt *st = NULL;
+    int found, rc = 0;
+    *removed = 0;
+    if (!rows || !kept) {
+        rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+        goto done;
+    }
+    if ((rc = cc_store_summary_from_rows(s, m, day, rows, err)))
+        goto done;
+    const cc_layout *lay = cc_summary_layout(rows);
+    int64_t n = cc_summary_data(rows)[lay->n_events];
+    if (n == 0)
+        goto done;
+    if ((rc = cc_store_pruned_get(s, m, day, &found, kept, err)))
+        goto done;
+    cc_summary_merge(kept, rows);
+    size_t len;
+    if (!(blob = cc_codec_encode(cc_summary_data(kept), lay->len, &len))) {
+        rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+        goto done;
+    }
+    if (sqlite3_prepare_v2(s->db, "INSERT OR REPLACE INTO pruned_days(model_id, day, version, "
+                                  "events, counters, pruned_at) VALUES (?1, ?2, ?3, ?4, ?5, ?6)",
+                           -1, &st, NULL) != SQLITE_OK) {
+        rc = db_error(s, err, "recording a pruned day");
+        goto done;
+    }
+    sqlite3_bind_int64(st, 1, m->id);
+    sqlite3_bind_int64(st, 2, day);
+    sqlite3_bind_int(st, 3, CC_SUMMARY_VERSION);
+    sqlite3_bind_int64(st, 4, cc_summary_data(kept)[lay->n_events]);
+    sqlite3_bind_blob(st, 5, blob, (int)len, SQLITE_STATIC);
+    sqlite3_bind_int64(st, 6, now);
+    if (sqlite3_step(st) != SQLITE_DONE) {
+        rc = db_error(s, err, "recording a pruned day");
+        goto done;
+    }
+    sqlite3_finalize(st);
+    st = NULL;
+    if (sqlite3_prepare_v2(s->db, "DELETE FROM events WHERE model_id = ?1 AND day = ?2", -1,
+                           &st, NULL) != SQLITE_OK) {
+        rc = db_error(s, err, "deleting event rows");
+        goto done;
+    }
+    sqlite3_bind_int64(st, 1, m->id);
+    sqlite3_bind_int64(st, 2, day);
+    if (sqlite3_step(st) != SQLITE_DONE) {
+        rc = db_error(s, err, "deleting event rows");
+        goto done;
+    }
+    *removed = sqlite3_changes(s->db);
+done:
+    sqlite3_finalize(st);
+    free(blob);
+    cc_summary_free(rows);
+    cc_summary_free(kept);
+    return rc;
+}
+
+int cc_store_pruned_range(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+                          cc_pruned_range *out, cc_error *err)
+{
+    sqlite3_stmt *st = NULL;
+    memset(out, 0, sizeof *out);
+    if (!has_table(s, "pruned_days"))
+        return 0;
+    if (sqlite3_prepare_v2(s->db, "SELECT count(*), min(day), max(day), total(events) FROM "
+                                  "pruned_days WHERE model_id = ?1 AND day BETWEEN ?2 AND ?3",
+                           -1, &st, NULL) != SQLITE_OK)
+        return db_error(s, err, "reading pruned days");
+    sqlite3_bind_int64(st, 1, m->id);
+    sqlite3_bind_int64(st, 2, from);
+    sqlite3_bind_int64(st, 3, to);
+    int step = sqlite3_step(st);
+    if (step == SQLITE_ROW) {
+        out->days = sqlite3_column_int(st, 0);
+        out->first = sqlite3_column_int64(st, 1);
+        out->last = sqlite3_column_int64(st, 2);
+        out->events = (int64_t)sqlite3_column_double(st, 3);
+    }
+    sqlite3_finalize(st);
+    return step == SQLITE_ROW ? 0 : db_error(s, err, "reading pruned days");
+}
+
+int cc_store_row_days(cc_store *s, const cc_model *m, int64_t **days, int *n, cc_error *err)
+{
+    sqlite3_stmt *st = NULL;
+    int rc = 0, step;
+    *days = NULL;
+    *n = 0;
+    if (sqlite3_prepare_v2(s->db, "SELECT DISTINCT day FROM events WHERE model_id = ?1 "
+                                  "ORDER BY day",
+                           -1, &st, NULL) != SQLITE_OK)
+        return db_error(s, err, "listing days with events");
+    sqlite3_bind_int64(st, 1, m->id);
+    while ((step = sqlite3_step(st)) == SQLITE_ROW) {
+        int64_t *grown = realloc(*days, (size_t)(*n + 1) * sizeof **days);
+        if (!grown) {
+            rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+            break;
+        }
+        *days = grown;
+        (*days)[(*n)++] = sqlite3_column_int64(st, 0);
+    }
+    if (!rc && step != SQLITE_DONE)
+        rc = db_error(s, err, "listing days with events");
+    sqlite3_finalize(st);
+    return rc;
+}
+
+int cc_store_class_faults(cc_store *s, const cc_model *m, cc_fault_fn fn, void *ctx,
+                          int64_t *count, cc_error *err)
+{
+    static const char *const what[] = {"label", "pred", "pending label"};
+    static const char *const sql[] = {
+        "SELECT id, label FROM events WHERE model_id = ?1 AND label IS NOT NULL "
+        "AND (typeof(label) != 'integer' OR label < 0 OR label >= ?2)",
+        "SELECT id, pred FROM events WHERE model_id = ?1 "
+        "AND (typeof(pred) != 'integer' OR pred < 0 OR pred >= ?2)",
+        "SELECT id, label FROM pending_labels WHERE model_id = ?1 "
+        "AND (typeof(label) != 'integer' OR label < 0 OR label >= ?2)",
+    };
+    *count = 0;
+    for (int q = 0; q < 3; q++) {
+        sqlite3_stmt *st = NULL;
+        int step, stop = 0;
+        if (sqlite3_prepare_v2(s->db, sql[q], -1, &st, NULL) != SQLITE_OK)
+            return db_error(s, err, "checking class indexes");
+        sqlite3_bind_int64(st, 1, m->id);
+        sqlite3_bind_int(st, 2, m->k);
+        while ((step = sqlite3_step(st)) == SQLITE_ROW) {
+            ++*count;
+            if (!stop && fn)
+                stop = fn(ctx, what[q], (const char *)sqlite3_column_text(st, 0),
+                          sqlite3_column_int64(st, 1));
+        }
+        sqlite3_finalize(st);
+        if (step != SQLITE_DONE)
+            return db_error(s, err, "checking class indexes");
+    }
+    return 0;
+}
+
+int cc_store_integrity(cc_store *s, int (*fn)(void *ctx, const char *line), void *ctx, int *ok,
+                       cc_error *err)
+{
+    sqlite3_stmt *st = NULL;
+    int step;
+    *ok = 1;
+    if (sqlite3_prepare_v2(s->db, "PRAGMA integrity_check", -1, &st, NULL) != SQLITE_OK)
+        return db_error(s, err, "integrity_check");
+    while ((step = sqlite3_step(st)) == SQLITE_ROW) {
+        const char *line = (const char *)sqlite3_column_text(st, 0);
+        if (line && strcmp(line, "ok") == 0)
+            continue;
+        *ok = 0;
+        if (fn && fn(ctx, line ? line : "?"))
+            break;
+    }
+    sqlite3_finalize(st);
+    if (step != SQLITE_ROW && step != SQLITE_DONE)
+        return db_error(s, err, "integrity_check");
+    return 0;
+}
+
+int cc_store_backup(cc_store *s, const char *out_path, cc_error *err)
+{
+    struct stat sb;
+    if (lstat(out_path, &sb) == 0)
+        return cc_error_set(err, CC_EIO, "%s: exists already; the backup does not overwrite",
+                            out_path);
+    size_t n = strlen(out_path);
+    char *tmp = malloc(n + 16);
+    if (!tmp)
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    snprintf(tmp, n + 16, "%s.tmp-XXXXXX", out_path);
+    int fd = mkstemp(tmp); /* owner-only */
+    if (fd < 0) {
+        int rc = cc_error_set(err, CC_EIO, "%s: cannot create: %s", out_path, strerror(errno));
+        free(tmp);
+        return rc;
+    }
+    close(fd);
+    sqlite3 *dst = NULL;
+    int rc = 0;
+    if (sqlite3_open_v2(tmp, &dst, SQLITE_OPEN_READWRITE | SQLITE_OPEN_NOMUTEX, NULL) !=
+        SQLITE_OK) {
+        rc = cc_error_set(err, CC_EIO, "%s: cannot open: %s", tmp,
+                          dst ? sqlite3_errmsg(dst) : "out of memory");
+    } else {
+        sqlite3_backup *b = sqlite3_backup_init(dst, "main", s->db, "main");
+        if (!b) {
+            rc = cc_error_set(err, CC_EIO, "%s: backup: %s", out_path, sqlite3_errmsg(dst));
+        } else {
+            /* one step: the whole copy comes from one read transaction */
+            int step = sqlite3_backup_step(b, -1);
+            int fin = sqlite3_backup_finish(b);
+            if (step != SQLITE_DONE || fin != SQLITE_OK)
+                rc = cc_error_set(err, CC_EIO, "%s: backup: %s", out_path,
+                                  sqlite3_errstr(step != SQLITE_DONE ? step : fin));
+        }
+    }
+    if (sqlite3_close(dst) != SQLITE_OK && !rc)
+        rc = cc_error_set(err, CC_EIO, "%s: closing the copy failed", out_path);
+    if (!rc && (fd = open(tmp, O_RDONLY | O_CLOEXEC)) >= 0) {
+        if (fsync(fd) != 0)
+            rc = cc_error_set(err, CC_EIO, "%s: %s", out_path, strerror(errno));
+        close(fd);
+    }
+    /* link() rather than rename(): an out_path made meanwhile is not replaced */
+    if (!rc && link(tmp, out_path) != 0 &&
+        !((errno == EPERM || errno == ENOTSUP || errno == ENOSYS) && lstat(out_path, &sb) != 0 &&
+          rename(tmp, out_path) == 0))
+        rc = cc_error_set(err, CC_EIO, "%s: cannot create: %s", out_path, strerror(errno));
+    unlink(tmp);
+    char side[4200];
+    snprintf(side, sizeof side, "%s-journal", tmp);
+    unlink(side);
+    free(tmp);
+    return rc;
 }

@@ -26,10 +26,51 @@ void cc_model_free(cc_model *m);
 /* Index of a class name, or -1. */
 int cc_model_class_index(const cc_model *m, const char *name, int len);
 
-/* Opens (creating when create != 0) the database at path in WAL mode and
- * brings its schema up to date. */
-int cc_store_open(cc_store **out, const char *path, int create, cc_error *err);
+/* How a store is opened (flags of cc_store_opts and cc_store_open). */
+enum {
+    CC_STORE_CREATE = 1,   /* create the file (owner-only, 0600) when missing */
+    CC_STORE_READONLY = 2, /* read only: no schema change, no write, one WAL snapshot */
+};
+
+/* Concurrency: readers open with CC_STORE_READONLY; they write nothing and
+ * read one consistent snapshot (a read transaction from open to close), so
+ * writers never block them. Writers take the write lock per transaction
+ * (cc_store_begin); one that finds it taken waits up to wait_ms (< 0: no
+ * bound), calling on_wait once per store when it first has to wait. A
+ * writer that commits while another is waiting lets that one in before it
+ * can begin again. */
+typedef struct cc_store_opts {
+    int flags;
+    int wait_ms;
+    void (*on_wait)(void *ctx, const char *path);
+    void *ctx;
+} cc_store_opts;
+
+#define CC_STORE_WAIT_DEFAULT_MS 60000
+#define CC_STORE_OPTS_INIT {0, CC_STORE_WAIT_DEFAULT_MS, NULL, NULL}
+
+/* Opens the database at path. A writer (no CC_STORE_READONLY) creates or
+ * upgrades the schema when needed, in WAL mode; a newer schema version is
+ * refused and left untouched. A missing file is an error unless
+ * CC_STORE_CREATE. A reader on a read-only mount or a full disk, where the
+ * WAL index cannot be created, reads the file as immutable when no WAL is
+ * pending. */
+int cc_store_open_with(cc_store **out, const char *path, const cc_store_opts *o,
+                       cc_error *err);
+/* The same with the default wait (CC_STORE_WAIT_DEFAULT_MS); flags as above
+ * (1 = CC_STORE_CREATE, 0 = an existing database for writing). */
+int cc_store_open(cc_store **out, const char *path, int flags, cc_error *err);
+/* Ends the snapshot of a reader and closes. Accepts NULL. */
 void cc_store_close(cc_store *s);
+int cc_store_readonly(const cc_store *s);
+/* 1 once a wait for the lock ran past the bound (the failing call returned
+ * CC_EBUSY or an SQLite "database is locked"); reading it clears it. */
+int cc_store_take_timed_out(cc_store *s);
+
+/* A read transaction for a writer's connection (a reader has one already):
+ * the reads between begin and end see one snapshot. Nested calls are no-ops. */
+int cc_store_snapshot_begin(cc_store *s, cc_error *err);
+void cc_store_snapshot_end(cc_store *s);
 
 /* The SQLite connection and the database path, for modules that keep tables
  * of their own in the same file (alerts' rule states and outbox, review
@@ -37,7 +78,9 @@ void cc_store_close(cc_store *s);
 struct sqlite3 *cc_store_db(cc_store *s);
 const char *cc_store_path(const cc_store *s);
 
+/* A write transaction (BEGIN IMMEDIATE, waiting as described above). */
 int cc_store_begin(cc_store *s, cc_error *err);
+/* Commits, then lets a writer that is waiting for the lock go first. */
 int cc_store_commit(cc_store *s, cc_error *err);
 void cc_store_rollback(cc_store *s);
 
@@ -104,5 +147,39 @@ typedef int (*cc_pending_fn)(void *payload, const char *id, int id_len, int labe
 int cc_store_pending_label_drain(cc_store *s, const cc_model *m, cc_pending_fn fn,
                                  void *payload, cc_error *err);
 int64_t cc_store_pending_label_count(cc_store *s, const cc_model *m);
+
+/* Data lifecycle. Pruning a day deletes its event rows and keeps its
+ * summary; the summary of the deleted rows is kept in pruned_days, so that
+ * verify can still prove stored summary = rows + pruned part. Call inside a
+ * write transaction; *removed = rows deleted (0: nothing to prune). */
+int cc_store_prune_day(cc_store *s, const cc_model *m, int64_t day, int64_t now,
+                       int64_t *removed, cc_error *err);
+/* The pruned part of a day's summary into out (zero, *found = 0, when the
+ * day was never pruned). */
+int cc_store_pruned_get(cc_store *s, const cc_model *m, int64_t day, int *found,
+                        cc_summary *out, cc_error *err);
+/* Pruned days within [from, to]: how many, the first and last, and the
+ * events they held. */
+typedef struct cc_pruned_range {
+    int days;
+    int64_t first, last, events;
+} cc_pruned_range;
+int cc_store_pruned_range(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+                          cc_pruned_range *out, cc_error *err);
+/* Days that have event rows, ascending (caller frees). */
+int cc_store_row_days(cc_store *s, const cc_model *m, int64_t **days, int *n, cc_error *err);
+/* Calls fn for each stored class index outside [0, k): event labels and
+ * predicted classes, and waiting labels. what names the column. */
+typedef int (*cc_fault_fn)(void *ctx, const char *what, const char *id, int64_t value);
+int cc_store_class_faults(cc_store *s, const cc_model *m, cc_fault_fn fn, void *ctx,
+                          int64_t *count, cc_error *err);
+/* PRAGMA integrity_check: fn gets each problem line; *ok = 1 when none. */
+int cc_store_integrity(cc_store *s, int (*fn)(void *ctx, const char *line), void *ctx,
+                       int *ok, cc_error *err);
+/* A consistent copy of the whole database at out_path, taken with SQLite's
+ * online backup API from this store's snapshot (a reader's) while writers
+ * go on; written to a temporary name in the same folder, owner-only, and
+ * renamed into place. Refuses an existing out_path. */
+int cc_store_backup(cc_store *s, const char *out_path, cc_error *err);
 
 #endif

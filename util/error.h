@@ -11,6 +11,7 @@ enum cc_code {
     CC_EIO = 3,       /* file or database failure */
     CC_ENOTFOUND = 4, /* unknown model, no data in range */
     CC_ENOMEM = 5,
+    CC_EBUSY = 6,     /* another writer held the database lock past the wait bound */
 };
 
 typedef struct cc_error {
