@@ -6,6 +6,7 @@
 
 #include "cli.h"
 #include "date.h"
+#include "out.h"
 
 int cli_exit_for(int code)
 {
@@ -147,4 +148,19 @@ char **cli_split_names(const char *text, int *n)
                 return NULL;
             }
     return out;
+}
+
+int cli_write_output(const char *command, const char *path, const char *text, int newline)
+{
+    cc_error err = CC_ERROR_INIT;
+    cc_out *o;
+    if (cc_out_open(&o, path, 0, &err) == 0) {
+        cc_out_write(o, text, strlen(text));
+        if (newline)
+            cc_out_write(o, "\n", 1);
+        if (cc_out_commit(o, &err) == 0)
+            return EXIT_OK;
+    }
+    fprintf(stderr, "concord %s: %s\n", command, err.msg);
+    return EXIT_IO;
 }

@@ -48,6 +48,11 @@ int cli_fail(const cc_error *err);
 int cli_usage(const char *command, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 int cli_exit_for(int code);
 
+/* Writes text (and a final newline when asked) to path, or standard output
+ * for NULL or "-", through util/out.h: a failed write or close is reported
+ * with the file named and returns EXIT_IO, and leaves no partial file. */
+int cli_write_output(const char *command, const char *path, const char *text, int newline);
+
 /* "YYYY-MM-DD" -> day; prints a usage error on failure. */
 int cli_date(const char *command, const char *opt, const char *text, int64_t *day);
 

@@ -248,11 +248,8 @@ int cli_demo_alerts(struct cc_store *store, const char *dir, int64_t first_day, 
     char rules_path[4200], sink[4200];
     snprintf(rules_path, sizeof rules_path, "%s/rules.json", dir);
     snprintf(sink, sizeof sink, "%s/alerts.jsonl", dir);
-    FILE *f = fopen(rules_path, "w");
-    if (!f || fputs(cc_rules_default_text(), f) == EOF || fclose(f) != 0) {
-        fprintf(stderr, "concord demo: cannot write %s\n", rules_path);
+    if (cli_write_output("demo", rules_path, cc_rules_default_text(), 0) != EXIT_OK)
         return EXIT_IO;
-    }
     remove(sink);
     cc_error err = CC_ERROR_INIT;
     cc_ruleset *rs = NULL;

@@ -28,11 +28,7 @@ const char help_demo[] =
 
 static int write_file(const char *path, const char *text)
 {
-    FILE *f = fopen(path, "w");
-    if (!f)
-        return -1;
-    fputs(text, f);
-    return fclose(f);
+    return cli_write_output("demo", path, text, 0) == EXIT_OK ? 0 : -1;
 }
 
 int cmd_demo(int argc, char **argv)
@@ -113,7 +109,8 @@ int cmd_demo(int argc, char **argv)
     text = cc_report_text(rep);
     js = cc_report_json(rep);
     if (!text || !js || write_file(txt, text) || write_file(json, js)) {
-        fprintf(stderr, "concord demo: cannot write the reports in %s\n", dir);
+        if (!text || !js)
+            fprintf(stderr, "concord demo: out of memory\n");
         rc = EXIT_IO;
         goto done;
     }
@@ -152,7 +149,8 @@ int cmd_demo(int argc, char **argv)
                               &page)) != EXIT_OK)
         goto done;
     if (!page || write_file(html, page)) {
-        fprintf(stderr, "concord demo: cannot write %s\n", html);
+        if (!page)
+            fprintf(stderr, "concord demo: out of memory\n");
         rc = EXIT_IO;
         goto done;
     }

@@ -158,22 +158,11 @@ int cmd_report(int argc, char **argv)
             cc_store_close(store);
             return rc;
         }
-        FILE *f = out ? fopen(out, "w") : stdout;
         if (!text) {
             fprintf(stderr, "concord report: out of memory\n");
             rc = EXIT_IO;
-        } else if (!f) {
-            fprintf(stderr, "concord report: %s: cannot write: %s\n", out, strerror(errno));
-            rc = EXIT_IO;
         } else {
-            fputs(text, f);
-            if (json)
-                fputc('\n', f);
-            if ((out ? fclose(f) : fflush(f)) != 0) {
-                fprintf(stderr, "concord report: %s: write failed: %s\n",
-                        out ? out : "<stdout>", strerror(errno));
-                rc = EXIT_IO;
-            }
+            rc = cli_write_output("report", out, text, json);
         }
         free(text);
     }

@@ -117,22 +117,6 @@ static int parse_where(const char *where, const cc_model *m, cc_review_opts *o)
     return 0;
 }
 
-static int write_out(const char *command, const char *out, const char *text)
-{
-    FILE *f = out ? fopen(out, "w") : stdout;
-    if (!f) {
-        fprintf(stderr, "concord %s: %s: cannot write: %s\n", command, out, strerror(errno));
-        return EXIT_IO;
-    }
-    fputs(text, f);
-    if ((out ? fclose(f) : fflush(f)) != 0) {
-        fprintf(stderr, "concord %s: %s: write failed: %s\n", command, out ? out : "<stdout>",
-                strerror(errno));
-        return EXIT_IO;
-    }
-    return EXIT_OK;
-}
-
 int cmd_review(int argc, char **argv)
 {
     cli_opt opts[] = {{"db", 0, 1, NULL},      {"model", 0, 1, NULL},  {"from", 0, 1, NULL},
@@ -192,15 +176,7 @@ int cmd_review(int argc, char **argv)
             fprintf(stderr, "concord review: out of memory\n");
             rc = EXIT_IO;
         } else {
-            if (fmt == JSON) {
-                size_t n = strlen(text);
-                char *grown = realloc(text, n + 2);
-                if (grown) {
-                    text = grown;
-                    memcpy(text + n, "\n", 2);
-                }
-            }
-            rc = write_out("review", cli_get(opts, n_opts, "output"), text);
+            rc = cli_write_output("review", cli_get(opts, n_opts, "output"), text, fmt == JSON);
         }
         free(text);
     }
