@@ -1,4 +1,6 @@
 /* args.c — option parsing, error printing and exit-code mapping for cli/. */
+#include <ctype.h>
+#include <errno.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -78,6 +80,11 @@ int cli_parse(int argc, char **argv, cli_opt *opts, int n_opts, char **pos, int 
         }
         if (!o) {
             cli_usage(command, "unknown option '%s'", a);
+            return -1;
+        }
+        if (o->value) {
+            /* keeping only the last of two values would drop one silently */
+            cli_usage(command, "option '--%s' given more than once", o->name);
             return -1;
         }
         if (o->takes_value) {
@@ -163,4 +170,20 @@ int cli_write_output(const char *command, const char *path, const char *text, in
     }
     fprintf(stderr, "concord %s: %s\n", command, err.msg);
     return EXIT_IO;
+}
+
+int cli_int(const char *command, const char *opt, const char *text, long long min,
+            long long max, long long *out)
+{
+    char *end;
+    errno = 0;
+    long long v = strtoll(text, &end, 10);
+    if (!(isdigit((unsigned char)text[0]) || (text[0] == '-' && isdigit((unsigned char)text[1]))) ||
+        errno || *end || v < min || v > max) {
+        cli_usage(command, "--%s must be a whole number from %lld to %lld, not '%s'", opt, min,
+                  max, text);
+        return -1;
+    }
+    *out = v;
+    return 0;
 }

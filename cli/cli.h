@@ -53,6 +53,12 @@ int cli_exit_for(int code);
  * with the file named and returns EXIT_IO, and leaves no partial file. */
 int cli_write_output(const char *command, const char *path, const char *text, int newline);
 
+/* The one integer parser for options: decimal digits only (an optional
+ * leading '-'), within [min, max], no overflow; prints a usage error naming
+ * --opt and the range otherwise and returns -1. */
+int cli_int(const char *command, const char *opt, const char *text, long long min,
+            long long max, long long *out);
+
 /* "YYYY-MM-DD" -> day; prints a usage error on failure. */
 int cli_date(const char *command, const char *opt, const char *text, int64_t *day);
 

@@ -186,9 +186,10 @@ int cmd_alerts(int argc, char **argv)
     if (delivery && strcmp(delivery, "pending") && strcmp(delivery, "sent") &&
         strcmp(delivery, "dead"))
         return cli_usage("alerts", "--delivery must be pending, sent or dead");
-    int limit = lim ? atoi(lim) : 50;
-    if (limit < 1)
-        return cli_usage("alerts", "--limit must be a positive number");
+    long long limit_ll = 50;
+    if (lim && cli_int("alerts", "limit", lim, 1, 1000000, &limit_ll))
+        return EXIT_USAGE;
+    int limit = (int)limit_ll;
     int json = format && strcmp(format, "json") == 0;
     if (format && !json && strcmp(format, "text") != 0)
         return cli_usage("alerts", "--format must be text or json, not '%s'", format);

@@ -26,6 +26,8 @@ const char help_demo[] =
     "alert rules day by day (rules.json) and prints the alert timeline (alerts.jsonl).\n\n"
     "exit: 0 ok, 2 usage, 3 file or database error\n";
 
+enum { DIR_MAX = 4000 };
+
 static int write_file(const char *path, const char *text)
 {
     return cli_write_output("demo", path, text, 0) == EXIT_OK ? 0 : -1;
@@ -46,13 +48,21 @@ int cmd_demo(int argc, char **argv)
         return cli_usage("demo", "unexpected argument '%s'", pos[0]);
     const char *dir = cli_get(opts, n_opts, "dir") ? cli_get(opts, n_opts, "dir")
                                                    : "concord-demo";
+    if (strlen(dir) > DIR_MAX) /* leaves room for "/alerts.jsonl" and "-wal" in 4096 bytes */
+        return cli_usage("demo", "--dir is %zu bytes long; at most %d bytes, so that the file "
+                                 "names inside it fit", strlen(dir), DIR_MAX);
     cc_demo_opts dopts = CC_DEMO_OPTS_INIT;
-    if (cli_get(opts, n_opts, "per-day") &&
-        ((dopts.per_day = atoi(cli_get(opts, n_opts, "per-day"))) < 10 ||
-         dopts.per_day > 1000000))
-        return cli_usage("demo", "--per-day must be between 10 and 1000000");
-    if (cli_get(opts, n_opts, "seed"))
-        dopts.seed = strtoull(cli_get(opts, n_opts, "seed"), NULL, 10);
+    long long v;
+    if (cli_get(opts, n_opts, "per-day")) {
+        if (cli_int("demo", "per-day", cli_get(opts, n_opts, "per-day"), 10, 1000000, &v))
+            return EXIT_USAGE;
+        dopts.per_day = (int)v;
+    }
+    if (cli_get(opts, n_opts, "seed")) {
+        if (cli_int("demo", "seed", cli_get(opts, n_opts, "seed"), 0, INT64_MAX, &v))
+            return EXIT_USAGE;
+        dopts.seed = (uint64_t)v;
+    }
     if (mkdir(dir, 0777) != 0 && errno != EEXIST) {
         fprintf(stderr, "concord demo: cannot create %s: %s\n", dir, strerror(errno));
         return EXIT_IO;

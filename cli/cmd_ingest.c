@@ -85,8 +85,13 @@ static int run(int argc, char **argv, cc_record_kind kind)
         rc = cli_usage(command, "--members needs distinct, non-empty names up to 64 bytes");
     cc_ingest_opts io = CC_INGEST_OPTS_INIT;
     const char *bv = cli_get(opts, n_opts, "batch");
-    if (!rc && bv && (io.batch = atoi(bv)) < 1)
-        rc = cli_usage(command, "--batch must be a positive number");
+    long long batch;
+    if (!rc && bv) {
+        if (cli_int(command, "batch", bv, 1, 10000000, &batch))
+            rc = EXIT_USAGE;
+        else
+            io.batch = (int)batch;
+    }
     if (rc) {
         cli_free_names(classes, n_classes);
         cli_free_names(members, n_members);

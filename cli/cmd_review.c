@@ -141,11 +141,9 @@ int cmd_review(int argc, char **argv)
                        &ro.from, &ro.to))
         return EXIT_USAGE;
     if (limit) {
-        char *end;
-        errno = 0;
-        long v = strtol(limit, &end, 10);
-        if (errno || *end || end == limit || v < 0 || v > 100000)
-            return cli_usage("review", "--limit must be a whole number from 0 to 100000");
+        long long v;
+        if (cli_int("review", "limit", limit, 0, 100000, &v))
+            return EXIT_USAGE;
         ro.limit = (int)v;
     }
     enum { TEXT, JSON, CSV } fmt = TEXT;
