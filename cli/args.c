@@ -9,6 +9,7 @@
 #include "cli.h"
 #include "date.h"
 #include "out.h"
+#include "utf8.h"
 
 int cli_exit_for(int code)
 {
@@ -23,8 +24,28 @@ int cli_exit_for(int code)
 
 int cli_fail(const cc_error *err)
 {
-    fprintf(stderr, "concord: %s\n", err->msg[0] ? err->msg : "unknown error");
+    /* messages quote names from logs, rules files and the database */
+    char *safe = cc_text_escape(err->msg, strlen(err->msg), 1);
+    fprintf(stderr, "concord: %s\n", safe && safe[0] ? safe : err->msg[0] ? "(message lost)"
+                                                                           : "unknown error");
+    free(safe);
     return cli_exit_for(err->code);
+}
+
+int cli_check_name(const char *command, const char *opt, const char *text)
+{
+    size_t at, n = strlen(text);
+    if (!cc_utf8_valid(text, n, &at)) {
+        cli_usage(command, "--%s is not valid UTF-8 (byte %zu)", opt, at + 1);
+        return -1;
+    }
+    const unsigned char *u = (const unsigned char *)text;
+    for (size_t i = 0; i < n; i++)
+        if (u[i] < 0x20 || u[i] == 0x7F || (u[i] == 0xC2 && i + 1 < n && u[i + 1] < 0xA0)) {
+            cli_usage(command, "--%s holds a control character (byte %zu)", opt, i + 1);
+            return -1;
+        }
+    return 0;
 }
 
 int cli_usage(const char *command, const char *fmt, ...)

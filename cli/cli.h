@@ -53,6 +53,11 @@ int cli_exit_for(int code);
  * with the file named and returns EXIT_IO, and leaves no partial file. */
 int cli_write_output(const char *command, const char *path, const char *text, int newline);
 
+/* A name given on the command line (model, classes, members) must be valid
+ * UTF-8 without control characters; prints a usage error and returns -1
+ * otherwise. */
+int cli_check_name(const char *command, const char *opt, const char *text);
+
 /* The one integer parser for options: decimal digits only (an optional
  * leading '-'), within [min, max], no overflow; prints a usage error naming
  * --opt and the range otherwise and returns -1. */
