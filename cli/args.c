@@ -39,12 +39,10 @@ int cli_check_name(const char *command, const char *opt, const char *text)
         cli_usage(command, "--%s is not valid UTF-8 (byte %zu)", opt, at + 1);
         return -1;
     }
-    const unsigned char *u = (const unsigned char *)text;
-    for (size_t i = 0; i < n; i++)
-        if (u[i] < 0x20 || u[i] == 0x7F || (u[i] == 0xC2 && i + 1 < n && u[i + 1] < 0xA0)) {
-            cli_usage(command, "--%s holds a control character (byte %zu)", opt, i + 1);
-            return -1;
-        }
+    if (cc_utf8_control(text, n, &at)) {
+        cli_usage(command, "--%s holds a control character (byte %zu)", opt, at + 1);
+        return -1;
+    }
     return 0;
 }
 
@@ -178,19 +176,31 @@ char **cli_split_names(const char *text, int *n)
     return out;
 }
 
-int cli_write_output(const char *command, const char *path, const char *text, int newline)
+int cli_write_output(const char *command, const char *path, const char *text, int flags)
 {
     cc_error err = CC_ERROR_INIT;
+    char *safe = NULL;
+    if (flags & CLI_OUT_TEXT) {
+        /* text for people: names from the logs cannot drive the terminal */
+        if (!(safe = cc_text_escape(text, strlen(text), 1))) {
+            fprintf(stderr, "concord %s: out of memory\n", command);
+            return EXIT_IO;
+        }
+        text = safe;
+    }
     cc_out *o;
+    int rc = EXIT_IO;
     if (cc_out_open(&o, path, 0, &err) == 0) {
         cc_out_write(o, text, strlen(text));
-        if (newline)
+        if (flags & CLI_OUT_NEWLINE)
             cc_out_write(o, "\n", 1);
         if (cc_out_commit(o, &err) == 0)
-            return EXIT_OK;
+            rc = EXIT_OK;
     }
-    fprintf(stderr, "concord %s: %s\n", command, err.msg);
-    return EXIT_IO;
+    free(safe);
+    if (rc != EXIT_OK)
+        fprintf(stderr, "concord %s: %s\n", command, err.msg);
+    return rc;
 }
 
 int cli_int(const char *command, const char *opt, const char *text, long long min,

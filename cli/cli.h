@@ -48,10 +48,13 @@ int cli_fail(const cc_error *err);
 int cli_usage(const char *command, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 int cli_exit_for(int code);
 
-/* Writes text (and a final newline when asked) to path, or standard output
- * for NULL or "-", through util/out.h: a failed write or close is reported
- * with the file named and returns EXIT_IO, and leaves no partial file. */
-int cli_write_output(const char *command, const char *path, const char *text, int newline);
+/* Writes text to path, or standard output for NULL or "-", through
+ * util/out.h: a failed write or close is reported with the file named and
+ * returns EXIT_IO, and leaves no partial file. flags: CLI_OUT_NEWLINE adds
+ * a final newline; CLI_OUT_TEXT (text meant for a terminal) shows control
+ * characters as \xHH (util/utf8.h), keeping line feeds and tabs. */
+enum { CLI_OUT_NEWLINE = 1, CLI_OUT_TEXT = 2 };
+int cli_write_output(const char *command, const char *path, const char *text, int flags);
 
 /* A name given on the command line (model, classes, members) must be valid
  * UTF-8 without control characters; prints a usage error and returns -1

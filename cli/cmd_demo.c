@@ -28,9 +28,9 @@ const char help_demo[] =
 
 enum { DIR_MAX = 4000 };
 
-static int write_file(const char *path, const char *text)
+static int write_file(const char *path, const char *text, int flags)
 {
-    return cli_write_output("demo", path, text, 0) == EXIT_OK ? 0 : -1;
+    return cli_write_output("demo", path, text, flags) == EXIT_OK ? 0 : -1;
 }
 
 int cmd_demo(int argc, char **argv)
@@ -118,7 +118,7 @@ int cmd_demo(int argc, char **argv)
     }
     text = cc_report_text(rep);
     js = cc_report_json(rep);
-    if (!text || !js || write_file(txt, text) || write_file(json, js)) {
+    if (!text || !js || write_file(txt, text, CLI_OUT_TEXT) || write_file(json, js, 0)) {
         if (!text || !js)
             fprintf(stderr, "concord demo: out of memory\n");
         rc = EXIT_IO;
@@ -158,7 +158,7 @@ int cmd_demo(int argc, char **argv)
                               "not real measurements.",
                               &page)) != EXIT_OK)
         goto done;
-    if (!page || write_file(html, page)) {
+    if (!page || write_file(html, page, 0)) {
         if (!page)
             fprintf(stderr, "concord demo: out of memory\n");
         rc = EXIT_IO;

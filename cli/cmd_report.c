@@ -162,7 +162,8 @@ int cmd_report(int argc, char **argv)
             fprintf(stderr, "concord report: out of memory\n");
             rc = EXIT_IO;
         } else {
-            rc = cli_write_output("report", out, text, json);
+            rc = cli_write_output("report", out, text,
+                                  json ? CLI_OUT_NEWLINE : html ? 0 : CLI_OUT_TEXT);
         }
         free(text);
     }

@@ -174,7 +174,8 @@ int cmd_review(int argc, char **argv)
             fprintf(stderr, "concord review: out of memory\n");
             rc = EXIT_IO;
         } else {
-            rc = cli_write_output("review", cli_get(opts, n_opts, "output"), text, fmt == JSON);
+            rc = cli_write_output("review", cli_get(opts, n_opts, "output"), text,
+                                  fmt == JSON ? CLI_OUT_NEWLINE : fmt == TEXT ? CLI_OUT_TEXT : 0);
         }
         free(text);
     }

@@ -49,7 +49,7 @@ int cmd_show(int argc, char **argv)
             fprintf(stderr, "concord show: out of memory\n");
             rc = EXIT_IO;
         } else {
-            rc = cli_write_output("show", NULL, text, json);
+            rc = cli_write_output("show", NULL, text, json ? CLI_OUT_NEWLINE : CLI_OUT_TEXT);
         }
         free(text);
     }

@@ -314,6 +314,11 @@ static int take_string(const found *fd, int f, const char *buf, size_t max, cons
         return fail(why, n, "field '%s': contains a NUL character", field_names[f]);
     if (check_utf8(field_names[f], buf, fd->len[f], why, n))
         return -1;
+    size_t at;
+    if (f == F_MODEL && cc_utf8_control(buf, fd->len[f], &at))
+        /* a model's name is printed by every command, unescaped in places */
+        return fail(why, n, "field 'model': control character 0x%02x at byte %zu",
+                    (unsigned char)buf[at], at + 1);
     *out = buf;
     return 0;
 }

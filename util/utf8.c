@@ -155,3 +155,15 @@ int cc_text_plain(const char *s)
     escape(s, len, 0, emit_none, &out);
     return out == len;
 }
+
+int cc_utf8_control(const char *s, size_t len, size_t *at)
+{
+    const unsigned char *u = (const unsigned char *)s;
+    for (size_t i = 0; i < len; i++)
+        if (u[i] < 0x20 || u[i] == 0x7F || (u[i] == 0xC2 && i + 1 < len && u[i + 1] < 0xA0)) {
+            if (at)
+                *at = i;
+            return 1;
+        }
+    return 0;
+}

@@ -12,6 +12,10 @@
  * and *bad_at (when not NULL) is the offset of the first bad byte. */
 int cc_utf8_valid(const char *s, size_t len, size_t *bad_at);
 
+/* 1 when s[0..len) (UTF-8) holds a control character: C0, DEL or C1;
+ * *at (when not NULL) is its byte offset. */
+int cc_utf8_control(const char *s, size_t len, size_t *at);
+
 /* Writes s (NUL-terminated) to f with the C0 controls, DEL and the C1
  * controls (U+0080..U+009F) replaced by a visible "\xHH" (the C1 ones as
  * "\u00HH"), and a backslash doubled, so text from the logs cannot move the
