@@ -8,6 +8,7 @@
 
 #include "check.h"
 #include "cli.h"
+#include "utf8.h"
 #include "follow.h"
 #include "rule.h"
 #include "webhook.h"
@@ -60,7 +61,9 @@ static void on_reject(void *ctx, const char *path, int64_t line, const char *rea
 static void on_note(void *ctx, const char *msg)
 {
     (void)ctx;
-    fprintf(stderr, "concord follow: %s\n", msg);
+    fputs("concord follow: ", stderr);
+    cc_text_put(stderr, msg); /* notes quote file names and log lines */
+    fputc('\n', stderr);
 }
 
 static void on_check(void *ctx, const cc_check_result *r)

@@ -351,6 +351,15 @@ static int take_label(cc_parser *p, const found *fd, int required, int *label,
     return 0;
 }
 
+static int range_error(const cc_parser *p, double t, char *why, size_t n)
+{
+    char a[11], b[11];
+    cc_format_date(cc_day_of_unix(p->ts_first), a);
+    cc_format_date(cc_day_of_unix(p->ts_last), b);
+    return fail(why, n, "field 'ts': %.0f (Unix seconds) is outside the accepted range %s..%s "
+                        "(UTC; see --ts-range)", floor(t), a, b);
+}
+
 int cc_parse_event(cc_parser *p, const char *line, size_t len, cc_event *out, char *why,
                    size_t n)
 {
@@ -363,6 +372,7 @@ int cc_parse_event(cc_parser *p, const char *line, size_t len, cc_event *out, ch
         return -1;
     out->id_len = (int)fd.len[F_ID];
 
+    double ts_outside = NAN;
     if (!fd.seen[F_TS])
         return fail(why, n, "field 'ts': missing");
     if (fd.type[F_TS] == 's') {
@@ -373,9 +383,12 @@ int cc_parse_event(cc_parser *p, const char *line, size_t len, cc_event *out, ch
                         fd.len[F_TS] >= sizeof fd.ts ? "not an RFC 3339 date-time" : reason);
     } else if (fd.type[F_TS] == 'n') {
         double t = fd.num[F_TS];
-        if (!isfinite(t) || t < -62135596800.0 || t > 253402300799.0) /* years 1..9999 */
+        if (!isfinite(t))
             return fail(why, n, "field 'ts': %g is not a usable Unix time", t);
-        out->ts = (int64_t)floor(t);
+        if (t < (double)p->ts_first || t >= (double)p->ts_last + 1.0)
+            ts_outside = t; /* reported after the structural checks */
+        else
+            out->ts = (int64_t)floor(t);
     } else {
         return fail(why, n, "field 'ts': must be an RFC 3339 string or Unix seconds");
     }
@@ -420,13 +433,10 @@ int cc_parse_event(cc_parser *p, const char *line, size_t len, cc_event *out, ch
     if (take_label(p, &fd, 0, &out->label, &out->label_name, why, n))
         return -1;
     /* last, so a line with a structural fault is refused for that fault */
-    if (out->ts < p->ts_first || out->ts > p->ts_last) {
-        char a[11], b[11];
-        cc_format_date(cc_day_of_unix(p->ts_first), a);
-        cc_format_date(cc_day_of_unix(p->ts_last), b);
-        return fail(why, n, "field 'ts': %lld (Unix seconds) is outside the accepted range "
-                            "%s..%s (UTC; see --ts-range)", (long long)out->ts, a, b);
-    }
+    if (!isnan(ts_outside))
+        return range_error(p, ts_outside, why, n);
+    if (out->ts < p->ts_first || out->ts > p->ts_last)
+        return range_error(p, (double)out->ts, why, n);
     return 0;
 }
 
