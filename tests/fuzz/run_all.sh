@@ -13,11 +13,12 @@ BUILD=${2:-$ROOT/build-fuzz}
 TARGETS="event label ts rules codec"
 
 command -v clang > /dev/null || { echo "run_all: clang is not installed" >&2; exit 2; }
+mkdir -p "$BUILD"
 CC=clang cmake -S "$ROOT" -B "$BUILD" -DCMAKE_BUILD_TYPE=RelWithDebInfo -DCONCORD_FUZZ=ON \
-  -DCONCORD_SANITIZE=ON > "$BUILD.cmake.log" 2>&1 || { cat "$BUILD.cmake.log" >&2; exit 2; }
+  -DCONCORD_SANITIZE=ON > "$BUILD/run_all.cmake.log" 2>&1 || { cat "$BUILD/run_all.cmake.log" >&2; exit 2; }
 # shellcheck disable=SC2046
-cmake --build "$BUILD" -j2 --target $(for t in $TARGETS; do printf 'fuzz_%s ' "$t"; done) > "$BUILD.build.log" 2>&1 ||
-  { tail -30 "$BUILD.build.log" >&2; exit 2; }
+cmake --build "$BUILD" -j2 --target $(for t in $TARGETS; do printf 'fuzz_%s ' "$t"; done) > "$BUILD/run_all.build.log" 2>&1 ||
+  { tail -30 "$BUILD/run_all.build.log" >&2; exit 2; }
 
 WORK=$(mktemp -d)
 trap 'rm -rf "$WORK"' EXIT
