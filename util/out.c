@@ -1,4 +1,5 @@
 /* out.c — checked output files: temporary name, checked writes, rename. */
+#define _XOPEN_SOURCE 700 /* realpath, fchmod */
 #include "out.h"
 
 #include <errno.h>
@@ -81,8 +82,20 @@ int cc_out_open(cc_out **out, const char *path, int flags, cc_error *err)
     }
     if (exists)
         o->mode = st.st_mode & 07777; /* a replaced file keeps its permissions */
+    struct stat lst;
+    if (exists && lstat(path, &lst) == 0 && S_ISLNK(lst.st_mode)) {
+        /* replace the file the link points to, not the link */
+        char *real = realpath(path, NULL);
+        if (!real) {
+            int e = errno;
+            out_free(o);
+            return cc_error_set(err, CC_EIO, "%s: cannot write: %s", path, strerror(e));
+        }
+        free(o->target);
+        o->target = real;
+    }
     int fd = -1;
-    if (!(o->tmp = tmp_name(path)) || (fd = mkstemp(o->tmp)) < 0) {
+    if (!(o->tmp = tmp_name(o->target)) || (fd = mkstemp(o->tmp)) < 0) {
         int e = o->tmp ? errno : ENOMEM;
         out_free(o);
         return cc_error_set(err, CC_EIO, "%s: cannot write: %s", path, strerror(e));

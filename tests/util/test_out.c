@@ -73,9 +73,18 @@ int main(void)
     CHECK(cc_out_save(path, 0, "third\n", 6, &err) == 0);
     CHECK(stat(path, &st) == 0 && (st.st_mode & 0777) == 0644);
 
+    /* through a symbolic link: the file it points to is replaced, the link stays */
+    char link_path[256];
+    snprintf(link_path, sizeof link_path, "%s/link.txt", dir);
+    CHECK(symlink("report.txt", link_path) == 0);
+    CHECK(cc_out_save(link_path, 0, "via link\n", 9, &err) == 0);
+    CHECK(lstat(link_path, &st) == 0 && S_ISLNK(st.st_mode));
+    CHECK(strcmp(slurp(path), "via link\n") == 0);
+    unlink(link_path);
+
     /* no replace: refused while the file exists */
     CHECK(cc_out_save(path, CC_OUT_NO_REPLACE, "x", 1, &err) == -CC_EIO);
-    CHECK(strstr(err.msg, path) && strcmp(slurp(path), "third\n") == 0);
+    CHECK(strstr(err.msg, path) && strcmp(slurp(path), "via link\n") == 0);
     snprintf(sub, sizeof sub, "%s/new.txt", dir);
     CHECK(cc_out_save(sub, CC_OUT_NO_REPLACE, "n", 1, &err) == 0 && entries() == 2);
 
