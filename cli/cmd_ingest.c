@@ -66,16 +66,19 @@ static int parse_range(const char *command, const char *text, int64_t *first, in
     const char *comma = strchr(text, ',');
     char a[16], b[16];
     int64_t da, db;
-    if (!comma || comma - text >= (long)sizeof a || strlen(comma + 1) >= sizeof b)
-        return cli_usage(command, "--ts-range must be FROM,TO (two dates YYYY-MM-DD), not '%s'",
-                         text), -1;
+    if (!comma || comma - text >= (long)sizeof a || strlen(comma + 1) >= sizeof b) {
+        cli_usage(command, "--ts-range must be FROM,TO (two dates YYYY-MM-DD), not '%s'", text);
+        return -1;
+    }
     memcpy(a, text, (size_t)(comma - text));
     a[comma - text] = '\0';
     strcpy(b, comma + 1);
     if (cli_date(command, "ts-range", a, &da) || cli_date(command, "ts-range", b, &db))
         return -1;
-    if (db < da)
-        return cli_usage(command, "--ts-range: %s is before %s", b, a), -1;
+    if (db < da) {
+        cli_usage(command, "--ts-range: %s is before %s", b, a);
+        return -1;
+    }
     *first = da * 86400;
     *last = db * 86400 + 86399;
     return 0;
