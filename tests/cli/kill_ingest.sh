@@ -38,7 +38,8 @@ for delay in 0.15 0.4 0.8; do
     fi
   fi
   # re-run the same file, then the labels: must equal the uninterrupted run
-  "$CONCORD" ingest --db "$db" --model g "$EV" 2> "$T/err" || fail "re-run after kill at $delay s: $(cat "$T/err")"
+  # --classes again: under load the kill can come before the model was created
+  "$CONCORD" ingest --db "$db" --model g --classes "$CLASSES" "$EV" 2> "$T/err" || fail "re-run after kill at $delay s: $(cat "$T/err")"
   "$CONCORD" label --db "$db" --model g "$T/d/labels.jsonl" 2> /dev/null
   "$CONCORD" report --db "$db" --model g --format json -o "$T/again.json"
   cmp -s "$T/ref.json" "$T/again.json" || fail "report after kill at $delay s and re-run differs from an uninterrupted run"
