@@ -75,6 +75,7 @@ else
   "$CONCORD" report --db "$SMALL/db" --model apple-grader --format text -o "$SMALL/keep.txt"
   before=$(md5sum < "$SMALL/keep.txt")
   n0=$(sqlite3 "$SMALL/db" "SELECT count(*) FROM events")
+  dd if=/dev/zero of="$SMALL/slack" bs=64k count=8 2> /dev/null
   dd if=/dev/zero of="$SMALL/filler" bs=64k 2> /dev/null || true # until the disk is full
   for f in text json html; do
     expect_io "report $f full disk" "$SMALL/r.$f" -- "$CONCORD" report "${M[@]}" --format $f -o "$SMALL/r.$f"
@@ -99,11 +100,13 @@ with open(sys.argv[1], "w") as f:
         f.write(json.dumps({"id": f"more-{i}", "ts": f"2026-10-0{1 + i % 9}T12:00:00Z",
                             "segment": "x" * 200, "probs": p}) + "\n")
 PY
+  rm -f "$SMALL/slack" # room to open the database, not to store the batch
   set +e
   "$CONCORD" ingest --db "$SMALL/db" --model apple-grader --batch 100000 "$T/more.jsonl" > /dev/null 2> "$T/err"
   rc=$?
   set -e
   [ $rc -eq 3 ] || fail "ingest on a full disk: exit $rc, expected 3: $(cat "$T/err")"
+  echo "ingest on a full disk said: $(head -c 300 "$T/err")"
   grep -qiE "full|space|disk I/O" "$T/err" || fail "ingest on a full disk: unclear message: $(cat "$T/err")"
   rm -f "$SMALL/filler"
   "$CONCORD" verify --db "$SMALL/db" --model apple-grader > "$T/verify" 2>&1 || fail "verify after a full disk: $(cat "$T/verify")"
