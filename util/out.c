@@ -80,6 +80,12 @@ int cc_out_open(cc_out **out, const char *path, int flags, cc_error *err)
         *out = o;
         return 0;
     }
+    if (exists && access(path, W_OK) != 0) {
+        /* rename() could replace a file we may not write: refuse as open() would */
+        int e = errno;
+        out_free(o);
+        return cc_error_set(err, CC_EIO, "%s: cannot write: %s", path, strerror(e));
+    }
     if (exists)
         o->mode = st.st_mode & 07777; /* a replaced file keeps its permissions */
     struct stat lst;
