@@ -1,4 +1,5 @@
 /* args.c — option parsing, error printing and exit-code mapping for cli/. */
+#include <ctype.h>
 #include <errno.h>
 #include <stdarg.h>
 #include <stdio.h>
@@ -7,7 +8,9 @@
 
 #include "cli.h"
 #include "date.h"
+#include "out.h"
 #include "store.h"
+#include "utf8.h"
 
 /* --wait SECONDS, accepted by every command; -1 when not given. */
 static int64_t wait_option_ms = -1;
@@ -36,8 +39,26 @@ int cli_exit_for(int code)
 
 int cli_fail(const cc_error *err)
 {
-    fprintf(stderr, "concord: %s\n", err->msg[0] ? err->msg : "unknown error");
+    /* messages quote names from logs, rules files and the database */
+    char *safe = cc_text_escape(err->msg, strlen(err->msg), 1);
+    fprintf(stderr, "concord: %s\n", safe && safe[0] ? safe : err->msg[0] ? "(message lost)"
+                                                                           : "unknown error");
+    free(safe);
     return cli_exit_for(err->code);
+}
+
+int cli_check_name(const char *command, const char *opt, const char *text)
+{
+    size_t at, n = strlen(text);
+    if (!cc_utf8_valid(text, n, &at)) {
+        cli_usage(command, "--%s is not valid UTF-8 (byte %zu)", opt, at + 1);
+        return -1;
+    }
+    if (cc_utf8_control(text, n, &at)) {
+        cli_usage(command, "--%s holds a control character (byte %zu)", opt, at + 1);
+        return -1;
+    }
+    return 0;
 }
 
 int cli_usage(const char *command, const char *fmt, ...)
@@ -101,6 +122,11 @@ int cli_parse(int argc, char **argv, cli_opt *opts, int n_opts, char **pos, int 
         }
         if (!o) {
             cli_usage(command, "unknown option '%s'", a);
+            return -1;
+        }
+        if (o->value) {
+            /* keeping only the last of two values would drop one silently */
+            cli_usage(command, "option '--%s' given more than once", o->name);
             return -1;
         }
         if (o->takes_value) {
@@ -221,4 +247,47 @@ void cli_note_pruned(struct cc_store *store, const struct cc_model *m, int64_t f
                     "still counts them); nothing from those days can be listed\n",
             command, pr.days, pr.days == 1 ? "" : "s", first, last,
             pr.days == 1 ? "was" : "were", (long long)pr.events);
+}
+
+int cli_write_output(const char *command, const char *path, const char *text, int flags)
+{
+    cc_error err = CC_ERROR_INIT;
+    char *safe = NULL;
+    if (flags & CLI_OUT_TEXT) {
+        /* text for people: names from the logs cannot drive the terminal */
+        if (!(safe = cc_text_escape(text, strlen(text), 1))) {
+            fprintf(stderr, "concord %s: out of memory\n", command);
+            return EXIT_IO;
+        }
+        text = safe;
+    }
+    cc_out *o;
+    int rc = EXIT_IO;
+    if (cc_out_open(&o, path, 0, &err) == 0) {
+        cc_out_write(o, text, strlen(text));
+        if (flags & CLI_OUT_NEWLINE)
+            cc_out_write(o, "\n", 1);
+        if (cc_out_commit(o, &err) == 0)
+            rc = EXIT_OK;
+    }
+    free(safe);
+    if (rc != EXIT_OK)
+        fprintf(stderr, "concord %s: %s\n", command, err.msg);
+    return rc;
+}
+
+int cli_int(const char *command, const char *opt, const char *text, long long min,
+            long long max, long long *out)
+{
+    char *end;
+    errno = 0;
+    long long v = strtoll(text, &end, 10);
+    if (!(isdigit((unsigned char)text[0]) || (text[0] == '-' && isdigit((unsigned char)text[1]))) ||
+        errno || *end || v < min || v > max) {
+        cli_usage(command, "--%s must be a whole number from %lld to %lld, not '%s'", opt, min,
+                  max, text);
+        return -1;
+    }
+    *out = v;
+    return 0;
 }

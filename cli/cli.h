@@ -63,6 +63,25 @@ struct cc_model;
 void cli_note_pruned(struct cc_store *store, const struct cc_model *m, int64_t from_day,
                      int64_t to_day, const char *command);
 
+/* Writes text to path, or standard output for NULL or "-", through
+ * util/out.h: a failed write or close is reported with the file named and
+ * returns EXIT_IO, and leaves no partial file. flags: CLI_OUT_NEWLINE adds
+ * a final newline; CLI_OUT_TEXT (text meant for a terminal) shows control
+ * characters as \xHH (util/utf8.h), keeping line feeds and tabs. */
+enum { CLI_OUT_NEWLINE = 1, CLI_OUT_TEXT = 2 };
+int cli_write_output(const char *command, const char *path, const char *text, int flags);
+
+/* A name given on the command line (model, classes, members) must be valid
+ * UTF-8 without control characters; prints a usage error and returns -1
+ * otherwise. */
+int cli_check_name(const char *command, const char *opt, const char *text);
+
+/* The one integer parser for options: decimal digits only (an optional
+ * leading '-'), within [min, max], no overflow; prints a usage error naming
+ * --opt and the range otherwise and returns -1. */
+int cli_int(const char *command, const char *opt, const char *text, long long min,
+            long long max, long long *out);
+
 /* "YYYY-MM-DD" -> day; prints a usage error on failure. */
 int cli_date(const char *command, const char *opt, const char *text, int64_t *day);
 

@@ -186,9 +186,10 @@ int cmd_alerts(int argc, char **argv)
     if (delivery && strcmp(delivery, "pending") && strcmp(delivery, "sent") &&
         strcmp(delivery, "dead"))
         return cli_usage("alerts", "--delivery must be pending, sent or dead");
-    int limit = lim ? atoi(lim) : 50;
-    if (limit < 1)
-        return cli_usage("alerts", "--limit must be a positive number");
+    long long limit_ll = 50;
+    if (lim && cli_int("alerts", "limit", lim, 1, 1000000, &limit_ll))
+        return EXIT_USAGE;
+    int limit = (int)limit_ll;
     int json = format && strcmp(format, "json") == 0;
     if (format && !json && strcmp(format, "text") != 0)
         return cli_usage("alerts", "--format must be text or json, not '%s'", format);
@@ -248,11 +249,8 @@ int cli_demo_alerts(struct cc_store *store, const char *dir, int64_t first_day, 
     char rules_path[4200], sink[4200];
     snprintf(rules_path, sizeof rules_path, "%s/rules.json", dir);
     snprintf(sink, sizeof sink, "%s/alerts.jsonl", dir);
-    FILE *f = fopen(rules_path, "w");
-    if (!f || fputs(cc_rules_default_text(), f) == EOF || fclose(f) != 0) {
-        fprintf(stderr, "concord demo: cannot write %s\n", rules_path);
+    if (cli_write_output("demo", rules_path, cc_rules_default_text(), 0) != EXIT_OK)
         return EXIT_IO;
-    }
     remove(sink);
     cc_error err = CC_ERROR_INIT;
     cc_ruleset *rs = NULL;

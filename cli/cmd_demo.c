@@ -28,13 +28,11 @@ const char help_demo[] =
     "(alerts.jsonl).\n\n"
     "exit: 0 ok, 2 usage, 3 file or database error\n";
 
-static int write_file(const char *path, const char *text)
+enum { DIR_MAX = 4000 };
+
+static int write_file(const char *path, const char *text, int flags)
 {
-    FILE *f = fopen(path, "w");
-    if (!f)
-        return -1;
-    fputs(text, f);
-    return fclose(f);
+    return cli_write_output("demo", path, text, flags) == EXIT_OK ? 0 : -1;
 }
 
 int cmd_demo(int argc, char **argv)
@@ -52,13 +50,21 @@ int cmd_demo(int argc, char **argv)
         return cli_usage("demo", "unexpected argument '%s'", pos[0]);
     const char *dir = cli_get(opts, n_opts, "dir") ? cli_get(opts, n_opts, "dir")
                                                    : "concord-demo";
+    if (strlen(dir) > DIR_MAX) /* leaves room for "/alerts.jsonl" and "-wal" in 4096 bytes */
+        return cli_usage("demo", "--dir is %zu bytes long; at most %d bytes, so that the file "
+                                 "names inside it fit", strlen(dir), DIR_MAX);
     cc_demo_opts dopts = CC_DEMO_OPTS_INIT;
-    if (cli_get(opts, n_opts, "per-day") &&
-        ((dopts.per_day = atoi(cli_get(opts, n_opts, "per-day"))) < 10 ||
-         dopts.per_day > 1000000))
-        return cli_usage("demo", "--per-day must be between 10 and 1000000");
-    if (cli_get(opts, n_opts, "seed"))
-        dopts.seed = strtoull(cli_get(opts, n_opts, "seed"), NULL, 10);
+    long long v;
+    if (cli_get(opts, n_opts, "per-day")) {
+        if (cli_int("demo", "per-day", cli_get(opts, n_opts, "per-day"), 10, 1000000, &v))
+            return EXIT_USAGE;
+        dopts.per_day = (int)v;
+    }
+    if (cli_get(opts, n_opts, "seed")) {
+        if (cli_int("demo", "seed", cli_get(opts, n_opts, "seed"), 0, INT64_MAX, &v))
+            return EXIT_USAGE;
+        dopts.seed = (uint64_t)v;
+    }
     if (mkdir(dir, 0777) != 0 && errno != EEXIST) {
         fprintf(stderr, "concord demo: cannot create %s: %s\n", dir, strerror(errno));
         return EXIT_IO;
@@ -114,8 +120,9 @@ int cmd_demo(int argc, char **argv)
     }
     text = cc_report_text(rep);
     js = cc_report_json(rep);
-    if (!text || !js || write_file(txt, text) || write_file(json, js)) {
-        fprintf(stderr, "concord demo: cannot write the reports in %s\n", dir);
+    if (!text || !js || write_file(txt, text, CLI_OUT_TEXT) || write_file(json, js, 0)) {
+        if (!text || !js)
+            fprintf(stderr, "concord demo: out of memory\n");
         rc = EXIT_IO;
         goto done;
     }
@@ -157,8 +164,9 @@ int cmd_demo(int argc, char **argv)
                               "not real measurements.",
                               &page)) != EXIT_OK)
         goto done;
-    if (!page || write_file(html, page)) {
-        fprintf(stderr, "concord demo: cannot write %s\n", html);
+    if (!page || write_file(html, page, 0)) {
+        if (!page)
+            fprintf(stderr, "concord demo: out of memory\n");
         rc = EXIT_IO;
         goto done;
     }

@@ -8,6 +8,7 @@
 
 #include "check.h"
 #include "cli.h"
+#include "utf8.h"
 #include "follow.h"
 #include "rule.h"
 #include "webhook.h"
@@ -63,7 +64,9 @@ static void on_reject(void *ctx, const char *path, int64_t line, const char *rea
 static void on_note(void *ctx, const char *msg)
 {
     (void)ctx;
-    fprintf(stderr, "concord follow: %s\n", msg);
+    fputs("concord follow: ", stderr);
+    cc_text_put(stderr, msg); /* notes quote file names and log lines */
+    fputc('\n', stderr);
 }
 
 static void on_check(void *ctx, const cc_check_result *r)
@@ -108,15 +111,22 @@ int cmd_follow(int argc, char **argv)
     else if (hook && !rules)
         rc = cli_usage("follow", "--webhook needs --rules");
     const char *v;
-    if (!rc && (v = cli_get(opts, n_opts, "chunk")) &&
-        ((fo.chunk_lines = atoi(v)) < 1 || fo.chunk_lines > 100000))
-        rc = cli_usage("follow", "--chunk must be from 1 to 100000 lines");
-    if (!rc && (v = cli_get(opts, n_opts, "interval")) &&
-        ((fo.poll_ms = atoi(v)) < 10 || fo.poll_ms > 600000))
-        rc = cli_usage("follow", "--interval must be from 10 to 600000 ms");
-    if (!rc && (v = cli_get(opts, n_opts, "grace")) &&
-        ((fo.grace_s = atoi(v)) < 0 || fo.grace_s > 86400))
-        rc = cli_usage("follow", "--grace must be from 0 to 86400 seconds");
+    long long n;
+    if (!rc && (v = cli_get(opts, n_opts, "chunk"))) {
+        if (cli_int("follow", "chunk", v, 1, 100000, &n)) /* lines */
+            rc = EXIT_USAGE;
+        fo.chunk_lines = (int)n;
+    }
+    if (!rc && (v = cli_get(opts, n_opts, "interval"))) {
+        if (cli_int("follow", "interval", v, 10, 600000, &n)) /* ms */
+            rc = EXIT_USAGE;
+        fo.poll_ms = (int)n;
+    }
+    if (!rc && (v = cli_get(opts, n_opts, "grace"))) {
+        if (cli_int("follow", "grace", v, 0, 86400, &n)) /* seconds */
+            rc = EXIT_USAGE;
+        fo.grace_s = (int)n;
+    }
     if (rc) {
         free(pos);
         return rc;

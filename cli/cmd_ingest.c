@@ -6,6 +6,7 @@
 
 #include "cli.h"
 #include "ingest.h"
+#include "utf8.h"
 
 const char help_ingest[] =
     "usage: concord ingest --db FILE [--model NAME] [--classes A,B,...] [--members X,Y,...]\n"
@@ -21,9 +22,13 @@ const char help_ingest[] =
     "  --members LIST   member names, when this run creates the model\n"
     "  --strict         store nothing at all when any line is bad\n"
     "  --batch N        lines per transaction (default 20000)\n"
+    "  --ts-range FROM,TO  accept event times from the day FROM to the day TO, both\n"
+    "                   included (UTC dates; default 2000-01-01,2099-12-31); others are\n"
+    "                   refused with the reason\n"
     "  --quiet          print rejected lines' reasons only in the tally\n\n"
     "exit: 0 all lines stored or duplicates, 1 some lines rejected (with --strict:\n"
-    "nothing stored), 2 usage, 3 file or database error\n";
+    "nothing stored), 2 usage, 3 file or database error (an input file that cannot be\n"
+    "read is reported and skipped; the lines of the other files are stored)\n";
 
 const char help_label[] =
     "usage: concord label --db FILE [--model NAME] [--quiet] FILE...\n\n"
@@ -31,7 +36,8 @@ const char help_label[] =
     "a class name; optional \"model\"), and adds each to the labelled part of its event's\n"
     "day. A label that differs from an earlier one replaces it exactly. A label whose\n"
     "event is not stored yet waits and is applied when the event is ingested.\n\n"
-    "exit: 0 ok, 1 some lines rejected, 2 usage, 3 file or database error\n";
+    "exit: 0 ok, 1 some lines rejected, 2 usage, 3 file or database error (an input\n"
+    "file that cannot be read is reported and skipped; the others are applied)\n";
 
 #define SHOWN_REJECTS 20
 
@@ -43,9 +49,39 @@ typedef struct tally {
 static void on_reject(void *payload, const char *source, int64_t line, const char *reason)
 {
     tally *t = payload;
-    if (!t->quiet && t->shown < SHOWN_REJECTS)
-        fprintf(stderr, "%s:%lld: rejected: %s\n", source, (long long)line, reason);
+    if (!t->quiet && t->shown < SHOWN_REJECTS) {
+        /* reasons quote names from the logs: no raw control characters */
+        cc_text_put(stderr, source);
+        fprintf(stderr, ":%lld: rejected: ", (long long)line);
+        cc_text_put(stderr, reason);
+        fputc('\n', stderr);
+    }
     t->shown++;
+}
+
+/* "FROM,TO": two dates, the second not before the first -> Unix seconds of
+ * the first second of FROM and the last second of TO. */
+static int parse_range(const char *command, const char *text, int64_t *first, int64_t *last)
+{
+    const char *comma = strchr(text, ',');
+    char a[16], b[16];
+    int64_t da, db;
+    if (!comma || comma - text >= (long)sizeof a || strlen(comma + 1) >= sizeof b) {
+        cli_usage(command, "--ts-range must be FROM,TO (two dates YYYY-MM-DD), not '%s'", text);
+        return -1;
+    }
+    memcpy(a, text, (size_t)(comma - text));
+    a[comma - text] = '\0';
+    strcpy(b, comma + 1);
+    if (cli_date(command, "ts-range", a, &da) || cli_date(command, "ts-range", b, &db))
+        return -1;
+    if (db < da) {
+        cli_usage(command, "--ts-range: %s is before %s", b, a);
+        return -1;
+    }
+    *first = da * 86400;
+    *last = db * 86400 + 86399;
+    return 0;
 }
 
 static int run(int argc, char **argv, cc_record_kind kind)
@@ -54,7 +90,7 @@ static int run(int argc, char **argv, cc_record_kind kind)
     cli_opt opts[] = {
         {"db", 0, 1, NULL},      {"model", 0, 1, NULL}, {"classes", 0, 1, NULL},
         {"members", 0, 1, NULL}, {"strict", 0, 0, NULL}, {"batch", 0, 1, NULL},
-        {"quiet", 'q', 0, NULL},
+        {"quiet", 'q', 0, NULL}, {"ts-range", 0, 1, NULL},
     };
     int n_opts = (int)(sizeof opts / sizeof *opts), n_pos, help;
     char **pos = calloc((size_t)argc + 1, sizeof *pos);
@@ -76,17 +112,37 @@ static int run(int argc, char **argv, cc_record_kind kind)
         rc = cli_usage(command, "no input files (use '-' for standard input)");
     else if (kind == CC_RECORD_LABELS &&
              (cli_get(opts, n_opts, "classes") || cli_get(opts, n_opts, "members") ||
-              cli_get(opts, n_opts, "strict")))
-        rc = cli_usage(command, "--classes, --members and --strict belong to 'ingest'");
+              cli_get(opts, n_opts, "strict") || cli_get(opts, n_opts, "ts-range")))
+        rc = cli_usage(command, "--classes, --members, --strict and --ts-range belong to 'ingest'");
+    else if (cli_get(opts, n_opts, "model") && cli_check_name(command, "model",
+                                                              cli_get(opts, n_opts, "model")))
+        rc = EXIT_USAGE;
     const char *cv = cli_get(opts, n_opts, "classes"), *mv = cli_get(opts, n_opts, "members");
-    if (!rc && cv && !(classes = cli_split_names(cv, &n_classes)))
-        rc = cli_usage(command, "--classes needs distinct, non-empty names up to 64 bytes");
-    if (!rc && mv && !(members = cli_split_names(mv, &n_members)))
-        rc = cli_usage(command, "--members needs distinct, non-empty names up to 64 bytes");
+    if (!rc && cv) {
+        if (cli_check_name(command, "classes", cv))
+            rc = EXIT_USAGE;
+        else if (!(classes = cli_split_names(cv, &n_classes)))
+            rc = cli_usage(command, "--classes needs distinct, non-empty names up to 64 bytes");
+    }
+    if (!rc && mv) {
+        if (cli_check_name(command, "members", mv))
+            rc = EXIT_USAGE;
+        else if (!(members = cli_split_names(mv, &n_members)))
+            rc = cli_usage(command, "--members needs distinct, non-empty names up to 64 bytes");
+    }
     cc_ingest_opts io = CC_INGEST_OPTS_INIT;
     const char *bv = cli_get(opts, n_opts, "batch");
-    if (!rc && bv && (io.batch = atoi(bv)) < 1)
-        rc = cli_usage(command, "--batch must be a positive number");
+    long long batch;
+    if (!rc && bv) {
+        if (cli_int(command, "batch", bv, 1, 10000000, &batch))
+            rc = EXIT_USAGE;
+        else
+            io.batch = (int)batch;
+    }
+    int64_t ts_first = 0, ts_last = 0;
+    const char *range = cli_get(opts, n_opts, "ts-range");
+    if (!rc && range && parse_range(command, range, &ts_first, &ts_last))
+        rc = EXIT_USAGE;
     if (rc) {
         cli_free_names(classes, n_classes);
         cli_free_names(members, n_members);
@@ -113,8 +169,18 @@ static int run(int argc, char **argv, cc_record_kind kind)
     int e = cli_store_open(&store, db, kind == CC_RECORD_EVENTS ? CC_STORE_CREATE : 0, &err);
     if (!e)
         e = cc_ingest_create(&ing, store, &io, &err);
-    for (int i = 0; !e && i < n_pos; i++)
+    if (!e && range)
+        cc_ingest_ts_range(ing, ts_first, ts_last);
+    int unreadable = 0;
+    for (int i = 0; !e && i < n_pos; i++) {
         e = cc_ingest_file(ing, pos[i], kind, &err);
+        if (e && cc_ingest_file_failed(ing) && !io.strict) {
+            /* one bad input file does not cost the lines of the others */
+            cli_fail(&err);
+            unreadable++;
+            e = 0;
+        }
+    }
     if (!e)
         e = cc_ingest_finish(ing, &err);
     if (e) {
@@ -152,6 +218,11 @@ static int run(int argc, char **argv, cc_record_kind kind)
                 fprintf(stderr, "%s: rejected lines and their reasons are in the rejects "
                                 "table of %s\n", command, db);
             rc = EXIT_REJECTED;
+        }
+        if (unreadable > 0) {
+            fprintf(stderr, "%s: %d input file(s) could not be read (see above); the lines of "
+                            "the others are stored\n", command, unreadable);
+            rc = EXIT_IO;
         }
     }
     cc_ingest_free(ing);

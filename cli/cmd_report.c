@@ -5,6 +5,7 @@
 #include <string.h>
 
 #include "cli.h"
+#include "out.h"
 #include "report.h"
 #include "date.h"
 #include "history.h"
@@ -148,25 +149,27 @@ int cmd_report(int argc, char **argv)
     if (cli_store_open(&store, db, CC_STORE_READONLY, &err))
         return cli_fail(&err);
     if (!html) {
-        /* text and JSON are written window by window as they are computed */
-        FILE *f = out ? fopen(out, "w") : stdout;
-        if (!f) {
-            fprintf(stderr, "concord report: %s: cannot write: %s\n", out, strerror(errno));
+        /* text and JSON are written window by window as they are computed,
+         * through the checked writer (no partial file on failure) */
+        cc_out *o;
+        if (cc_out_open(&o, out, json ? 0 : CC_OUT_TEXT, &err)) {
             cc_store_close(store);
-            return EXIT_IO;
+            return cli_fail(&err);
         }
+        FILE *f = cc_out_stream(o);
         if ((json ? cc_report_write_json(f, store, &ro, &err)
-                  : cc_report_write_text(f, store, &ro, &err)) != 0)
+                  : cc_report_write_text(f, store, &ro, &err)) != 0) {
+            if (ferror(f))
+                cc_out_commit(o, &err); /* names the file and the reason; removes it */
+            else
+                cc_out_discard(o);
             rc = cli_fail(&err);
-        else if (json)
-            fputc('\n', f);
-        if ((out ? fclose(f) : fflush(f)) != 0 && rc == EXIT_OK) {
-            fprintf(stderr, "concord report: %s: write failed: %s\n", out ? out : "<stdout>",
-                    strerror(errno));
-            rc = EXIT_IO;
+        } else {
+            if (json)
+                fputc('\n', f);
+            if (cc_out_commit(o, &err))
+                rc = cli_fail(&err);
         }
-        if (rc != EXIT_OK && out)
-            remove(out); /* not a partial report */
         cc_store_close(store);
         return rc;
     }
@@ -180,20 +183,11 @@ int cmd_report(int argc, char **argv)
             cc_store_close(store);
             return rc;
         }
-        FILE *f = out ? fopen(out, "w") : stdout;
         if (!text) {
             fprintf(stderr, "concord report: out of memory\n");
             rc = EXIT_IO;
-        } else if (!f) {
-            fprintf(stderr, "concord report: %s: cannot write: %s\n", out, strerror(errno));
-            rc = EXIT_IO;
         } else {
-            fputs(text, f);
-            if ((out ? fclose(f) : fflush(f)) != 0) {
-                fprintf(stderr, "concord report: %s: write failed: %s\n",
-                        out ? out : "<stdout>", strerror(errno));
-                rc = EXIT_IO;
-            }
+            rc = cli_write_output("report", out, text, 0);
         }
         free(text);
     }

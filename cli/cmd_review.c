@@ -7,6 +7,7 @@
 #include <string.h>
 
 #include "cli.h"
+#include "out.h"
 #include "date.h"
 #include "review.h"
 #include "review_render.h"
@@ -141,11 +142,9 @@ int cmd_review(int argc, char **argv)
                        &ro.from, &ro.to))
         return EXIT_USAGE;
     if (limit) {
-        char *end;
-        errno = 0;
-        long v = strtol(limit, &end, 10);
-        if (errno || *end || end == limit || v < 0 || v > 100000)
-            return cli_usage("review", "--limit must be a whole number from 0 to 100000");
+        long long v;
+        if (cli_int("review", "limit", limit, 0, 100000, &v))
+            return EXIT_USAGE;
         ro.limit = (int)v;
     }
     enum { TEXT, JSON, CSV } fmt = TEXT;
@@ -171,27 +170,30 @@ int cmd_review(int argc, char **argv)
         rc = cli_fail(&err);
     } else {
         cli_note_pruned(store, m, cc_day_of_unix(ro.from), cc_day_of_unix(ro.to), "review");
-        /* events are read and written one at a time (deferred review) */
-        const char *out = cli_get(opts, n_opts, "output");
-        FILE *f = out ? fopen(out, "w") : stdout;
-        if (!f) {
-            fprintf(stderr, "concord review: %s: cannot write: %s\n", out, strerror(errno));
-            rc = EXIT_IO;
+        /* events are read and written one at a time (deferred review),
+         * through the checked writer (no partial file on failure) */
+        cc_out *o;
+        if (cc_out_open(&o, cli_get(opts, n_opts, "output"), fmt == TEXT ? CC_OUT_TEXT : 0,
+                        &err)) {
+            rc = cli_fail(&err);
         } else {
+            FILE *f = cc_out_stream(o);
             int wrc = fmt == JSON ? cc_review_write_json(f, rv, m, &err)
                       : fmt == CSV ? cc_review_write_csv(f, rv, m, &err)
                                    : cc_review_write_text(f, rv, m, &err);
-            if (!wrc && fmt == JSON)
-                fputc('\n', f);
-            if (wrc && !ferror(f))
+            if (wrc && ferror(f)) {
+                /* the output failed: the writer names the file and the reason */
+                cc_out_commit(o, &err);
                 rc = cli_fail(&err);
-            if ((out ? fclose(f) : fflush(f)) != 0 || (wrc && rc == EXIT_OK)) {
-                fprintf(stderr, "concord review: %s: write failed: %s\n",
-                        out ? out : "<stdout>", strerror(errno));
-                rc = EXIT_IO;
+            } else if (wrc) {
+                cc_out_discard(o);
+                rc = cli_fail(&err);
+            } else {
+                if (fmt == JSON)
+                    fputc('\n', f);
+                if (cc_out_commit(o, &err))
+                    rc = cli_fail(&err);
             }
-            if (rc != EXIT_OK && out)
-                remove(out); /* not a partial review */
         }
     }
     cc_review_free(rv);

@@ -1,12 +1,11 @@
 /* cmd_rules.c — `concord rules`: write the default rules file, check a
  * rules file (every error names the rule and the key), list metric paths. */
 #include <errno.h>
-#include <fcntl.h>
 #include <stdio.h>
 #include <string.h>
-#include <unistd.h>
 
 #include "cli.h"
+#include "out.h"
 #include "paths.h"
 #include "rule.h"
 
@@ -25,19 +24,12 @@ const char help_rules[] =
 static int init(const char *out, int force)
 {
     const char *text = cc_rules_default_text();
-    if (!out) {
-        fputs(text, stdout);
-        return EXIT_OK;
-    }
-    int fd = open(out, O_WRONLY | O_CREAT | O_TRUNC | (force ? 0 : O_EXCL), 0644);
-    if (fd < 0) {
-        fprintf(stderr, "concord rules: %s: %s%s\n", out, strerror(errno),
-                errno == EEXIST ? " (use --force to replace it)" : "");
-        return EXIT_IO;
-    }
-    FILE *f = fdopen(fd, "w");
-    if (!f || fputs(text, f) == EOF || fclose(f) != 0) {
-        fprintf(stderr, "concord rules: %s: write failed: %s\n", out, strerror(errno));
+    if (!out)
+        return cli_write_output("rules", NULL, text, 0);
+    cc_error err = CC_ERROR_INIT;
+    if (cc_out_save(out, force ? 0 : CC_OUT_NO_REPLACE, text, strlen(text), &err)) {
+        fprintf(stderr, "concord rules: %s%s\n", err.msg,
+                strstr(err.msg, strerror(EEXIST)) ? " (use --force to replace it)" : "");
         return EXIT_IO;
     }
     fprintf(stderr, "concord rules: wrote %s\n", out);

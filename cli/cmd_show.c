@@ -51,11 +51,7 @@ int cmd_show(int argc, char **argv)
             fprintf(stderr, "concord show: out of memory\n");
             rc = EXIT_IO;
         } else {
-            fputs(text, stdout);
-            if (json)
-                fputc('\n', stdout);
-            if (fflush(stdout) != 0)
-                rc = EXIT_IO;
+            rc = cli_write_output("show", NULL, text, json ? CLI_OUT_NEWLINE : CLI_OUT_TEXT);
         }
         free(text);
     }

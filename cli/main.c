@@ -1,4 +1,5 @@
 /* main.c — concord's entry point: dispatches to one command per file. */
+#include <errno.h>
 #include <stdio.h>
 #include <string.h>
 #include <sys/stat.h>
@@ -45,6 +46,19 @@ static void usage(FILE *f)
                "            notifications not delivered yet\n");
 }
 
+/* Whatever a command printed on standard output must have arrived: a full
+ * disk or a closed pipe behind it is a write failure (exit 3), not success. */
+static int finish(int rc)
+{
+    errno = 0;
+    if (fflush(stdout) != 0 || ferror(stdout) || fclose(stdout) != 0) {
+        fprintf(stderr, "concord: standard output: write failed: %s\n",
+                strerror(errno ? errno : EIO));
+        return EXIT_IO;
+    }
+    return rc;
+}
+
 int main(int argc, char **argv)
 {
     /* files concord creates (database, WAL, outputs, demo files) are the
@@ -67,7 +81,7 @@ int main(int argc, char **argv)
     }
     for (size_t i = 0; i < sizeof commands / sizeof *commands; i++)
         if (strcmp(argv[1], commands[i].name) == 0)
-            return commands[i].run(argc - 1, argv + 1);
+            return finish(commands[i].run(argc - 1, argv + 1));
     fprintf(stderr, "concord: unknown command '%s'\n\n", argv[1]);
     usage(stderr);
     return EXIT_USAGE;

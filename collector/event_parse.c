@@ -11,6 +11,7 @@
 #include <string.h>
 
 #include "date.h"
+#include "utf8.h"
 #include "json_scan.h"
 #include "summary.h"
 
@@ -22,6 +23,7 @@ struct cc_parser {
     char model[NAME_MAX_BYTES + 1];
     char segment[CC_SEGMENT_MAX + 1];
     char label_name[NAME_MAX_BYTES + 1];
+    int64_t ts_first, ts_last; /* accepted event times, Unix seconds, inclusive */
 };
 
 cc_parser *cc_parser_create(void)
@@ -31,7 +33,16 @@ cc_parser *cc_parser_create(void)
         free(p);
         return NULL;
     }
+    if (p)
+        cc_parser_ts_range(p, cc_days_from_civil(CC_TS_FIRST_YEAR, 1, 1) * 86400,
+                           cc_days_from_civil(CC_TS_LAST_YEAR + 1, 1, 1) * 86400 - 1);
     return p;
+}
+
+void cc_parser_ts_range(cc_parser *p, int64_t first, int64_t last)
+{
+    p->ts_first = first;
+    p->ts_last = last;
 }
 
 void cc_parser_free(cc_parser *p)
@@ -278,6 +289,16 @@ malformed:
     return fail(why, n, "malformed JSON near byte %ld", (long)(s.p - s.start));
 }
 
+/* Names end up in JSON, CSV and HTML output: they must be UTF-8. */
+static int check_utf8(const char *field, const char *buf, size_t len, char *why, size_t n)
+{
+    size_t at;
+    if (cc_utf8_valid(buf, len, &at))
+        return 0;
+    return fail(why, n, "field '%s': not valid UTF-8 (byte %zu of the value, 0x%02x)", field,
+                at + 1, (unsigned char)buf[at]);
+}
+
 static int take_string(const found *fd, int f, const char *buf, size_t max, const char **out,
                        int required, char *why, size_t n)
 {
@@ -291,6 +312,13 @@ static int take_string(const found *fd, int f, const char *buf, size_t max, cons
                     fd->len[f], max);
     if (fd->nul[f])
         return fail(why, n, "field '%s': contains a NUL character", field_names[f]);
+    if (check_utf8(field_names[f], buf, fd->len[f], why, n))
+        return -1;
+    size_t at;
+    if (f == F_MODEL && cc_utf8_control(buf, fd->len[f], &at))
+        /* a model's name is printed by every command, unescaped in places */
+        return fail(why, n, "field 'model': control character 0x%02x at byte %zu",
+                    (unsigned char)buf[at], at + 1);
     *out = buf;
     return 0;
 }
@@ -305,8 +333,12 @@ static int take_label(cc_parser *p, const found *fd, int required, int *label,
     if (fd->type[F_LABEL] == 's') {
         if (fd->len[F_LABEL] == 0)
             return fail(why, n, "field 'label': empty class name");
-        if (fd->len[F_LABEL] > NAME_MAX_BYTES || fd->nul[F_LABEL])
+        if (fd->len[F_LABEL] > NAME_MAX_BYTES)
             return fail(why, n, "field 'label': class name longer than %d bytes", NAME_MAX_BYTES);
+        if (fd->nul[F_LABEL])
+            return fail(why, n, "field 'label': class name contains a NUL character");
+        if (check_utf8("label", p->label_name, fd->len[F_LABEL], why, n))
+            return -1;
         *name = p->label_name;
         return 0;
     }
@@ -317,6 +349,15 @@ static int take_label(cc_parser *p, const found *fd, int required, int *label,
         return fail(why, n, "field 'label': %g is out of range", x);
     *label = (int)x;
     return 0;
+}
+
+static int range_error(const cc_parser *p, double t, char *why, size_t n)
+{
+    char a[11], b[11];
+    cc_format_date(cc_day_of_unix(p->ts_first), a);
+    cc_format_date(cc_day_of_unix(p->ts_last), b);
+    return fail(why, n, "field 'ts': %.0f (Unix seconds) is outside the accepted range %s..%s "
+                        "(UTC; see --ts-range)", floor(t), a, b);
 }
 
 int cc_parse_event(cc_parser *p, const char *line, size_t len, cc_event *out, char *why,
@@ -331,6 +372,7 @@ int cc_parse_event(cc_parser *p, const char *line, size_t len, cc_event *out, ch
         return -1;
     out->id_len = (int)fd.len[F_ID];
 
+    double ts_outside = NAN;
     if (!fd.seen[F_TS])
         return fail(why, n, "field 'ts': missing");
     if (fd.type[F_TS] == 's') {
@@ -341,9 +383,12 @@ int cc_parse_event(cc_parser *p, const char *line, size_t len, cc_event *out, ch
                         fd.len[F_TS] >= sizeof fd.ts ? "not an RFC 3339 date-time" : reason);
     } else if (fd.type[F_TS] == 'n') {
         double t = fd.num[F_TS];
-        if (!isfinite(t) || t < 0 || t > 253402300799.0) /* 9999-12-31 */
+        if (!isfinite(t))
             return fail(why, n, "field 'ts': %g is not a usable Unix time", t);
-        out->ts = (int64_t)floor(t);
+        if (t < (double)p->ts_first || t >= (double)p->ts_last + 1.0)
+            ts_outside = t; /* reported after the structural checks */
+        else
+            out->ts = (int64_t)floor(t);
     } else {
         return fail(why, n, "field 'ts': must be an RFC 3339 string or Unix seconds");
     }
@@ -385,7 +430,14 @@ int cc_parse_event(cc_parser *p, const char *line, size_t len, cc_event *out, ch
     if (take_string(&fd, F_SEGMENT, p->segment, CC_SEGMENT_MAX, &out->segment, 0, why, n))
         return -1;
     out->segment_len = out->segment ? (int)fd.len[F_SEGMENT] : 0;
-    return take_label(p, &fd, 0, &out->label, &out->label_name, why, n);
+    if (take_label(p, &fd, 0, &out->label, &out->label_name, why, n))
+        return -1;
+    /* last, so a line with a structural fault is refused for that fault */
+    if (!isnan(ts_outside))
+        return range_error(p, ts_outside, why, n);
+    if (out->ts < p->ts_first || out->ts > p->ts_last)
+        return range_error(p, (double)out->ts, why, n);
+    return 0;
 }
 
 int cc_parse_label(cc_parser *p, const char *line, size_t len, cc_label_line *out, char *why,

@@ -35,11 +35,23 @@ typedef struct cc_label_line {
 
 typedef struct cc_parser cc_parser;
 
+/* Event times are accepted from CC_TS_FIRST_YEAR-01-01 to the end of
+ * CC_TS_LAST_YEAR (UTC) unless cc_parser_ts_range says otherwise: a wide but
+ * finite window, so a unit mistake (milliseconds, a zero) is refused rather
+ * than stored as a day centuries away. */
+#define CC_TS_FIRST_YEAR 2000
+#define CC_TS_LAST_YEAR 2099
+
 cc_parser *cc_parser_create(void);
 void cc_parser_free(cc_parser *p);
 
+/* Sets the accepted event times, Unix seconds, both ends inclusive. */
+void cc_parser_ts_range(cc_parser *p, int64_t first, int64_t last);
+
 /* Parses one line (without its newline). Returns 0, or -1 with a reason that
- * names the field in why (NUL-terminated, at most why_len bytes). */
+ * names the field in why (NUL-terminated, at most why_len bytes). The
+ * strings id, model, segment and a label's class name must be valid UTF-8
+ * without NUL characters. */
 int cc_parse_event(cc_parser *p, const char *line, size_t len, cc_event *out, char *why,
                    size_t why_len);
 int cc_parse_label(cc_parser *p, const char *line, size_t len, cc_label_line *out, char *why,

@@ -6,6 +6,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <time.h>
 
 #include "date.h"
@@ -58,6 +59,7 @@ struct cc_ingest {
     cc_event_view view; /* scratch: the event being taken (several KiB) */
     strict_reject *held;
     size_t n_held, cap_held;
+    int file_failed; /* the last error was an input file's, the run is intact */
 };
 
 static void model_state_clear(model_state *ms)
@@ -104,6 +106,13 @@ int cc_ingest_create(cc_ingest **out, cc_store *store, const cc_ingest_opts *opt
 }
 
 const cc_ingest_stats *cc_ingest_get_stats(const cc_ingest *ing) { return &ing->stats; }
+
+int cc_ingest_file_failed(const cc_ingest *ing) { return ing->file_failed; }
+
+void cc_ingest_ts_range(cc_ingest *ing, int64_t first, int64_t last)
+{
+    cc_parser_ts_range(ing->parser, first, last);
+}
 
 static int names_differ(char *const *a, char *const *b, int n)
 {
@@ -506,9 +515,17 @@ int cc_ingest_stream(cc_ingest *ing, FILE *f, const char *source, int64_t first_
         if (got == 0)
             break;
         ln.number += first_line - 1;
-        if (got < 0) {
-            rc = cc_error_set(err, CC_EIO, "%s: read error after line %lld: %s", source,
+        if (got == -1) {
+            rc = cc_error_set(err, CC_EIO, "%s:%lld: cannot read: %s", source,
                               (long long)ln.number, strerror(errno));
+            ing->file_failed = 1;
+            break;
+        }
+        if (got == -2) {
+            rc = cc_error_set(err, CC_EIO, "%s:%lld: line longer than %u MiB without a newline: "
+                              "not a file of JSON lines, the rest of it is skipped", source,
+                              (long long)ln.number, CC_LINE_SKIP_MAX >> 20);
+            ing->file_failed = 1;
             break;
         }
         if (ln.too_long) {
@@ -539,8 +556,18 @@ int cc_ingest_file(cc_ingest *ing, const char *path, cc_record_kind kind, cc_err
 {
     int from_stdin = strcmp(path, "-") == 0;
     FILE *f = from_stdin ? stdin : fopen(path, "rb");
-    if (!f)
+    struct stat st;
+    ing->file_failed = 0;
+    if (!f) {
+        ing->file_failed = 1;
         return cc_error_set(err, CC_EIO, "%s: cannot open: %s", path, strerror(errno));
+    }
+    if (fstat(fileno(f), &st) == 0 && S_ISDIR(st.st_mode)) {
+        if (!from_stdin)
+            fclose(f);
+        ing->file_failed = 1;
+        return cc_error_set(err, CC_EIO, "%s: is a directory, not a file of JSON lines", path);
+    }
     int rc = cc_ingest_stream(ing, f, from_stdin ? "<stdin>" : path, 1, kind, err);
     if (!from_stdin)
         fclose(f);

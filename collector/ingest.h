@@ -78,6 +78,16 @@ int cc_ingest_finish(cc_ingest *ing, cc_error *err);
 
 const cc_ingest_stats *cc_ingest_get_stats(const cc_ingest *ing);
 
+/* 1 when the last error came from an input file (it could not be opened or
+ * read, is a directory, or holds a line longer than CC_LINE_SKIP_MAX): the
+ * lines read before it are intact, so the run may go on with other files
+ * and cc_ingest_finish still commits them. 0 after a database error. */
+int cc_ingest_file_failed(const cc_ingest *ing);
+
+/* Accepted event times, Unix seconds, both ends inclusive (default: the
+ * years CC_TS_FIRST_YEAR..CC_TS_LAST_YEAR, see event_parse.h). */
+void cc_ingest_ts_range(cc_ingest *ing, int64_t first, int64_t last);
+
 /* Rolls back whatever is not committed and frees. Accepts NULL. */
 void cc_ingest_free(cc_ingest *ing);
 

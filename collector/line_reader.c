@@ -53,7 +53,10 @@ int cc_line_reader_next(cc_line_reader *r, cc_line *out)
 {
     size_t kept = 0, full = 0;
     int got_any = 0;
+    out->number = r->number + 1;
     for (;;) {
+        if (full > CC_LINE_SKIP_MAX)
+            return -2;
         if (r->pos == r->end) {
             int rc = refill(r);
             if (rc < 0)
@@ -81,7 +84,7 @@ int cc_line_reader_next(cc_line_reader *r, cc_line *out)
             break;
         }
     }
-    out->number = ++r->number;
+    r->number++;
     out->full_len = full;
     out->too_long = full > CC_LINE_MAX;
     out->len = out->too_long ? 0 : kept;

@@ -8,6 +8,10 @@
 #include <stdint.h>
 
 #define CC_LINE_MAX (1u << 20) /* 1 MiB: far above any real event */
+/* How much of one over-long line is read past and skipped before the reader
+ * gives up on the stream: a device such as /dev/zero, or a binary file, has
+ * no newline and would otherwise be read forever. */
+#define CC_LINE_SKIP_MAX (64u << 20)
 
 typedef struct cc_line_reader cc_line_reader;
 
@@ -24,7 +28,9 @@ typedef struct cc_line {
 cc_line_reader *cc_line_reader_create(FILE *f);
 void cc_line_reader_free(cc_line_reader *r);
 
-/* 1 and *out filled, 0 at end of file, -1 on a read error (errno set). */
+/* 1 and *out filled, 0 at end of file, -1 on a read error (errno set), -2
+ * when a line runs past CC_LINE_SKIP_MAX bytes (the stream is not lines).
+ * On -1 and -2, out->number is the number of the line being read. */
 int cc_line_reader_next(cc_line_reader *r, cc_line *out);
 
 #endif

@@ -714,13 +714,13 @@ int cc_store_summary_get(cc_store *s, const cc_model *m, int64_t day, cc_summary
         return db_error(s, err, "reading summary");
     char date[11];
     cc_format_date(day, date);
-    if (sqlite3_column_int(st, 0) != CC_SUMMARY_VERSION) {
+    sqlite3_int64 version = sqlite3_column_int64(st, 0); /* read before the reset */
+    if (version != CC_SUMMARY_VERSION) {
         sqlite3_reset(st);
         return cc_error_set(err, CC_EIO,
-                            "%s: summary of %s for model '%s' has layout version %d, "
+                            "%s: summary of %s for model '%s' has layout version %lld, "
                             "expected %d",
-                            s->path, date, m->name, sqlite3_column_int(st, 0),
-                            CC_SUMMARY_VERSION);
+                            s->path, date, m->name, (long long)version, CC_SUMMARY_VERSION);
     }
     int rc = cc_codec_decode(sqlite3_column_blob(st, 1), (size_t)sqlite3_column_bytes(st, 1),
                              cc_summary_data_mut(out), lay->len);

@@ -20,6 +20,7 @@
 #include <string.h>
 
 #include "date.h"
+#include "out.h"
 
 #define K 6
 #define M 5
@@ -71,20 +72,20 @@ static int draw_grade(gsl_rng *r, const double *mix)
 int cc_demo_generate(const char *events_path, const char *labels_path, const cc_demo_opts *o,
                      cc_demo_incidents *inc, cc_error *err)
 {
-    FILE *ev = fopen(events_path, "w");
-    if (!ev)
-        return cc_error_set(err, CC_EIO, "%s: %s", events_path, strerror(errno));
-    FILE *lab = fopen(labels_path, "w");
-    if (!lab) {
-        fclose(ev);
-        return cc_error_set(err, CC_EIO, "%s: %s", labels_path, strerror(errno));
+    cc_out *ev_out, *lab_out;
+    if (cc_out_open(&ev_out, events_path, 0, err))
+        return -CC_EIO;
+    if (cc_out_open(&lab_out, labels_path, 0, err)) {
+        cc_out_discard(ev_out);
+        return -CC_EIO;
     }
+    FILE *ev = cc_out_stream(ev_out), *lab = cc_out_stream(lab_out);
     gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937), *old = gsl_rng_alloc(gsl_rng_mt19937);
     if (!r || !old) {
         gsl_rng_free(r);
         gsl_rng_free(old);
-        fclose(ev);
-        fclose(lab);
+        cc_out_discard(ev_out);
+        cc_out_discard(lab_out);
         return cc_error_set(err, CC_ENOMEM, "out of memory");
     }
     gsl_rng_set(r, (unsigned long)o->seed);
@@ -167,10 +168,9 @@ int cc_demo_generate(const char *events_path, const char *labels_path, const cc_
     }
     gsl_rng_free(r);
     gsl_rng_free(old);
-    int bad = ferror(ev) | ferror(lab);
-    bad |= fclose(ev) != 0;
-    bad |= fclose(lab) != 0;
-    if (bad)
-        return cc_error_set(err, CC_EIO, "%s: write failed", events_path);
-    return 0;
+    if (cc_out_commit(ev_out, err)) {
+        cc_out_discard(lab_out);
+        return -CC_EIO;
+    }
+    return cc_out_commit(lab_out, err);
 }

@@ -474,15 +474,22 @@ char *cc_review_event_json(const cc_review_event *e, const cc_model *m)
 
 /* ---- CSV (RFC 4180 quoting) ---- */
 
+/* A cell that starts with = + - @ (or a tab or carriage return) is read as
+ * a formula by spreadsheet programs; as OWASP's "CSV Injection" page
+ * advises, such a cell gets a leading single quote, which makes it text.
+ * Only names from the logs pass through here (numbers do not). */
 static void csv_field(FILE *f, const char *s)
 {
     if (!s)
         return;
-    if (strpbrk(s, ",\"\r\n") == NULL) {
+    int formula = s[0] && strchr("=+-@\t\r", s[0]) != NULL;
+    if (!formula && strpbrk(s, ",\"\r\n") == NULL) {
         fputs(s, f);
         return;
     }
     fputc('"', f);
+    if (formula)
+        fputc('\'', f);
     for (; *s; s++) {
         if (*s == '"')
             fputc('"', f);

@@ -57,6 +57,10 @@ static int parse_ymd(const char *s, int *y, int *mo, int *d)
     return 0;
 }
 
+/* 0001-01-01T00:00:00Z and 9999-12-31T23:59:59Z */
+#define FIRST_UNIX (-62135596800LL)
+#define LAST_UNIX 253402300799LL
+
 int cc_parse_rfc3339(const char *s, int len, int64_t *out, const char **why)
 {
     int y, mo, d, h, mi, se, oh = 0, om = 0, sign = 0, i;
@@ -95,10 +99,24 @@ int cc_parse_rfc3339(const char *s, int len, int64_t *out, const char **why)
     }
     if (i != len)
         return -1;
-    if (se == 60)
-        se = 59; /* a leap second belongs to the same minute */
-    *out = cc_days_from_civil(y, mo, d) * 86400 + h * 3600 + mi * 60 + se -
-           sign * (oh * 3600 + om * 60);
+    int offset_s = sign * (oh * 3600 + om * 60);
+    if (se == 60) {
+        /* RFC 3339 section 5.7: a leap second is inserted at the end of a UTC
+         * day, so :60 must fall on 23:59:60 UTC once the offset is applied.
+         * It is stored as 23:59:59 of that day. */
+        int utc_minute = ((h * 60 + mi - offset_s / 60) % 1440 + 1440) % 1440;
+        if (utc_minute != 23 * 60 + 59) {
+            *why = "second 60 is a leap second only at 23:59:60 UTC";
+            return -1;
+        }
+        se = 59;
+    }
+    int64_t t = cc_days_from_civil(y, mo, d) * 86400 + h * 3600 + mi * 60 + se - offset_s;
+    if (t < FIRST_UNIX || t > LAST_UNIX) {
+        *why = "outside the years 0001..9999 once the offset is applied";
+        return -1;
+    }
+    *out = t;
     return 0;
 }
 

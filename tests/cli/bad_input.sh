@@ -35,15 +35,15 @@ case_line malformed '{"id":"x","ts":0,"probs":[[0.5,0.5,0' 'malformed JSON'
 case_line missing_id '{"ts":0,"probs":[[0.7,0.2,0.1],[0.6,0.3,0.1]]}' "'id': missing"
 case_line missing_ts '{"id":"x","probs":[[0.7,0.2,0.1],[0.6,0.3,0.1]]}' "'ts': missing"
 case_line missing_probs '{"id":"x","ts":0}' "'probs': missing"
-case_line wrong_m '{"id":"x","ts":0,"probs":[[0.7,0.2,0.1]]}' "1 members x 3 classes, but model 'm' has 2 x 3"
-case_line wrong_k '{"id":"x","ts":0,"probs":[[0.5,0.5],[0.5,0.5]]}' "2 members x 2 classes, but model 'm' has 2 x 3"
+case_line wrong_m '{"id":"x","ts":1790000000,"probs":[[0.7,0.2,0.1]]}' "1 members x 3 classes, but model 'm' has 2 x 3"
+case_line wrong_k '{"id":"x","ts":1790000000,"probs":[[0.5,0.5],[0.5,0.5]]}' "2 members x 2 classes, but model 'm' has 2 x 3"
 case_line negative '{"id":"x","ts":0,"probs":[[-0.1,0.6,0.5],[0.6,0.3,0.1]]}' 'outside \[0, 1\]'
 case_line above_one '{"id":"x","ts":0,"probs":[[1.2,-0.1,-0.1],[0.6,0.3,0.1]]}' 'outside \[0, 1\]'
 case_line nan '{"id":"x","ts":0,"probs":[[NaN,0.5,0.5],[0.6,0.3,0.1]]}' 'malformed JSON'
 case_line not_finite '{"id":"x","ts":0,"probs":[[1e999,0.5,0.5],[0.6,0.3,0.1]]}' 'not a finite number'
 case_line row_sum '{"id":"x","ts":0,"probs":[[0.5,0.5,0.5],[0.6,0.3,0.1]]}' 'sums to 1.5'
-case_line unknown_class '{"id":"x","ts":0,"probs":[[0.7,0.2,0.1],[0.6,0.3,0.1]],"label":"pear"}' "unknown class name 'pear'"
-case_line label_range '{"id":"x","ts":0,"probs":[[0.7,0.2,0.1],[0.6,0.3,0.1]],"label":3}' 'out of range 0..2'
+case_line unknown_class '{"id":"x","ts":1790000000,"probs":[[0.7,0.2,0.1],[0.6,0.3,0.1]],"label":"pear"}' "unknown class name 'pear'"
+case_line label_range '{"id":"x","ts":1790000000,"probs":[[0.7,0.2,0.1],[0.6,0.3,0.1]],"label":3}' 'out of range 0..2'
 
 # duplicate id: counted, not double-counted, exit 0
 f=$T/dup.jsonl; db=$T/dup.db

@@ -28,6 +28,18 @@ int main(void)
     CHECK(ts("2026-11-03T14:02:11Zjunk") == -999);
     CHECK(ts("2026-11-03T14:02:11+0200") == -999);
 
+    /* ":60" only where RFC 3339 section 5.7 puts a leap second: 23:59:60 UTC.
+     * 2017-01-01T00:00:00Z is 1483228800 (date -u -d 2017-01-01 +%s). */
+    CHECK(ts("2016-12-31T23:59:60Z") == 1483228799);
+    CHECK(ts("2017-01-01T01:59:60+02:00") == 1483228799); /* the same second, local */
+    CHECK(ts("2024-02-29T12:30:60Z") == -999);
+    CHECK(ts("2016-12-31T23:59:60+02:00") == -999);      /* 21:59:60 UTC */
+    /* years outside 0001..9999 once the offset is applied */
+    CHECK(ts("0001-01-01T00:30:00+01:00") == -999);
+    CHECK(ts("9999-12-31T23:30:00-01:00") == -999);
+    CHECK(ts("0001-01-01T00:00:00Z") == -62135596800LL);  /* python datetime(1,1,1) */
+    CHECK(ts("1969-12-31T23:59:59Z") == -1);
+
     /* a +02:00 time early in the morning belongs to the previous UTC day */
     CHECK(cc_day_of_unix(ts("2026-11-03T01:30:00+02:00")) == cc_days_from_civil(2026, 11, 2));
     CHECK(cc_day_of_unix(-1) == -1);

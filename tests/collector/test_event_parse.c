@@ -32,6 +32,9 @@ int main(void)
 {
     cc_event e;
     P = cc_parser_create();
+    /* the shape checks below use small Unix times; the default range is
+     * checked at the end */
+    cc_parser_ts_range(P, 0, 253402300799LL);
 
     CHECK(ev("{\"id\":\"a\",\"ts\":\"2026-11-03T14:02:11Z\",\"probs\":[[0.9,0.1],[0.2,0.8]],"
              "\"segment\":\"cam-2\",\"label\":1,\"extra\":{\"ignored\":true}}", &e) == 0);
@@ -154,6 +157,46 @@ int main(void)
     const char *nolabel = "{\"id\":\"x\"}";
     CHECK(cc_parse_label(P, nolabel, strlen(nolabel), &lab, why, sizeof why) != 0 &&
           strstr(why, "'label': missing"));
+    /* names must be UTF-8 (RFC 3629): overlong, surrogate, above U+10FFFF,
+     * truncated, stray continuation byte; the reason names the field */
+    CHECK(refused("{\"id\":\"a\xc0\xaf" "b\",\"ts\":0,\"probs\":[[0.5,0.5]]}", "'id': not valid UTF-8"));
+    CHECK(refused("{\"id\":\"a\",\"ts\":0,\"segment\":\"\xed\xa0\x80\",\"probs\":[[0.5,0.5]]}",
+                  "'segment': not valid UTF-8"));
+    CHECK(refused("{\"id\":\"a\",\"ts\":0,\"model\":\"\xf4\x90\x80\x80\",\"probs\":[[0.5,0.5]]}",
+                  "'model': not valid UTF-8"));
+    CHECK(refused("{\"id\":\"a\xe2\x82\",\"ts\":0,\"probs\":[[0.5,0.5]]}", "'id': not valid UTF-8"));
+    CHECK(refused("{\"id\":\"a\",\"ts\":0,\"probs\":[[0.5,0.5]],\"label\":\"\x80\"}",
+                  "'label': not valid UTF-8"));
+    CHECK(ev("{\"id\":\"\xe2\x82\xac\xf0\x9f\x8d\x8e" "\",\"ts\":0,\"probs\":[[0.5,0.5]]}", &e) == 0);
+    /* a NUL in a class name is said to be one, whatever the length */
+    const char *nul_label = "{\"id\":\"a\",\"label\":\"x\\u0000y\"}";
+    CHECK(cc_parse_label(P, nul_label, strlen(nul_label), &lab, why, sizeof why) == -1 &&
+          strstr(why, "NUL") && !strstr(why, "longer"));
+    const char *bad_label = "{\"id\":\"a\",\"label\":\"\xff\"}";
+    CHECK(cc_parse_label(P, bad_label, strlen(bad_label), &lab, why, sizeof why) == -1 &&
+          strstr(why, "UTF-8"));
+
+    /* the default time range: 2000-01-01 to 2099-12-31 UTC, strings and
+     * numbers alike (946684800 = 2000-01-01, 4102444800 = 2100-01-01,
+     * date -u +%s) */
+    cc_parser_free(P);
+    P = cc_parser_create();
+    CHECK(refused("{\"id\":\"a\",\"ts\":0,\"probs\":[[0.5,0.5]]}", "outside the accepted range"));
+    CHECK(refused("{\"id\":\"a\",\"ts\":-5,\"probs\":[[0.5,0.5]]}", "outside the accepted range"));
+    CHECK(refused("{\"id\":\"a\",\"ts\":\"1969-07-20T20:17:00Z\",\"probs\":[[0.5,0.5]]}",
+                  "outside the accepted range"));
+    CHECK(refused("{\"id\":\"a\",\"ts\":1.7e15,\"probs\":[[0.5,0.5]]}", "1700000000000000 (Unix"));
+    CHECK(refused("{\"id\":\"a\",\"ts\":1.7e11,\"probs\":[[0.5,0.5]]}", "outside the accepted range"));
+    CHECK(refused("{\"id\":\"a\",\"ts\":4102444800,\"probs\":[[0.5,0.5]]}", "2000-01-01..2099-12-31"));
+    CHECK(ev("{\"id\":\"a\",\"ts\":946684800,\"probs\":[[0.5,0.5]]}", &e) == 0);
+    CHECK(ev("{\"id\":\"a\",\"ts\":4102444799,\"probs\":[[0.5,0.5]]}", &e) == 0);
+    CHECK(ev("{\"id\":\"a\",\"ts\":\"2100-01-01T00:30:00+01:00\",\"probs\":[[0.5,0.5]]}", &e) == 0);
+    /* a structural fault is reported before the range */
+    CHECK(refused("{\"id\":\"a\",\"ts\":0}", "'probs': missing"));
+    cc_parser_ts_range(P, 0, 86399);
+    CHECK(ev("{\"id\":\"a\",\"ts\":0,\"probs\":[[0.5,0.5]]}", &e) == 0);
+    CHECK(refused("{\"id\":\"a\",\"ts\":86400,\"probs\":[[0.5,0.5]]}", "1970-01-01..1970-01-01"));
+
     cc_parser_free(P);
     return CHECK_DONE("event_parse");
 }

@@ -31,9 +31,9 @@ MODEL='<i>m</i>&"x'"'"
   "$T/events.jsonl" > /dev/null 2>&1
 "$CONCORD" baseline --db "$T/h.db" --model "$MODEL" --from 2026-03-01 --to 2026-03-03 > /dev/null
 "$CONCORD" report --db "$T/h.db" --model "$MODEL" --format html -o "$T/h.html"
-R=("$CONCORD" review --db "$T/h.db" --model "$MODEL" --from 2026-03-01 --to 2026-03-05 --where all)
-"${R[@]}" --format csv -o "$T/h.csv"
-"${R[@]}" --format json -o "$T/h.json"
+R=("$CONCORD" review --db "$T/h.db" --model "$MODEL" --from 2026-03-01 --to 2026-03-05)
+"${R[@]}" --where all --format csv -o "$T/h.csv"
+"${R[@]}" --where all --format json -o "$T/h.json"
 "${R[@]}" --where 'pair:<script>alert(1)</script>,a&b' > /dev/null
 python3 - "$T" <<'PY'
 import csv, html.parser, json, sys
