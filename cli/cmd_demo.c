@@ -23,7 +23,7 @@ const char help_demo[] =
     "members are near copies (from day 23: disagreement collapses). Writes events.jsonl,\n"
     "labels.jsonl, demo.db, report.txt, report.json and report.html into DIR (default\n"
     "./concord-demo, replacing an earlier demo database there). Then checks the default\n"
-    "alert rules day by day (rules.json) and prints the alert timeline (alerts.jsonl).\n\n"
+    "alert rules day by day (rules.jsonc) and prints the alert timeline (alerts.jsonl).\n\n"
     "exit: 0 ok, 2 usage, 3 file or database error\n";
 
 static int write_file(const char *path, const char *text)

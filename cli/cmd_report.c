@@ -39,8 +39,8 @@ static int add_firing(void *ctx, const cc_state_row *row)
     firing *f = ctx;
     char since[11], line[512];
     cc_format_date(row->since_day, since);
-    snprintf(line, sizeof line, "%s (%s): firing since %s; %s = %.4g, bound %.4g", row->rule,
-             row->severity, since, row->metric, row->last_value, row->last_bound);
+    snprintf(line, sizeof line, "%s (%s): raised since %s; %s = %.4g, bound %.4g", row->rule,
+             row->urgency, since, row->metric, row->last_value, row->last_bound);
     char **grown = realloc(f->lines, (size_t)(f->n + 1) * sizeof *grown);
     if (!grown || !(grown[f->n] = strdup(line))) {
         if (grown)
@@ -80,7 +80,7 @@ int cli_report_html(cc_store *store, const cc_report *r, int with_review, const 
     firing f = {NULL, 0};
     if (cc_history_evaluated(store, r->model->name)) {
         x.alerts_known = 1;
-        if (cc_history_states(store, r->model->name, "firing", add_firing, &f, &err)) {
+        if (cc_history_states(store, r->model->name, "raised", add_firing, &f, &err)) {
             cc_review_free(rv);
             free_firing(&f);
             return cli_fail(&err);

@@ -61,7 +61,7 @@ static int check(const char *path)
             snprintf(cond, sizeof cond, "%g sd %s", r->threshold,
                      r->cond == CC_COND_SIGMAS_ABOVE ? "above" : "below");
         printf("  %-20s %-8s %-34s %-18s for %d, clear %d%s\n", r->name,
-               cc_rules_severity_name(r->severity), r->metric, cond, r->fire_after,
+               cc_rules_urgency_name(r->urgency), r->metric, cond, r->raise_after,
                r->clear_after, r->remind_after_days ? ", reminders" : "");
     }
     for (int i = 0; i < cc_rules_receiver_count(rs); i++) {

@@ -26,7 +26,7 @@ typedef struct cc_report_window {
     cc_summary *summary;
     cc_window_metrics metrics;
     cc_comparison cmp;          /* against the baseline (has_baseline = 0 without one) */
-    double *z;                  /* cc_tracked_count(): z-score against the baseline days */
+    double *z;                  /* cc_tracked_slots(m, k): z-score against the baseline days */
     double *ewma;               /* the same figures' EWMA over day windows; NULL otherwise */
 } cc_report_window;
 
@@ -36,7 +36,7 @@ typedef struct cc_report {
     int64_t baseline_from, baseline_to, baseline_events, baseline_labeled;
     int baseline_days;          /* days with events in the baseline period */
     cc_summary *baseline;       /* merged baseline summary, NULL without one */
-    cc_baseline_stat *stats;    /* cc_tracked_count(): the baseline days' mean and sd */
+    cc_baseline_stat *stats;    /* cc_tracked_slots(m, k): the baseline days' mean and sd */
     cc_grouping by;
     cc_report_window *windows;
     int n_windows;

@@ -42,7 +42,7 @@ static int64_t window_key(int64_t day, cc_grouping by)
 static int load_baseline(cc_report *r, cc_store *store, cc_summary *day_sum, cc_error *err)
 {
     const cc_model *m = r->model;
-    const int nt = cc_tracked_count();
+    const int nt = cc_tracked_slots(m->m, m->k);
     int64_t *days = NULL;
     double *series = NULL;
     int n_days = 0, rc;
@@ -93,7 +93,7 @@ done:
  * baseline mean (Roberts 1959). */
 static int score_windows(cc_report *r)
 {
-    const int nt = cc_tracked_count();
+    const int nt = cc_tracked_slots(r->model->m, r->model->k);
     double *level = malloc(sizeof(double) * (size_t)nt);
     if (!level)
         return -1;

@@ -20,7 +20,7 @@ typedef struct fake {
 static int fake_send(void *ctx, const cc_webhook_request *req, cc_webhook_response *res)
 {
     fake *f = ctx;
-    int n = atoi(strrchr(req->dedupe_key, '-') + 1);
+    int n = atoi(strrchr(req->notice_id, '-') + 1);
     int is_a = strcmp(req->url, "http://a.invalid/") == 0;
     (is_a ? f->calls_a : f->calls_b)[n]++;
     if (is_a && f->fail_a) {
