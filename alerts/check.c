@@ -46,8 +46,8 @@ static cc_outcome outcome_of(cc_transition tr, cc_state_kind after, cc_eval_stat
 }
 
 /* Builds, records and queues the notification of one transition. */
-static int notify(cc_store *s, const cc_ruleset *rs, cc_evaluator *ev, cc_check_item *it,
-                  const cc_rule_state *st, cc_transition tr, int64_t now,
+static int notify(cc_store *s, const cc_ruleset *rs, int dry_run, cc_evaluator *ev,
+                  cc_check_item *it, const cc_rule_state *st, cc_transition tr, int64_t now,
                   const cc_receiver *recv, int n_recv, cc_check_result *res, cc_error *err)
 {
     const cc_report *rep = NULL;
@@ -79,8 +79,9 @@ static int notify(cc_store *s, const cc_ruleset *rs, cc_evaluator *ev, cc_check_
                          body,
                          now};
     int queued = 0;
-    rc = cc_state_queue(s, &n, recv, n_recv, cc_rules_backoff_s(rs), cc_rules_max_backoff_s(rs),
-                        &queued, err);
+    if (!dry_run)
+        rc = cc_state_queue(s, &n, recv, n_recv, cc_rules_backoff_s(rs),
+                            cc_rules_max_backoff_s(rs), &queued, err);
     free(body);
     if (queued)
         res->queued += n_recv;
@@ -105,8 +106,14 @@ static int check_model(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o
         cc_eval_free(ev);
         return rc;
     }
-    for (int i = 0; !rc && i < n_rules; i++)
-        rc = cc_state_load(s, model, cc_rules_get(rs, i)->name, &states[i], err);
+    for (int i = 0; !rc && i < n_rules; i++) {
+        if (!o->fresh) {
+            rc = cc_state_load(s, model, cc_rules_get(rs, i)->name, &states[i], err);
+            continue;
+        }
+        memset(&states[i], 0, sizeof states[i]);
+        states[i].last_day = states[i].fired_day = states[i].last_notified_day = -1;
+    }
     for (int64_t day = res->day; !rc && day <= res->last_day; day++) {
         cc_eval_set_day(ev, day);
         for (int i = 0; !rc && i < n_rules; i++) {
@@ -143,10 +150,10 @@ static int check_model(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o
             it->fired_day = st->fired_day;
             it->last_day = st->last_day;
             it->outcome = outcome_of(tr, st->state, it->ev.status);
-            if ((rc = cc_state_save(s, model, rule, st, &it->ev, now, err)))
+            if (!o->dry_run && (rc = cc_state_save(s, model, rule, st, &it->ev, now, err)))
                 break;
             if (tr != CC_TR_NONE)
-                rc = notify(s, rs, ev, it, st, tr, now, recv, n_recv, res, err);
+                rc = notify(s, rs, o->dry_run, ev, it, st, tr, now, recv, n_recv, res, err);
         }
     }
     cc_eval_free(ev);
@@ -176,7 +183,7 @@ int cc_check_run(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o,
                                           "span at most ten years");
         goto done;
     }
-    if ((rc = cc_state_prepare(s, err)))
+    if (!(o->dry_run && o->fresh) && (rc = cc_state_prepare(s, err)))
         goto done;
     if (o->model) {
         cc_model *m = NULL;

@@ -47,6 +47,8 @@ typedef struct cc_check_opts {
     int has_to;
     int64_t to;                 /* replay: every day from day to this one, in order */
     int dry_run;                /* evaluate and report, change nothing */
+    int fresh;                  /* start every rule from a new state, ignoring the stored
+                                   ones (with dry_run: rules validate, report --rules) */
     int64_t now;                /* Unix time; 0 = the clock */
     const cc_receiver *extra;   /* receivers added for this run */
     int n_extra;

@@ -13,6 +13,7 @@
 #include "cli.h"
 #include "date.h"
 #include "deliver.h"
+#include "report.h"
 #include "rule.h"
 #include "webhook.h"
 
@@ -218,6 +219,65 @@ void cli_print_check(const cc_check_result *r, int json, int dry_run,
                    "%lld pending, %lld dead letters in the outbox\n",
                 ds->sent, ds->failed, ds->dead, (long long)ds->pending,
                 (long long)ds->dead_total);
+}
+
+void cli_replay_free(cli_replay *r)
+{
+    cc_check_result_free(r->res);
+    cc_rules_free(r->rules);
+    free(r->items);
+    free(r->raised);
+    memset(r, 0, sizeof *r);
+}
+
+int cli_replay_run(cc_store *store, const char *rules_path, const char *model, int64_t from,
+                   int64_t to, cli_replay *out)
+{
+    cc_error err = CC_ERROR_INIT;
+    memset(out, 0, sizeof *out);
+    int rc = rules_path ? cc_rules_load(&out->rules, rules_path, &err)
+                        : cc_rules_parse(&out->rules, cc_rules_default_text(), "default rules",
+                                         &err);
+    if (rc)
+        return cli_fail(&err);
+    cc_check_opts co = {.model = model, .has_day = 1, .day = from, .has_to = 1, .to = to,
+                        .dry_run = 1, .fresh = 1, .now = cli_now()};
+    if (cc_check_run(store, out->rules, &co, &out->res, &err)) {
+        cli_replay_free(out);
+        return cli_fail(&err);
+    }
+    const cc_check_result *res = out->res;
+    out->items = calloc((size_t)res->n_items + 1, sizeof *out->items);
+    out->raised = calloc((size_t)res->n_items + 1, sizeof *out->raised);
+    if (!out->items || !out->raised) {
+        cli_replay_free(out);
+        fprintf(stderr, "concord: out of memory\n");
+        return EXIT_IO;
+    }
+    for (int i = 0; i < res->n_items; i++) {
+        const cc_check_item *it = &res->items[i];
+        cc_report_alert a = {it->day,
+                             it->rule->name,
+                             "",
+                             cc_rules_urgency_name(it->rule->urgency),
+                             it->ev.subject,
+                             it->sentence,
+                             it->rule->metric,
+                             it->ev.value,
+                             it->ev.bound,
+                             it->fired_day};
+        if (it->outcome == CC_OUT_RAISED || it->outcome == CC_OUT_CLEARED ||
+            it->outcome == CC_OUT_REMINDER) {
+            a.kind = cc_check_outcome_name(it->outcome);
+            out->items[out->n_items++] = a;
+        }
+        if (it->day == res->last_day && it->after == CC_STATE_RAISED) {
+            a.kind = "raised";
+            out->raised[out->n_raised++] = a;
+        }
+        out->not_evaluated += it->day == res->last_day && it->outcome == CC_OUT_NOT_EVALUATED;
+    }
+    return EXIT_OK;
 }
 
 static void on_delivery(void *ctx, const cc_deliver_event *e)

@@ -231,6 +231,44 @@ double cc_figures_value(const cc_figure *f, const cc_window_metrics *w, const cc
     return f->value(w, c, index);
 }
 
+void cc_figures_range(const cc_figure *f, double *lo, double *hi)
+{
+    static const struct {
+        const char *prefix;
+        double lo, hi;
+    } ranges[] = {
+        /* first match wins */
+        {"diversity.kappa", -1, 1},          {"diversity.fleiss_kappa", -1, 1},
+        {"diversity.q", -1, 1},              {"diversity.rho", -1, 1},
+        {"diversity.interrater_kappa", -1, 1}, {"accuracy.ensemble_gain", -1, 1},
+        {"by_member.departure", -1, 1},      {"diversity.", 0, 1},
+        {"accuracy.", 0, 1},                 {"calibration.ece", 0, 1},
+        {"calibration.mce", 0, 1},           {"calibration.brier", 0, 2},
+        {"labels.coverage", 0, 1},           {"by_class.", 0, 1},
+        {"by_member.", 0, 1},                {"drift.max_prob.ks", 0, 1},
+        {"drift.entropy.ks", 0, 1},          {"drift.mutual_information.ks", 0, 1},
+        {"drift.per_class.ks", 0, 1},        {"label_shift.bbse_l1", 0, 2},
+        {"label_shift.em_l1", 0, 2},         {"drift.class_mix.js", 0, 1},
+        {"drift.", 0, INFINITY},             {"uncertainty.", 0, INFINITY},
+        {"calibration.nll", 0, INFINITY},    {"events", 0, INFINITY},
+        {"labeled", 0, INFINITY},            {"vote_ties_all", 0, INFINITY},
+        {"labels.", 0, INFINITY},
+    };
+    *lo = -INFINITY;
+    *hi = INFINITY;
+    if (strstr(f->path, "p_value") || strstr(f->path, "min_p_bonferroni")) {
+        *lo = 0;
+        *hi = 1;
+        return;
+    }
+    for (size_t i = 0; i < sizeof ranges / sizeof *ranges; i++)
+        if (strncmp(f->path, ranges[i].prefix, strlen(ranges[i].prefix)) == 0) {
+            *lo = ranges[i].lo;
+            *hi = ranges[i].hi;
+            return;
+        }
+}
+
 int cc_tracked_count(void)
 {
     int n = 0;

@@ -40,6 +40,10 @@ double cc_figures_value(const cc_figure *f, const cc_window_metrics *w, const cc
 /* Values a figure has for a model with m members and k classes (1, m or k). */
 int cc_figures_width(const cc_figure *f, int m, int k);
 const char *cc_figures_scope_name(cc_figure_scope s);
+/* The values a figure can take (rates in [0, 1], kappas in [-1, 1], PSI and
+ * counts >= 0, ...); an open end is -INFINITY or INFINITY. Bands drawn
+ * around a baseline are clipped to it. */
+void cc_figures_range(const cc_figure *f, double *lo, double *hi);
 
 /* Tracked slots: every tracked figure times its width, window figures first
  * (so the first cc_tracked_count() slots do not depend on m and k). */

@@ -48,13 +48,42 @@ int cc_report_build(cc_report **out, cc_store *store, const cc_report_opts *opts
                     cc_error *err);
 void cc_report_free(cc_report *r);
 
-/* Renderings; malloc'd NUL-terminated text, NULL on out of memory. */
+/* An alert timeline the caller evaluated over the report's range (the cli's
+ * `report --rules`): the transitions day by day, and the rules still raised
+ * after the last day. Strings are borrowed. */
+typedef struct cc_report_alert {
+    int64_t day;
+    const char *rule, *kind, *urgency, *subject, *sentence;  /* subject may be "" */
+    const char *metric;
+    double value, bound;
+    int64_t since;              /* raised_at_end: the day it was raised */
+} cc_report_alert;
+
+typedef struct cc_report_timeline {
+    const char *rules;          /* the rules file, or "default rules" */
+    const cc_report_alert *items;
+    int n;
+    const cc_report_alert *raised;  /* still raised after the last day (kind "raised") */
+    int n_raised;
+    int not_evaluated;          /* rules that could not judge the last day */
+    int64_t last_day;
+} cc_report_timeline;
+
+/* Findings about the baseline itself, stated once (not alerts): e.g. the
+ * ensemble does not beat its best member even on the baseline days. Fills
+ * up to cap sentences; returns how many. */
+int cc_report_findings(const cc_report *r, char out[][320], int cap);
+
+/* Renderings; malloc'd NUL-terminated text, NULL on out of memory. The
+ * _with forms add the alert timeline when t is not NULL. */
 char *cc_report_json(const cc_report *r);
+char *cc_report_json_with(const cc_report *r, const cc_report_timeline *t);
 
 /* Window i of the JSON contract as a cJSON tree (caller frees with
  * cJSON_Delete), for readers that look figures up by path (alerts). */
 struct cJSON *cc_report_window_json(const cc_report *r, int i);
 char *cc_report_text(const cc_report *r);
+char *cc_report_text_with(const cc_report *r, const cc_report_timeline *t);
 
 /* The HTML page's inputs besides the report. alerts: lines for the status
  * line, when the caller evaluated alert rules (alerts_known = 1); review:
@@ -67,9 +96,10 @@ typedef struct cc_html_extras {
     int n_alerts;
     double band_k;              /* band = baseline mean +- band_k sd of its days */
     const char *note;           /* a line under the title, or NULL */
+    const cc_report_timeline *timeline; /* rules evaluated over the range, or NULL */
 } cc_html_extras;
 
-#define CC_HTML_EXTRAS_INIT {NULL, 0, NULL, 0, 3.0, NULL}
+#define CC_HTML_EXTRAS_INIT {NULL, 0, NULL, 0, 3.0, NULL, NULL}
 
 /* One self-contained HTML page (inline CSS and SVG, no script); extras may
  * be NULL. Strings from the logs are escaped. */

@@ -298,7 +298,39 @@ static cJSON *window_json(const cc_report_window *w, int m, int k)
     return o;
 }
 
-char *cc_report_json(const cc_report *r)
+static cJSON *alert_json(const cc_report_alert *a)
+{
+    cJSON *e = cJSON_CreateObject();
+    cJSON_AddItemToObject(e, "day", date(a->day));
+    cJSON_AddStringToObject(e, "rule", a->rule);
+    cJSON_AddStringToObject(e, "kind", a->kind);
+    cJSON_AddStringToObject(e, "urgency", a->urgency);
+    if (a->subject && a->subject[0])
+        cJSON_AddStringToObject(e, "subject", a->subject);
+    cJSON_AddItemToObject(e, "value", num(a->value));
+    cJSON_AddItemToObject(e, "bound", num(a->bound));
+    if (a->sentence)
+        cJSON_AddStringToObject(e, "sentence", a->sentence);
+    return e;
+}
+
+static cJSON *timeline_json(const cc_report_timeline *t)
+{
+    cJSON *o = cJSON_CreateObject();
+    cJSON_AddStringToObject(o, "rules", t->rules);
+    cJSON *a = cJSON_AddArrayToObject(o, "transitions");
+    for (int i = 0; i < t->n; i++)
+        cJSON_AddItemToArray(a, alert_json(&t->items[i]));
+    cJSON *raised = cJSON_AddArrayToObject(o, "raised_at_end");
+    for (int i = 0; i < t->n_raised; i++)
+        cJSON_AddItemToArray(raised, alert_json(&t->raised[i]));
+    cJSON_AddNumberToObject(o, "not_evaluated_at_end", t->not_evaluated);
+    return o;
+}
+
+char *cc_report_json(const cc_report *r) { return cc_report_json_with(r, NULL); }
+
+char *cc_report_json_with(const cc_report *r, const cc_report_timeline *tl)
 {
     const cc_model *m = r->model;
     cJSON *root = cJSON_CreateObject();
@@ -313,6 +345,11 @@ char *cc_report_json(const cc_report *r)
         cJSON_AddNumberToObject(b, "labeled", (double)r->baseline_labeled);
         cJSON_AddNumberToObject(b, "days", r->baseline_days);
         cJSON_AddItemToObject(b, "daily", tracked_json(m->m, m->k, slot_stat, r->stats));
+        char found[4][320];
+        int nf = cc_report_findings(r, found, 4);
+        cJSON *fa = cJSON_AddArrayToObject(b, "findings");
+        for (int i = 0; i < nf; i++)
+            cJSON_AddItemToArray(fa, cJSON_CreateString(found[i]));
     } else {
         cJSON_AddNullToObject(root, "baseline");
     }
@@ -328,6 +365,8 @@ char *cc_report_json(const cc_report *r)
     cJSON *ws = cJSON_AddArrayToObject(root, "windows");
     for (int i = 0; i < r->n_windows; i++)
         cJSON_AddItemToArray(ws, window_json(&r->windows[i], m->m, m->k));
+    if (tl)
+        cJSON_AddItemToObject(root, "alerts", timeline_json(tl));
     char *text = cJSON_Print(root);
     cJSON_Delete(root);
     return text;
