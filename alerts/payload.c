@@ -68,6 +68,13 @@ void cc_payload_sentence(char *out, size_t cap, const cc_payload_in *in)
         else
             snprintf(base, sizeof base, " (baseline %s, sd %s)", m, s);
     }
+    if (in->kind == CC_TR_CLEARED && r->each && ev->subject[0]) {
+        snprintf(out, cap, "%s: every %s's %s is back %s its bound for %d day(s) (closest: %s, "
+                           "%s on %s, bound %s); the alert was raised on %s.",
+                 in->model, pi.scope == CC_SCOPE_MEMBER ? "member" : "class", w0,
+                 above ? "below" : "above", r->clear_after, ev->subject, v, day, b, fired);
+        return;
+    }
     switch (in->kind) {
     case CC_TR_CLEARED:
         snprintf(out, cap, "%s: %s is back %s %s (%s on %s) for %d day(s); the alert was raised on %s.",
