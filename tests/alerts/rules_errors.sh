@@ -25,8 +25,8 @@ run "$C" rules init -o "$T/rules.jsonc" --force
 run "$C" rules check "$T/rules.jsonc"
 [ $RC -eq 0 ] && grep -q '11 rule(s)' "$T/out" || fail "check of the default file: $(cat "$T/out" "$T/err")"
 run "$C" rules paths
-[ $RC -eq 0 ] && grep -q '^uncertainty.mutual_information *sigmas ok' "$T/out" &&
-  grep -q '^drift.per_class.min_p_bonferroni *bounds' "$T/out" || fail "rules paths"
+[ $RC -eq 0 ] && grep -q '^uncertainty.mutual_information *window *sigmas ok' "$T/out" &&
+  grep -q '^drift.per_class.min_p_bonferroni *window *bounds' "$T/out" && grep -q '^by_member.departure *member *sigmas ok' "$T/out" || fail "rules paths"
 
 python3 "$SRC/gen_days.py" "$T/e.jsonl" --start 2026-03-01 --pattern agree --per-day 5
 "$C" ingest --db "$T/t.db" --model m "$T/e.jsonl" 2> /dev/null
