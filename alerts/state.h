@@ -66,7 +66,7 @@ typedef struct cc_notification {
 } cc_notification;
 
 /* Records the notification and an outbox row per receiver. *queued = 0 when
- * the dedupe key was already recorded (nothing is added). */
+ * the notice id was already recorded (nothing is added). */
 int cc_state_queue(cc_store *s, const cc_notification *n, const cc_receiver *receivers,
                    int n_receivers, int backoff_s, int max_backoff_s, int *queued,
                    cc_error *err);

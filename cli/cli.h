@@ -16,8 +16,8 @@ enum {
     EXIT_USAGE = 2,      /* bad command line */
     EXIT_IO = 3,         /* file or database failure */
     EXIT_NOTFOUND = 4,   /* unknown model, or nothing in the range */
-    EXIT_FIRED = 10,     /* check: a rule fired on the checked day */
-    EXIT_FIRING = 11,    /* check: rules are firing, none newly */
+    EXIT_FIRED = 10,     /* check: a rule was raised on a checked day */
+    EXIT_FIRING = 11,    /* check: rules are still raised, none newly */
     EXIT_UNDELIVERED = 12, /* deliver: some notifications failed (retried later) */
 };
 

@@ -145,7 +145,7 @@ int cmd_demo(int argc, char **argv)
            "--where top-mi\n", db, fog_a, fog_b);
     if ((rc = cli_demo_alerts(store, dir, dopts.first_day, dopts.days)) != EXIT_OK)
         goto done;
-    /* the page last, so its status line shows the rules still firing */
+    /* the page last, so its status line shows the rules still raised */
     if ((rc = cli_report_html(store, rep, 1,
                               "Invented data from concord demo: an imaginary apple packhouse, "
                               "not real measurements.",

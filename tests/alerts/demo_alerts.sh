@@ -15,7 +15,7 @@ fails=0
 fail() { echo "FAIL: $*" >&2; fails=$((fails + 1)); }
 
 "$C" demo --dir "$T" > "$T/demo.txt"
-# the page's status line names the rules still firing at the end of the demo
+# the page's status line names the rules still raised at the end of the demo
 grep -q 'diversity-collapse (high): raised since 2026-10-27' "$T/report.html" ||
   { echo "FAIL: report.html does not list the raised diversity-collapse rule" >&2; exit 1; }
 grep -q '^alert timeline' "$T/demo.txt" || fail "demo prints no alert timeline"

@@ -2,7 +2,7 @@
  * success, a failing receiver's other rows wait for the next run, backoff
  * grows and stays within its jitter band, dead letters after max_attempts,
  * re-queued dead letters are sent once, sent rows are never sent again, a
- * duplicate dedupe key queues nothing. */
+ * duplicate notice id queues nothing. */
 #include <math.h>
 #include <sqlite3.h>
 #include <stdlib.h>
@@ -82,7 +82,7 @@ int main(void)
         T_CHECK(cc_state_queue(s, &n, recv, 2, 10, 100, &queued, &err) == 0 && queued,
                 "queue %d", i);
         T_CHECK(cc_state_queue(s, &n, recv, 2, 10, 100, &queued, &err) == 0 && !queued,
-                "the same dedupe key again queues nothing");
+                "the same notice id again queues nothing");
     }
     T_CHECK(one(s, "SELECT count(*) FROM outbox") == 4, "2 notifications x 2 receivers");
 
