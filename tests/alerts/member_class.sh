@@ -14,7 +14,9 @@
 # - a model whose best member beats the average on every baseline day: the
 #   report states it once as a finding, the old fixed bound on the gain is
 #   flagged by 'rules validate' (exit 10), the default rules stay quiet;
-# - report --rules puts the same timeline into the JSON report.
+# - report --rules puts the same timeline into the JSON report; the HTML
+#   status line comes from the default rules, bands stay within each
+#   figure's range (PSI >= 0), and a two-day baseline has no band.
 # Usage: member_class.sh CONCORD TESTDIR
 set -euo pipefail
 C=$1
@@ -149,6 +151,26 @@ got = [(a["day"], a["rule"], a["kind"]) for a in rep["transitions"]]
 assert got == want, (got, want)
 assert rep["rules"].endswith("default.jsonc")
 PY
+
+# --- the page's status line comes from the rules; bands stay in range ------
+"$C" report --db "$T/m.db" --model m --format html --no-review -o "$T/m.html"
+python3 - "$T/m.html" <<'PY' || fail "HTML status line or bands"
+import re, sys
+page = open(sys.argv[1]).read()
+status = page[page.index('<section id="status"'):]
+status = status[:status.index("</section>")]
+assert "Alerts raised after the last day:" in status and "default rules" in status, status
+assert "member-departs" in status, status     # raised on the broken days, a transition
+for lo, hi in re.findall(r"band (-?[0-9.]+) to (-?[0-9.]+)</figcaption>", page):
+    assert float(lo) <= float(hi), (lo, hi)
+psi = re.search(r"\(PSI\)</b> &middot; baseline [0-9.]+, band (-?[0-9.]+) to", page)
+assert psi and float(psi.group(1)) >= 0, psi and psi.group(0)   # PSI >= 0
+PY
+cp "$T/m.db" "$T/short.db"
+"$C" baseline --db "$T/short.db" --model m --from 2026-05-01 --to 2026-05-02 > /dev/null
+"$C" report --db "$T/short.db" --model m --format html --no-review -o "$T/short.html"
+grep -q 'The baseline has 2 day(s) with events; a band needs at least 3, so there is no band' "$T/short.html" ||
+  fail "a two-day baseline: the page must say there is no band"
 
 # --- the best member beats the average on every baseline day ----------------
 python3 "$SRC/gen_members.py" "$T/w.jsonl" --start 2026-05-01 --pattern weak,weak,weak,weak,weak,weak,weak,weak
