@@ -10,6 +10,9 @@
 #   first day and never on the other days, and with 400 events a day every
 #   rule is evaluated (the traffic-scaled minimum is 100), while a day of 50
 #   events is not evaluated, with its reason;
+# - a recorded replay (--from/--to with a file receiver) sends one
+#   member-departs notification naming the member, and a day it covered is
+#   not checked again;
 # - rules on one member by name and on each class name the member or class;
 # - a model whose best member beats the average on every baseline day: the
 #   report states it once as a finding, the old fixed bound on the gain is
@@ -114,6 +117,27 @@ if o["counts"]["not_evaluated"] < 1:
     bad.append("not_evaluated not counted")
 for b in bad: print("FAIL:", b)
 assert not bad
+PY
+
+# --- a recorded replay: notifications name the member; states are kept -----
+cp "$T/m.db" "$T/rec.db"
+run "$C" check --db "$T/rec.db" --rules "$T/default.jsonc" --from 2026-05-09 --to 2026-05-16 \
+  --webhook "file:$T/sink.jsonl"
+[ $RC -eq 10 ] || fail "recorded replay: exit $RC, expected 10: $(cat "$T/err")"
+python3 - "$T/sink.jsonl" <<'PY' || fail "member-departs notification"
+import json, sys
+notes = [json.loads(l) for l in open(sys.argv[1])]
+md = [n for n in notes if n["rule"] == "member-departs" and n["kind"] == "raised"]
+assert len(md) == 1 and md[0]["member"] == "south" and md[0]["checked_day"] == "2026-05-10", md
+assert "member south" in md[0]["sentence"]
+assert any(e["kind"] == "member_moved" and e["member"] == "south" for e in md[0]["evidence"]), md[0]["evidence"]
+assert len({n["notice_id"] for n in notes}) == len(notes)
+PY
+run "$C" check --db "$T/rec.db" --rules "$T/default.jsonc" --day 2026-05-16 --format json
+python3 - "$T/out" <<'PY' || fail "a day already replayed is not checked again"
+import json, sys
+o = json.load(open(sys.argv[1]))
+assert all(r["outcome"] == "already_checked" for r in o["results"]), o["results"][0]
 PY
 
 # --- rules on one member and on each class -----------------------------
