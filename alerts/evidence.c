@@ -8,6 +8,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "figures.h"
+
 #define TOP 3
 
 static cJSON *item(cJSON *arr, const char *kind)
@@ -113,11 +115,12 @@ static void drifted_classes(cJSON *arr, const cc_report *r, const cc_report_wind
     if (bn == 0)
         return;
     int used[CC_MAX_CLASSES] = {0};
+    const cc_figure *share = cc_figures_find("by_class.predicted_share");
     for (int t = 0; t < TOP && t < k; t++) {
         int pick = -1;
         double pick_d = -1;
         for (int c = 0; c < k; c++) {
-            double d = fabs((double)w->metrics.class_counts[c] / (double)w->metrics.events -
+            double d = fabs(cc_figures_value(share, &w->metrics, &w->cmp, c) -
                             (double)b[c] / (double)bn);
             if (!used[c] && d > pick_d) {
                 pick = c;
@@ -125,7 +128,7 @@ static void drifted_classes(cJSON *arr, const cc_report *r, const cc_report_wind
             }
         }
         used[pick] = 1;
-        double now_s = (double)w->metrics.class_counts[pick] / (double)w->metrics.events;
+        double now_s = cc_figures_value(share, &w->metrics, &w->cmp, pick);
         double then_s = (double)b[pick] / (double)bn;
         double est = w->cmp.bbse_ok ? w->cmp.bbse[pick] : NAN;
         cJSON *o = item(arr, "drifted_class");
