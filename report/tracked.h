@@ -9,7 +9,7 @@
 
 /* Tracked window figures (the first slots). */
 int cc_tracked_count(void);
-/* The figure's path of a slot (member and class slots repeat it). */
+/* The figure's path of a window slot (t < cc_tracked_count()). */
 const char *cc_tracked_path(int t);
 /* The registry's figure and index of slot t, for a window with w->m, w->k. */
 const cc_figure *cc_tracked_figure(int t, int m, int k, int *index);
