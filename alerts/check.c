@@ -1,6 +1,8 @@
-/* check.c — evaluating a rule set on a day and recording the transitions. */
+/* check.c — evaluating a rule set on a day, or a range of days in order,
+ * and recording the transitions. */
 #include "check.h"
 
+#include <math.h>
 #include <stdlib.h>
 #include <string.h>
 #include <time.h>
@@ -10,8 +12,8 @@
 
 const char *cc_check_outcome_name(cc_outcome o)
 {
-    static const char *const names[] = {"ok",       "pending",  "fired",   "firing",
-                                        "reminder", "resolved", "skipped", "already_checked"};
+    static const char *const names[] = {"quiet",   "building", "raised",        "still_raised",
+                                        "reminder", "cleared", "not_evaluated", "already_checked"};
     return names[o];
 }
 
@@ -21,127 +23,148 @@ void cc_check_result_free(cc_check_result *r)
         return;
     for (int i = 0; i < r->n_items; i++) {
         free(r->items[i].model);
-        free(r->items[i].dedupe_key);
+        free(r->items[i].notice_id);
         free(r->items[i].sentence);
     }
     free(r->items);
     free(r);
 }
 
-static cc_outcome outcome_of(cc_transition tr, cc_state_kind after)
+static cc_outcome outcome_of(cc_transition tr, cc_state_kind after, cc_eval_status status)
 {
     switch (tr) {
-    case CC_TR_FIRED: return CC_OUT_FIRED;
-    case CC_TR_RESOLVED: return CC_OUT_RESOLVED;
+    case CC_TR_RAISED: return CC_OUT_RAISED;
+    case CC_TR_CLEARED: return CC_OUT_CLEARED;
     case CC_TR_REMINDER: return CC_OUT_REMINDER;
     default:
-        return after == CC_STATE_FIRING ? CC_OUT_FIRING
-               : after == CC_STATE_PENDING ? CC_OUT_PENDING : CC_OUT_OK;
+        if (status == CC_EVAL_SKIPPED)
+            return CC_OUT_NOT_EVALUATED;
+        return after == CC_STATE_RAISED     ? CC_OUT_STILL_RAISED
+               : after == CC_STATE_BUILDING ? CC_OUT_BUILDING
+                                            : CC_OUT_QUIET;
     }
 }
 
-/* Evaluates and records one model; items are appended to res. */
+/* Builds, records and queues the notification of one transition. */
+static int notify(cc_store *s, const cc_ruleset *rs, int dry_run, cc_evaluator *ev,
+                  cc_check_item *it, const cc_rule_state *st, cc_transition tr, int64_t now,
+                  const cc_receiver *recv, int n_recv, cc_check_result *res, cc_error *err)
+{
+    const cc_report *rep = NULL;
+    int rc = cc_eval_report(ev, it->ev.window_day, &rep, err);
+    if (rc)
+        return rc;
+    cc_payload_in pin = {it->model, it->rule, tr, it->day, &it->ev, st, rep, now};
+    char key[1024], sentence[1024];
+    if (cc_payload_notice_id(key, sizeof key, it->model, it->rule->name, tr, it->day) < 0)
+        return cc_error_set(err, CC_EINPUT, "model name '%.100s...' is too long for a "
+                                            "notice id", it->model);
+    cc_payload_sentence(sentence, sizeof sentence, &pin);
+    char *body = cc_payload_build(&pin);
+    it->notice_id = strdup(key);
+    it->sentence = strdup(sentence);
+    if (!body || !it->notice_id || !it->sentence) {
+        free(body);
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    }
+    cc_notification n = {key,
+                         it->model,
+                         it->rule->name,
+                         cc_transition_name(tr),
+                         cc_rules_urgency_name(it->rule->urgency),
+                         it->day,
+                         it->ev.window_day,
+                         it->ev.value,
+                         it->ev.bound,
+                         body,
+                         now};
+    int queued = 0;
+    if (!dry_run)
+        rc = cc_state_queue(s, &n, recv, n_recv, cc_rules_backoff_s(rs),
+                            cc_rules_max_backoff_s(rs), &queued, err);
+    free(body);
+    if (queued)
+        res->queued += n_recv;
+    return rc;
+}
+
+/* Evaluates and records one model over the days; items are appended to
+ * res. The rules' states are loaded once and carried from day to day. */
 static int check_model(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o,
                        const char *model, int64_t now, const cc_receiver *recv, int n_recv,
                        cc_check_result *res, cc_error *err)
 {
     cc_evaluator *ev = NULL;
-    /* the figures come from one snapshot; the write lock is taken only for
-     * the state changes below */
-    int rc = cc_store_snapshot_begin(s, err);
+    int n_rules = cc_rules_count(rs);
+    cc_rule_state *states = calloc((size_t)(n_rules ? n_rules : 1), sizeof *states);
+    int rc = states ? cc_eval_create(&ev, s, model, res->day, err)
+                    : cc_error_set(err, CC_ENOMEM, "out of memory");
+    /* a dry run (a replay, `report --rules`, `rules validate`) only reads:
+     * one snapshot, no write lock, so it works on a read-only store */
     if (!rc)
-        rc = cc_eval_create(&ev, s, model, res->day, err);
+        rc = o->dry_run ? cc_store_snapshot_begin(s, err) : cc_store_begin(s, err);
     if (rc) {
-        cc_store_snapshot_end(s);
-        return rc;
-    }
-    int first = res->n_items;
-    for (int i = 0; !rc && i < cc_rules_count(rs); i++) {
-        const cc_rule *rule = cc_rules_get(rs, i);
-        if (!cc_rules_applies(rule, model))
-            continue;
-        cc_check_item *it = &res->items[res->n_items];
-        memset(it, 0, sizeof *it);
-        if (!(it->model = strdup(model))) {
-            rc = cc_error_set(err, CC_ENOMEM, "out of memory");
-            break;
-        }
-        res->n_items++;
-        it->rule = rule;
-        rc = cc_eval_rule(ev, rule, &it->ev, err);
-    }
-    cc_store_snapshot_end(s);
-    if (!rc)
-        rc = cc_store_begin(s, err);
-    if (rc) {
+        free(states);
         cc_eval_free(ev);
         return rc;
     }
-    for (int i = first; !rc && i < res->n_items; i++) {
-        cc_check_item *it = &res->items[i];
-        cc_rule_state st;
-        if ((rc = cc_state_load(s, model, it->rule->name, &st, err)))
-            break;
-        it->before = st.state;
-        if (st.found && res->day <= st.last_day) {
-            it->after = st.state;
-            it->outcome = CC_OUT_ALREADY;
-            it->since_day = st.since_day;
-            it->fired_day = st.fired_day;
-            it->last_day = st.last_day;
+    for (int i = 0; !rc && i < n_rules; i++) {
+        if (!o->fresh) {
+            rc = cc_state_load(s, model, cc_rules_get(rs, i)->name, &states[i], err);
             continue;
         }
-        cc_transition tr = cc_state_step(&st, it->rule, res->day, it->ev.status);
-        it->after = st.state;
-        it->since_day = st.since_day;
-        it->fired_day = st.fired_day;
-        it->last_day = st.last_day;
-        it->outcome = it->ev.status == CC_EVAL_SKIPPED && tr == CC_TR_NONE
-                          ? CC_OUT_SKIPPED
-                          : outcome_of(tr, st.state);
-        if ((rc = cc_state_save(s, model, it->rule, &st, &it->ev, now, err)))
-            break;
-        if (tr == CC_TR_NONE)
-            continue;
-        const cc_report *rep = NULL;
-        if ((rc = cc_eval_report(ev, it->ev.window_day, &rep, err)))
-            break;
-        cc_payload_in pin = {model, it->rule, tr, res->day, &it->ev, &st, rep, now};
-        char key[1024], sentence[1024];
-        if (cc_payload_dedupe_key(key, sizeof key, model, it->rule->name, tr, res->day) < 0) {
-            rc = cc_error_set(err, CC_EINPUT, "model name '%.100s...' is too long for a "
-                                              "dedupe key", model);
-            break;
+        memset(&states[i], 0, sizeof states[i]);
+        states[i].last_day = states[i].fired_day = states[i].last_notified_day = -1;
+    }
+    for (int64_t day = res->day; !rc && day <= res->last_day; day++) {
+        cc_eval_set_day(ev, day);
+        for (int i = 0; !rc && i < n_rules; i++) {
+            const cc_rule *rule = cc_rules_get(rs, i);
+            if (!cc_rules_applies(rule, model))
+                continue;
+            cc_check_item *it = &res->items[res->n_items];
+            memset(it, 0, sizeof *it);
+            if (!(it->model = strdup(model))) {
+                rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+                break;
+            }
+            res->n_items++;
+            it->rule = rule;
+            it->day = day;
+            cc_rule_state *st = &states[i];
+            it->before = st->state;
+            if (st->found && day <= st->last_day) {
+                it->after = st->state;
+                it->outcome = CC_OUT_ALREADY;
+                it->since_day = st->since_day;
+                it->fired_day = st->fired_day;
+                it->last_day = st->last_day;
+                it->ev.value = it->ev.bound = it->ev.mean = it->ev.sd = it->ev.z = NAN;
+                it->ev.subject_index = -1;
+                continue;
+            }
+            if ((rc = cc_eval_rule(ev, rule, &it->ev, err)))
+                break;
+            cc_transition tr = cc_state_step(st, rule, day, it->ev.status);
+            st->found = 1;
+            it->after = st->state;
+            it->since_day = st->since_day;
+            it->fired_day = st->fired_day;
+            it->last_day = st->last_day;
+            it->outcome = outcome_of(tr, st->state, it->ev.status);
+            if (!o->dry_run && (rc = cc_state_save(s, model, rule, st, &it->ev, now, err)))
+                break;
+            if (tr != CC_TR_NONE)
+                rc = notify(s, rs, o->dry_run, ev, it, st, tr, now, recv, n_recv, res, err);
         }
-        cc_payload_sentence(sentence, sizeof sentence, &pin);
-        char *body = cc_payload_build(&pin);
-        it->dedupe_key = strdup(key);
-        it->sentence = strdup(sentence);
-        if (!body || !it->dedupe_key || !it->sentence) {
-            free(body);
-            rc = cc_error_set(err, CC_ENOMEM, "out of memory");
-            break;
-        }
-        cc_notification n = {key,
-                             model,
-                             it->rule->name,
-                             cc_transition_name(tr),
-                             cc_rules_severity_name(it->rule->severity),
-                             res->day,
-                             it->ev.window_day,
-                             it->ev.value,
-                             it->ev.bound,
-                             body,
-                             now};
-        int queued = 0;
-        rc = cc_state_queue(s, &n, recv, n_recv, cc_rules_backoff_s(rs),
-                            cc_rules_max_backoff_s(rs), &queued, err);
-        free(body);
-        if (queued)
-            res->queued += n_recv;
     }
     cc_eval_free(ev);
-    if (rc || o->dry_run) {
+    free(states);
+    if (o->dry_run) {
+        cc_store_snapshot_end(s);
+        return rc;
+    }
+    if (rc) {
         cc_store_rollback(s);
         return rc;
     }
@@ -160,7 +183,13 @@ int cc_check_run(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o,
     if (!res)
         return cc_error_set(err, CC_ENOMEM, "out of memory");
     res->day = o->has_day ? o->day : cc_day_of_unix(now) - 1;
-    if ((rc = cc_state_prepare(s, err)))
+    res->last_day = o->has_to ? o->to : res->day;
+    if (res->last_day < res->day || res->last_day - res->day > 3660) {
+        rc = cc_error_set(err, CC_EINPUT, "the range of days to check must run forward and "
+                                          "span at most ten years");
+        goto done;
+    }
+    if (!(o->dry_run && o->fresh) && (rc = cc_state_prepare(s, err)))
         goto done;
     if (o->model) {
         cc_model *m = NULL;
@@ -177,8 +206,9 @@ int cc_check_run(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o,
         goto done;
     }
     int n_recv = cc_rules_receiver_count(rs) + o->n_extra;
+    int64_t n_days = res->last_day - res->day + 1;
     recv = calloc((size_t)(n_recv ? n_recv : 1), sizeof *recv);
-    res->items = calloc((size_t)(n_models * cc_rules_count(rs) + 1), sizeof *res->items);
+    res->items = calloc((size_t)(n_models * cc_rules_count(rs) * n_days + 1), sizeof *res->items);
     if (!recv || !res->items) {
         rc = cc_error_set(err, CC_ENOMEM, "out of memory");
         goto done;
@@ -192,13 +222,15 @@ int cc_check_run(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o,
         rc = check_model(s, rs, o, models[m], now, recv, n_recv, res, err);
     for (int i = 0; !rc && i < res->n_items; i++) {
         const cc_check_item *it = &res->items[i];
-        res->fired += it->outcome == CC_OUT_FIRED;
-        res->resolved += it->outcome == CC_OUT_RESOLVED;
+        res->raised += it->outcome == CC_OUT_RAISED;
+        res->cleared += it->outcome == CC_OUT_CLEARED;
         res->reminders += it->outcome == CC_OUT_REMINDER;
-        res->pending += it->outcome == CC_OUT_PENDING;
-        res->skipped += it->outcome == CC_OUT_SKIPPED;
+        res->not_evaluated += it->outcome == CC_OUT_NOT_EVALUATED && it->day == res->last_day;
         res->already += it->outcome == CC_OUT_ALREADY;
-        res->firing += it->after == CC_STATE_FIRING;
+        if (it->day == res->last_day) {
+            res->raised_now += it->after == CC_STATE_RAISED;
+            res->building += it->after == CC_STATE_BUILDING;
+        }
     }
     if (o->dry_run)
         res->queued = 0;

@@ -1,9 +1,11 @@
 /* check.h — one `concord check`: for every model (or one), evaluate every
- * rule on the checked day, advance each rule's state, and queue a
- * notification for each transition (fired, resolved, reminder) to every
- * receiver, a model's state changes and notifications in one transaction.
- * A day at or before a rule's last checked day is not evaluated again, so
- * re-running a check is harmless. */
+ * rule on the checked day, or on each day of a range in order (replay),
+ * advance each rule's state from day to day, and queue a notification for
+ * each transition (raised, cleared, reminder) to every receiver, a model's
+ * state changes and notifications in one transaction. A day at or before a
+ * rule's last checked day is not evaluated again, so re-running a check is
+ * harmless. A dry run carries the state from day to day in memory and
+ * records nothing. */
 #ifndef CC_ALERTS_CHECK_H
 #define CC_ALERTS_CHECK_H
 
@@ -15,17 +17,18 @@
 #include "store.h"
 
 typedef enum cc_outcome {
-    CC_OUT_OK,          /* clear, nothing firing */
-    CC_OUT_PENDING,     /* breaching, not yet for enough windows */
-    CC_OUT_FIRED,       /* fired on this day */
-    CC_OUT_FIRING,      /* still firing, no new notification */
-    CC_OUT_REMINDER,    /* still firing, reminder sent */
-    CC_OUT_RESOLVED,    /* resolved on this day */
-    CC_OUT_SKIPPED,     /* too little data or undefined; state unchanged */
+    CC_OUT_QUIET,       /* within its bound, not raised */
+    CC_OUT_BUILDING,    /* breaching, not yet for enough days */
+    CC_OUT_RAISED,      /* raised on this day */
+    CC_OUT_STILL_RAISED, /* still raised, no new notification */
+    CC_OUT_REMINDER,    /* still raised, reminder sent */
+    CC_OUT_CLEARED,     /* cleared on this day */
+    CC_OUT_NOT_EVALUATED, /* too little data or undefined (reason in ev.reason) */
     CC_OUT_ALREADY,     /* this day was already checked; state unchanged */
 } cc_outcome;
 
 typedef struct cc_check_item {
+    int64_t day;                /* the checked day */
     char *model;
     const cc_rule *rule;
     cc_eval_result ev;
@@ -33,7 +36,7 @@ typedef struct cc_check_item {
     cc_outcome outcome;
     int64_t since_day, fired_day;
     int64_t last_day;           /* the rule's last checked day (for CC_OUT_ALREADY) */
-    char *dedupe_key;           /* for transitions */
+    char *notice_id;           /* for transitions */
     char *sentence;             /* for transitions */
 } cc_check_item;
 
@@ -41,17 +44,22 @@ typedef struct cc_check_opts {
     const char *model;          /* NULL: every model */
     int has_day;
     int64_t day;                /* default: the latest complete UTC day */
+    int has_to;
+    int64_t to;                 /* replay: every day from day to this one, in order */
     int dry_run;                /* evaluate and report, change nothing */
+    int fresh;                  /* start every rule from a new state, ignoring the stored
+                                   ones (with dry_run: rules validate, report --rules) */
     int64_t now;                /* Unix time; 0 = the clock */
     const cc_receiver *extra;   /* receivers added for this run */
     int n_extra;
 } cc_check_opts;
 
 typedef struct cc_check_result {
-    int64_t day;
-    cc_check_item *items;
+    int64_t day, last_day;      /* the first and last checked day */
+    cc_check_item *items;       /* by model, then day, then rule */
     int n_items;
-    int fired, resolved, reminders, firing, pending, skipped, already;
+    int raised, cleared, reminders, not_evaluated, already;   /* over all days */
+    int raised_now, building;   /* states after the last day */
     int queued;                 /* outbox rows added */
     int receivers;
 } cc_check_result;

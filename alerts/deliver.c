@@ -79,7 +79,7 @@ static int claim(cc_store *s, const cc_deliver_opts *o, int64_t now, int64_t aft
     if (rc)
         return rc;
     if (sqlite3_prepare_v2(db,
-                           "SELECT o.outbox_id, o.receiver, o.secret_env, n.body, n.dedupe_key, "
+                           "SELECT o.outbox_id, o.receiver, o.secret_env, n.body, n.notice_id, "
                            "n.kind, o.connect_timeout_ms, o.timeout_ms, o.max_attempts, "
                            "o.backoff_s, o.max_backoff_s, o.attempts FROM outbox o JOIN "
                            "notifications n USING (notification_id) WHERE o.status = 'pending' "
@@ -208,10 +208,8 @@ int cc_deliver_run(cc_store *s, const cc_deliver_opts *o, cc_deliver_stats *stat
                      "environment variable %s (the signing secret) is not set", r.secret_env);
             ok = 0;
         } else {
-            cc_webhook_request req = {r.receiver, r.body,  strlen(r.body),
-                                      secret,     secret ? strlen(secret) : 0,
-                                      now,        r.key,   r.kind,
-                                      r.connect_ms, r.timeout_ms};
+            cc_webhook_request req = {r.receiver, r.body,      strlen(r.body), secret,
+                                      now,        r.key,       r.connect_ms,   r.timeout_ms};
             ok = send(o->send_ctx, &req, &res) == 0;
         }
         cc_testpoint("deliver-sent");

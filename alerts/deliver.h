@@ -4,7 +4,7 @@
  * after an exponential backoff with jitter, and the row becomes a dead
  * letter after its receiver's max_attempts. A crash between send and mark
  * repeats the send later: delivery is at least once, never lost; receivers
- * deduplicate by dedupe_key. After a receiver fails, its other rows wait
+ * deduplicate by notice_id. After a receiver fails, its other rows wait
  * for the next run, so a dead receiver costs one timeout per run. */
 #ifndef CC_ALERTS_DELIVER_H
 #define CC_ALERTS_DELIVER_H
@@ -16,7 +16,7 @@
 #include "webhook.h"
 
 typedef struct cc_deliver_event {
-    const char *receiver, *dedupe_key;
+    const char *receiver, *notice_id;
     int ok, dead;
     int attempts;
     long status;

@@ -1,9 +1,7 @@
-/* evaluate.c — a rule's metric value for a window (tracked figures from the
- * report structures, other paths from the report's JSON, a few derived from
- * the store), the effective bound and the breach decision. */
+/* evaluate.c — a rule's value for a window (figures through the registry,
+ * label age from the store), the effective bound and the breach decision. */
 #include "evaluate.h"
 
-#include <cjson/cJSON.h>
 #include <math.h>
 #include <stdarg.h>
 #include <sqlite3.h>
@@ -11,6 +9,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "figures.h"
 #include "paths.h"
 #include "report.h"
 #include "tracked.h"
@@ -20,7 +19,6 @@
 typedef struct cached {
     int64_t day;
     cc_report *report;          /* NULL when the day has no events */
-    cJSON *window_json;         /* parsed on first use */
 } cached;
 
 struct cc_evaluator {
@@ -30,7 +28,23 @@ struct cc_evaluator {
     int64_t day;
     cached cache[CACHE_MAX];
     int n_cache;
+    cc_report *base;            /* a report without windows, for the baseline's figures */
 };
+
+void cc_eval_set_day(cc_evaluator *ev, int64_t day) { ev->day = day; }
+
+/* The baseline's statistics when the window day has no events. */
+static int baseline_report(cc_evaluator *ev, const cc_report **out, cc_error *err)
+{
+    if (!ev->base) {
+        cc_report_opts ro = {ev->model, 1, 1, 1, 0, CC_BY_DAY};   /* an empty range */
+        int rc = cc_report_build(&ev->base, ev->store, &ro, err);
+        if (rc)
+            return rc;
+    }
+    *out = ev->base;
+    return 0;
+}
 
 int cc_eval_create(cc_evaluator **out, cc_store *store, const char *model, int64_t day,
                    cc_error *err)
@@ -60,8 +74,8 @@ void cc_eval_free(cc_evaluator *ev)
         return;
     for (int i = 0; i < ev->n_cache; i++) {
         cc_report_free(ev->cache[i].report);
-        cJSON_Delete(ev->cache[i].window_json);
     }
+    cc_report_free(ev->base);
     free(ev->model);
     free(ev);
 }
@@ -75,7 +89,6 @@ static int get_cached(cc_evaluator *ev, int64_t day, cached **out, cc_error *err
         }
     if (ev->n_cache == CACHE_MAX) {
         cc_report_free(ev->cache[0].report);
-        cJSON_Delete(ev->cache[0].window_json);
         memmove(ev->cache, ev->cache + 1, sizeof *ev->cache * (CACHE_MAX - 1));
         ev->n_cache--;
     }
@@ -86,7 +99,6 @@ static int get_cached(cc_evaluator *ev, int64_t day, cached **out, cc_error *err
         return rc;
     cached *c = &ev->cache[ev->n_cache++];
     c->day = day;
-    c->window_json = NULL;
     c->report = r;
     if (r->n_windows == 0) {
         cc_report_free(r);
@@ -102,27 +114,6 @@ int cc_eval_report(cc_evaluator *ev, int64_t day, const cc_report **out, cc_erro
     int rc = get_cached(ev, day, &c, err);
     *out = rc ? NULL : c->report;
     return rc;
-}
-
-/* A number at a dotted path of the window's JSON; NAN for null or absent. */
-static double json_value(cached *c, const char *path)
-{
-    if (!c->window_json && !(c->window_json = cc_report_window_json(c->report, 0)))
-        return NAN;
-    const cJSON *node = c->window_json;
-    char key[128];
-    const char *p = path;
-    while (node && *p) {
-        const char *dot = strchr(p, '.');
-        size_t len = dot ? (size_t)(dot - p) : strlen(p);
-        if (len >= sizeof key)
-            return NAN;
-        memcpy(key, p, len);
-        key[len] = '\0';
-        node = cJSON_IsObject(node) ? cJSON_GetObjectItemCaseSensitive(node, key) : NULL;
-        p += len + (dot ? 1 : 0);
-    }
-    return node && cJSON_IsNumber(node) ? node->valuedouble : NAN;
 }
 
 /* Days from the newest day up to `day` with labelled events; NAN if none. */
@@ -158,11 +149,107 @@ static void skip(cc_eval_result *out, const char *fmt, ...)
     va_end(ap);
 }
 
+/* The traffic-scaled minimum: a share of the baseline's mean daily count,
+ * at least the floor; a fixed default without a baseline. */
+static int64_t auto_min(const cc_report *r, const char *path)
+{
+    const cc_figure *f = cc_figures_find(path);
+    int slot = r && r->stats ? cc_tracked_slot(f, 0, r->model->m, r->model->k) : -1;
+    if (slot < 0 || !(r->stats[slot].n > 0) || !isfinite(r->stats[slot].mean))
+        return CC_RULE_AUTO_NO_BASELINE;
+    int64_t n = (int64_t)llround(CC_RULE_AUTO_SHARE * r->stats[slot].mean);
+    return n > CC_RULE_AUTO_FLOOR ? n : CC_RULE_AUTO_FLOOR;
+}
+
+/* The bound of one value: fixed, or the baseline's mean moved by
+ * max(k sd, min_shift, min_relative_shift |mean|). 0, or -1 with a reason. */
+static int set_bound(const cc_rule *rule, cc_eval_result *out)
+{
+    if (rule->cond == CC_COND_ABOVE || rule->cond == CC_COND_BELOW) {
+        out->bound = rule->threshold;
+        return 0;
+    }
+    if (!out->has_baseline) {
+        skip(out, "no baseline for a sigma condition ('concord baseline')");
+        return -1;
+    }
+    if (out->baseline_days < CC_BASELINE_MIN_DAYS || !isfinite(out->sd) ||
+        !isfinite(out->mean)) {
+        skip(out, "baseline spread undefined (%d baseline days with a value, need %d)",
+             out->baseline_days, (int)CC_BASELINE_MIN_DAYS);
+        return -1;
+    }
+    double width = rule->threshold * out->sd;
+    if (rule->min_shift > width)
+        width = rule->min_shift;
+    if (rule->min_relative_shift * fabs(out->mean) > width)
+        width = rule->min_relative_shift * fabs(out->mean);
+    if (!(width > 0)) {
+        skip(out, "baseline spread is 0 and the rule sets no min_shift");
+        return -1;
+    }
+    out->bound = rule->cond == CC_COND_SIGMAS_ABOVE ? out->mean + width : out->mean - width;
+    return 0;
+}
+
+/* One value of the rule's figure (index: member or class, 0 otherwise). */
+static void eval_one(const cc_rule *rule, const cc_path_info *pi, const cc_report *r,
+                     int index, cc_eval_result *out)
+{
+    const cc_report_window *w = &r->windows[0];
+    out->value = cc_figures_value(pi->fig, &w->metrics, &w->cmp, index);
+    out->has_baseline = 0;
+    out->mean = out->sd = out->z = out->bound = NAN;
+    int slot = r->has_baseline && r->stats
+                   ? cc_tracked_slot(pi->fig, index, r->model->m, r->model->k)
+                   : -1;
+    if (slot >= 0) {
+        const cc_baseline_stat *bs = &r->stats[slot];
+        out->has_baseline = bs->n > 0;
+        out->mean = bs->mean;
+        out->sd = bs->sd;
+        out->baseline_days = bs->n;
+        out->z = cc_zscore(out->value, bs);
+    }
+    if (isnan(out->value)) {
+        if (pi->needs_labels && out->labeled == 0)
+            skip(out, "no labelled events");
+        else if (strncmp(rule->metric, "drift.", 6) == 0 ||
+                 strncmp(rule->metric, "label_shift.", 12) == 0)
+            skip(out, "undefined (no baseline, or fewer than %d events on a side)",
+                 (int)CC_DRIFT_MIN_EVENTS);
+        else
+            skip(out, "undefined for this window");
+        return;
+    }
+    if (set_bound(rule, out))
+        return;
+    int above = rule->cond == CC_COND_ABOVE || rule->cond == CC_COND_SIGMAS_ABOVE;
+    out->status = (above ? out->value > out->bound : out->value < out->bound) ? CC_EVAL_BREACH
+                                                                              : CC_EVAL_CLEAR;
+}
+
+/* How far past its bound (positive) or short of it (negative) a result is. */
+static double excess(const cc_rule *rule, const cc_eval_result *e)
+{
+    int above = rule->cond == CC_COND_ABOVE || rule->cond == CC_COND_SIGMAS_ABOVE;
+    return above ? e->value - e->bound : e->bound - e->value;
+}
+
+static int find_name(char *const *names, int n, const char *name)
+{
+    for (int i = 0; i < n; i++)
+        if (strcmp(names[i], name) == 0)
+            return i;
+    return -1;
+}
+
 int cc_eval_rule(cc_evaluator *ev, const cc_rule *rule, cc_eval_result *out, cc_error *err)
 {
     memset(out, 0, sizeof *out);
     out->value = out->bound = out->mean = out->sd = out->z = NAN;
     out->window_day = ev->day - rule->lag_days;
+    out->subject_index = -1;
     cc_path_info pi;
     if (cc_paths_lookup(rule->metric, &pi))
         return cc_error_set(err, CC_EINPUT, "rule '%s': key 'metric': unknown path '%s'",
@@ -176,80 +263,86 @@ int cc_eval_rule(cc_evaluator *ev, const cc_rule *rule, cc_eval_result *out, cc_
     out->events = w ? w->metrics.events : 0;
     out->labeled = w ? w->metrics.labeled : 0;
 
-    if (pi.kind == CC_PATH_DERIVED) {
-        if (strcmp(rule->metric, "events") == 0)
-            out->value = (double)out->events;
-        else if (strcmp(rule->metric, "labeled") == 0)
-            out->value = (double)out->labeled;
-        else if ((rc = label_age(ev, out->window_day, &out->value, err)))
-            return rc;
-    } else if (w) {
-        out->value = pi.kind == CC_PATH_TRACKED
-                         ? cc_tracked_value(pi.tracked, &w->metrics, &w->cmp)
-                         : json_value(c, rule->metric);
-    }
-    if (r && r->has_baseline && r->stats && pi.kind == CC_PATH_TRACKED) {
-        const cc_baseline_stat *bs = &r->stats[pi.tracked];
-        out->has_baseline = bs->n > 0;
-        out->mean = bs->mean;
-        out->sd = bs->sd;
-        out->baseline_days = bs->n;
-        out->z = cc_zscore(out->value, bs);
-    }
+    /* the minimum counts, scaled to traffic unless the rule sets them */
+    const cc_report *base = r;
+    if (!base && (rc = baseline_report(ev, &base, err)))
+        return rc;
+    out->min_events = rule->min_events != CC_RULE_MIN_AUTO ? rule->min_events
+                      : pi.kind == CC_PATH_DERIVED || !strcmp(rule->metric, "events") ||
+                              !strcmp(rule->metric, "labeled") || pi.needs_labels
+                          ? 0
+                          : auto_min(base, "events");
+    out->min_labels = rule->min_labels != CC_RULE_MIN_AUTO ? rule->min_labels
+                      : pi.needs_labels ? auto_min(base, "labeled")
+                                        : 0;
 
-    if (out->events < rule->min_events) {
+    if (pi.kind == CC_PATH_DERIVED) {
+        if ((rc = label_age(ev, out->window_day, &out->value, err)))
+            return rc;
+    } else if (!w && (!strcmp(rule->metric, "events") || !strcmp(rule->metric, "labeled"))) {
+        out->value = 0;
+    }
+    if (out->events < out->min_events) {
         skip(out, "too few events (%lld < %lld)", (long long)out->events,
-             (long long)rule->min_events);
+             (long long)out->min_events);
         return 0;
     }
-    if (out->labeled < rule->min_labels) {
+    if (out->labeled < out->min_labels) {
         skip(out, "too few labels (%lld < %lld)", (long long)out->labeled,
-             (long long)rule->min_labels);
+             (long long)out->min_labels);
         return 0;
     }
-    if (!w && pi.kind != CC_PATH_DERIVED) {
-        skip(out, "no events on this day");
-        return 0;
-    }
-    if (isnan(out->value)) {
-        if (pi.needs_labels && out->labeled == 0)
-            skip(out, "no labelled events");
-        else if (strcmp(rule->metric, "labels.age_days") == 0)
+    if (pi.kind == CC_PATH_DERIVED || !w) {
+        if (!w && pi.kind != CC_PATH_DERIVED && isnan(out->value)) {
+            skip(out, "no events on this day");
+            return 0;
+        }
+        if (isnan(out->value)) {
             skip(out, "no labelled day yet");
-        else if (strncmp(rule->metric, "drift.", 6) == 0 ||
-                 strncmp(rule->metric, "label_shift.", 12) == 0)
-            skip(out, "undefined (no baseline, or fewer than 30 events on a side)");
-        else
-            skip(out, "undefined for this window");
+            return 0;
+        }
+        if (!set_bound(rule, out)) {
+            int above = rule->cond == CC_COND_ABOVE || rule->cond == CC_COND_SIGMAS_ABOVE;
+            out->status = (above ? out->value > out->bound : out->value < out->bound)
+                              ? CC_EVAL_BREACH
+                              : CC_EVAL_CLEAR;
+        }
         return 0;
     }
-    switch (rule->cond) {
-    case CC_COND_ABOVE:
-    case CC_COND_BELOW:
-        out->bound = rule->threshold;
-        break;
-    case CC_COND_SIGMAS_ABOVE:
-    case CC_COND_SIGMAS_BELOW: {
-        if (!out->has_baseline) {
-            skip(out, "no baseline for a sigma condition ('concord baseline')");
+    if (pi.scope == CC_SCOPE_WINDOW) {
+        eval_one(rule, &pi, r, 0, out);
+        return 0;
+    }
+    char *const *names = pi.scope == CC_SCOPE_MEMBER ? r->model->members : r->model->classes;
+    int n = pi.scope == CC_SCOPE_MEMBER ? r->model->m : r->model->k;
+    int lo = 0, hi = n;
+    if (!rule->each) {
+        lo = find_name(names, n, rule->subject);
+        if (lo < 0) {
+            skip(out, "the model has no %s '%s'", cc_figures_scope_name(pi.scope),
+                 rule->subject);
             return 0;
         }
-        if (out->baseline_days < CC_BASELINE_MIN_DAYS || !(out->sd > 0)) {
-            skip(out, "baseline spread undefined (%lld days with a value, need %lld, and "
-                      "sd > 0)", (long long)out->baseline_days, (long long)CC_BASELINE_MIN_DAYS);
-            return 0;
+        hi = lo + 1;
+    }
+    /* the breaching one furthest past its bound, else the evaluated one
+     * closest to it, else the first reason */
+    cc_eval_result best, one;
+    int have = 0;
+    for (int i = lo; i < hi; i++) {
+        one = *out;
+        eval_one(rule, &pi, r, i, &one);
+        one.subject_index = i;
+        snprintf(one.subject, sizeof one.subject, "%s", names[i]);
+        int better = !have || (one.status != CC_EVAL_SKIPPED && best.status == CC_EVAL_SKIPPED) ||
+                     (one.status != CC_EVAL_SKIPPED && best.status != CC_EVAL_SKIPPED &&
+                      excess(rule, &one) > excess(rule, &best));
+        if (better) {
+            best = one;
+            have = 1;
         }
-        double width = rule->threshold * out->sd;
-        if (rule->min_shift > width)
-            width = rule->min_shift;
-        if (rule->min_relative_shift * fabs(out->mean) > width)
-            width = rule->min_relative_shift * fabs(out->mean);
-        out->bound = rule->cond == CC_COND_SIGMAS_ABOVE ? out->mean + width : out->mean - width;
-        break;
     }
-    }
-    int above = rule->cond == CC_COND_ABOVE || rule->cond == CC_COND_SIGMAS_ABOVE;
-    out->status = (above ? out->value > out->bound : out->value < out->bound) ? CC_EVAL_BREACH
-                                                                              : CC_EVAL_CLEAR;
+    if (have)
+        *out = best;
     return 0;
 }

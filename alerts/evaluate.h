@@ -1,7 +1,9 @@
 /* evaluate.h — one rule against one model's day: the window's value for the
- * rule's metric path, its baseline mean and spread, the effective bound and
- * whether the window breaches it, or why it was skipped. Reads the report
- * structures (report/report.h); builds each needed one-day report once. */
+ * rule's figure (through the registry, report/figures.h), its baseline mean
+ * and spread, the effective bound and whether the window breaches it, or
+ * why it could not be evaluated. A rule on each member or class evaluates
+ * every one and reports the one furthest past its bound (or closest to
+ * it), by name. Builds each needed one-day report once. */
 #ifndef CC_ALERTS_EVALUATE_H
 #define CC_ALERTS_EVALUATE_H
 
@@ -15,7 +17,8 @@
 typedef enum cc_eval_status {
     CC_EVAL_CLEAR,      /* the window is within the bound */
     CC_EVAL_BREACH,     /* the window is beyond the bound */
-    CC_EVAL_SKIPPED,    /* too little data, undefined value, or no baseline spread */
+    CC_EVAL_SKIPPED,    /* not evaluated: too little data, undefined value, or no
+                           baseline spread (reason says which) */
 } cc_eval_status;
 
 typedef struct cc_eval_result {
@@ -28,6 +31,9 @@ typedef struct cc_eval_result {
     double mean, sd, z;
     int baseline_days;
     int64_t events, labeled;
+    int64_t min_events, min_labels;  /* in effect (scaled to traffic unless set) */
+    int subject_index;          /* member or class; -1 for window figures */
+    char subject[80];           /* its name; "" for window figures */
 } cc_eval_result;
 
 typedef struct cc_evaluator cc_evaluator;
@@ -35,6 +41,8 @@ typedef struct cc_evaluator cc_evaluator;
 /* An evaluator for one model and one checked day. */
 int cc_eval_create(cc_evaluator **out, cc_store *store, const char *model, int64_t day,
                    cc_error *err);
+/* Moves ev to another checked day, keeping the reports it built (replay). */
+void cc_eval_set_day(cc_evaluator *ev, int64_t day);
 void cc_eval_free(cc_evaluator *ev);
 
 int cc_eval_rule(cc_evaluator *ev, const cc_rule *rule, cc_eval_result *out, cc_error *err);

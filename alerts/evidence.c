@@ -1,11 +1,14 @@
 /* evidence.c — picking the few figures that explain an alert, from the
- * window's metrics and the baseline summary. */
+ * window's metrics and the baseline summary (it ranks and words figures;
+ * computing them is metrics/window.c's and report/figures.c's job). */
 #include "evidence.h"
 
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+
+#include "figures.h"
 
 #define TOP 3
 
@@ -38,19 +41,6 @@ static void contested(cJSON *arr, const cc_report *r, const cc_report_window *w)
                  100 * share);
         cJSON_AddStringToObject(o, "text", text);
     }
-}
-
-/* Mean disagreement of member i with the others. */
-static double member_disagreement(const cc_pair_matrix *pm, int m, int i)
-{
-    double s = 0;
-    int n = 0;
-    for (int j = 0; pm->pairs && j < m; j++)
-        if (j != i && isfinite(pm->pairs[i * m + j])) {
-            s += pm->pairs[i * m + j];
-            n++;
-        }
-    return n ? s / n : NAN;
 }
 
 static void members_diversity(cJSON *arr, const cc_report *r, const cc_report_window *w,
@@ -91,8 +81,8 @@ static void members_diversity(cJSON *arr, const cc_report *r, const cc_report_wi
     int best = -1;
     double best_delta = 0, now_v = NAN, then_v = NAN;
     for (int i = 0; i < m; i++) {
-        double a = member_disagreement(&w->metrics.disagreement, m, i);
-        double b = member_disagreement(&base->disagreement, m, i);
+        double a = w->metrics.member_disagreement[i];
+        double b = base->member_disagreement[i];
         if (isfinite(a) && isfinite(b) && (best < 0 || fabs(a - b) > fabs(best_delta))) {
             best = i;
             best_delta = a - b;
@@ -125,11 +115,12 @@ static void drifted_classes(cJSON *arr, const cc_report *r, const cc_report_wind
     if (bn == 0)
         return;
     int used[CC_MAX_CLASSES] = {0};
+    const cc_figure *share = cc_figures_find("by_class.predicted_share");
     for (int t = 0; t < TOP && t < k; t++) {
         int pick = -1;
         double pick_d = -1;
         for (int c = 0; c < k; c++) {
-            double d = fabs((double)w->metrics.class_counts[c] / (double)w->metrics.events -
+            double d = fabs(cc_figures_value(share, &w->metrics, &w->cmp, c) -
                             (double)b[c] / (double)bn);
             if (!used[c] && d > pick_d) {
                 pick = c;
@@ -137,7 +128,7 @@ static void drifted_classes(cJSON *arr, const cc_report *r, const cc_report_wind
             }
         }
         used[pick] = 1;
-        double now_s = (double)w->metrics.class_counts[pick] / (double)w->metrics.events;
+        double now_s = cc_figures_value(share, &w->metrics, &w->cmp, pick);
         double then_s = (double)b[pick] / (double)bn;
         double est = w->cmp.bbse_ok ? w->cmp.bbse[pick] : NAN;
         cJSON *o = item(arr, "drifted_class");
@@ -230,7 +221,15 @@ cJSON *cc_evidence_build(const cc_report *r, const cc_rule *rule)
     cc_window_metrics base;
     int has_base = r->baseline && cc_window_metrics_compute(&base, r->baseline) == 0;
     const char *p = rule->metric;
-    if (starts(p, "diversity.") || starts(p, "uncertainty.")) {
+    if (starts(p, "by_member.")) {
+        members_diversity(arr, r, w, has_base ? &base : NULL);
+        contested(arr, r, w);
+    } else if (starts(p, "by_class.")) {
+        if (starts(p, "by_class.predicted_share"))
+            drifted_classes(arr, r, w);
+        else
+            members_accuracy(arr, r, w, has_base ? &base : NULL);
+    } else if (starts(p, "diversity.") || starts(p, "uncertainty.")) {
         contested(arr, r, w);
         members_diversity(arr, r, w, has_base ? &base : NULL);
     } else if (starts(p, "drift.") || starts(p, "label_shift.")) {

@@ -326,7 +326,8 @@ static void sleep_ms(int ms)
 
 static int run_check(follower *f, int64_t day, int64_t now, cc_error *err)
 {
-    cc_check_opts co = {f->o->check_model, 1, day, 0, now, f->o->extra, f->o->n_extra};
+    cc_check_opts co = {.model = f->o->check_model, .has_day = 1, .day = day, .now = now,
+                        .extra = f->o->extra, .n_extra = f->o->n_extra};
     cc_check_result *res = NULL;
     int rc = cc_check_run(f->store, f->o->rules, &co, &res, err);
     if (rc)

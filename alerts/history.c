@@ -81,7 +81,7 @@ int cc_history_states(cc_store *s, const char *model, const char *state, cc_stat
         return 0;
     sqlite3_stmt *st = NULL;
     if (sqlite3_prepare_v2(cc_store_db(s),
-                           "SELECT model, rule, state, metric, severity, since_day, last_day, "
+                           "SELECT model, rule, state, metric, urgency, since_day, last_day, "
                            "fired_day, breach_run, clear_run, last_value, last_bound "
                            "FROM rule_state WHERE (?1 IS NULL OR model = ?1) AND "
                            "(?2 IS NULL OR state = ?2) ORDER BY model, rule",
@@ -115,7 +115,7 @@ int cc_history_notifications(cc_store *s, const char *model, const char *deliver
     sqlite3_stmt *st = NULL;
     if (sqlite3_prepare_v2(
             cc_store_db(s),
-            "SELECT n.notification_id, n.dedupe_key, n.model, n.rule, n.kind, n.severity, "
+            "SELECT n.notification_id, n.notice_id, n.model, n.rule, n.kind, n.urgency, "
             "n.body, n.day, n.window_day, n.created_at, n.value, n.bound, o.receiver, o.status, "
             "o.attempts, o.next_at, o.sent_at, o.last_status, o.last_error "
             "FROM (SELECT * FROM notifications WHERE (?1 IS NULL OR model = ?1) AND "

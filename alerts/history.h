@@ -10,7 +10,7 @@
 #include "store.h"
 
 typedef struct cc_state_row {
-    const char *model, *rule, *state, *metric, *severity;
+    const char *model, *rule, *state, *metric, *urgency;
     int64_t since_day, last_day, fired_day;   /* fired_day -1: never */
     int breach_run, clear_run;
     double last_value, last_bound;            /* NAN when undefined */
@@ -18,7 +18,7 @@ typedef struct cc_state_row {
 
 typedef struct cc_history_row {
     int64_t id;
-    const char *dedupe_key, *model, *rule, *kind, *severity, *body;
+    const char *notice_id, *model, *rule, *kind, *urgency, *body;
     int64_t day, window_day, created_at;
     double value, bound;
     const char *receiver;       /* NULL: no receiver was configured */

@@ -1,21 +1,25 @@
-/* paths.h — the metric paths a rule may name: the report's tracked figures
- * (they have a baseline mean and spread, so both fixed bounds and sigma
- * conditions work), other numbers of the report's window JSON (fixed bounds
- * only), and a few figures derived for alerts (fixed bounds only). */
+/* paths.h — the metric paths a rule may name: every figure of the registry
+ * (report/figures.h; tracked ones have a baseline mean and spread, so both
+ * fixed bounds and sigma conditions work; member and class figures need a
+ * member or class scope), and one figure derived for alerts from the store
+ * (labels.age_days, fixed bounds only). */
 #ifndef CC_ALERTS_PATHS_H
 #define CC_ALERTS_PATHS_H
 
+#include "figures.h"
+
 typedef enum cc_path_kind {
-    CC_PATH_TRACKED,   /* report/tracked.h figure: value and baseline stats */
-    CC_PATH_REPORT,    /* a number in the window's JSON, read by path */
-    CC_PATH_DERIVED,   /* computed for alerts: events, labeled, labels.age_days */
+    CC_PATH_TRACKED,   /* a tracked figure: value and baseline stats */
+    CC_PATH_REPORT,    /* a figure without baseline stats */
+    CC_PATH_DERIVED,   /* computed for alerts: labels.age_days */
 } cc_path_kind;
 
 typedef struct cc_path_info {
     cc_path_kind kind;
-    int tracked;        /* index into report/tracked.h for CC_PATH_TRACKED, else -1 */
-    int needs_labels;   /* undefined without labelled events */
-    const char *what;   /* a few words for sentences ("mutual information") */
+    const cc_figure *fig;   /* NULL for derived paths */
+    cc_figure_scope scope;
+    int needs_labels;       /* undefined without labelled events */
+    const char *what;       /* a few words for sentences ("mutual information") */
 } cc_path_info;
 
 /* 0 and *out when path is allowed, -1 otherwise. */

@@ -12,7 +12,7 @@
 #include "evidence.h"
 #include "paths.h"
 
-int cc_payload_dedupe_key(char *out, size_t cap, const char *model, const char *rule,
+int cc_payload_notice_id(char *out, size_t cap, const char *model, const char *rule,
                           cc_transition kind, int64_t day)
 {
     char d[11];
@@ -46,7 +46,13 @@ void cc_payload_sentence(char *out, size_t cap, const cc_payload_in *in)
     const cc_eval_result *ev = in->ev;
     cc_path_info pi = {0};
     cc_paths_lookup(r->metric, &pi);
-    const char *what = pi.what ? pi.what : r->metric;
+    char what[200];
+    const char *w0 = pi.what ? pi.what : r->metric;
+    if (ev->subject[0])
+        snprintf(what, sizeof what, "%s %s's %s",
+                 pi.scope == CC_SCOPE_MEMBER ? "member" : "class", ev->subject, w0);
+    else
+        snprintf(what, sizeof what, "%s", w0);
     char v[32], b[32], m[32], s[32], day[11], fired[11], base[128] = "";
     fmt_num(v, sizeof v, ev->value);
     fmt_num(b, sizeof b, ev->bound);
@@ -62,13 +68,20 @@ void cc_payload_sentence(char *out, size_t cap, const cc_payload_in *in)
         else
             snprintf(base, sizeof base, " (baseline %s, sd %s)", m, s);
     }
+    if (in->kind == CC_TR_CLEARED && r->each && ev->subject[0]) {
+        snprintf(out, cap, "%s: every %s's %s is back %s its bound for %d day(s) (closest: %s, "
+                           "%s on %s, bound %s); the alert was raised on %s.",
+                 in->model, pi.scope == CC_SCOPE_MEMBER ? "member" : "class", w0,
+                 above ? "below" : "above", r->clear_after, ev->subject, v, day, b, fired);
+        return;
+    }
     switch (in->kind) {
-    case CC_TR_RESOLVED:
-        snprintf(out, cap, "%s: %s is back %s %s (%s on %s) for %d day(s); the alert fired on %s.",
+    case CC_TR_CLEARED:
+        snprintf(out, cap, "%s: %s is back %s %s (%s on %s) for %d day(s); the alert was raised on %s.",
                  in->model, what, above ? "below" : "above", b, v, day, r->clear_after, fired);
         break;
     case CC_TR_REMINDER:
-        snprintf(out, cap, "%s: still firing since %s: %s %s on %s is %s %s%s.", in->model,
+        snprintf(out, cap, "%s: still raised since %s: %s %s on %s is %s %s%s.", in->model,
                  fired, what, v, day, above ? "above" : "below", b, base);
         break;
     default:
@@ -98,22 +111,27 @@ char *cc_payload_build(const cc_payload_in *in)
     const cc_rule *r = in->rule;
     const cc_eval_result *ev = in->ev;
     char key[1024], text[1024], created[32];
-    cc_payload_dedupe_key(key, sizeof key, in->model, r->name, in->kind, in->day);
+    cc_payload_notice_id(key, sizeof key, in->model, r->name, in->kind, in->day);
     cc_payload_sentence(text, sizeof text, in);
     cJSON *o = cJSON_CreateObject();
     if (!o)
         return NULL;
     cJSON_AddStringToObject(o, "schema", CC_PAYLOAD_SCHEMA);
     cJSON_AddStringToObject(o, "kind", cc_transition_name(in->kind));
-    cJSON_AddStringToObject(o, "dedupe_key", key);
+    cJSON_AddStringToObject(o, "notice_id", key);
     int64_t since = in->st->fired_day >= 0 ? in->st->fired_day : in->day;
-    char incident[1024], sd[11];
+    char episode[1024], sd[11];
     cc_format_date(since, sd);
-    snprintf(incident, sizeof incident, "%s/%s/%s", in->model, r->name, sd);
-    cJSON_AddStringToObject(o, "incident_key", incident);
+    snprintf(episode, sizeof episode, "%s/%s/%s", in->model, r->name, sd);
+    cJSON_AddStringToObject(o, "episode", episode);
     cJSON_AddStringToObject(o, "rule", r->name);
-    cJSON_AddStringToObject(o, "severity", cc_rules_severity_name(r->severity));
+    cJSON_AddStringToObject(o, "urgency", cc_rules_urgency_name(r->urgency));
     cJSON_AddStringToObject(o, "model", in->model);
+    if (ev->subject[0]) {
+        cc_path_info pi;
+        cc_paths_lookup(r->metric, &pi);
+        cJSON_AddStringToObject(o, cc_figures_scope_name(pi.scope), ev->subject);
+    }
     cJSON_AddItemToObject(o, "checked_day", date(in->day));
     cJSON *win = cJSON_AddObjectToObject(o, "window");
     cJSON_AddItemToObject(win, "from", date(ev->window_day));
@@ -130,8 +148,8 @@ char *cc_payload_build(const cc_payload_in *in)
         cJSON_AddNumberToObject(cond, "min_shift", r->min_shift);
         cJSON_AddNumberToObject(cond, "min_relative_shift", r->min_relative_shift);
     }
-    cJSON_AddNumberToObject(cond, "for", r->fire_after);
-    cJSON_AddNumberToObject(cond, "clear_for", r->clear_after);
+    cJSON_AddNumberToObject(cond, "days", r->raise_after);
+    cJSON_AddNumberToObject(cond, "clear_days", r->clear_after);
     if (ev->has_baseline && in->report) {
         cJSON *b = cJSON_AddObjectToObject(o, "baseline");
         cJSON_AddItemToObject(b, "from", date(in->report->baseline_from));
@@ -146,25 +164,25 @@ char *cc_payload_build(const cc_payload_in *in)
     cJSON *st = cJSON_AddObjectToObject(o, "state");
     cJSON_AddStringToObject(st, "state", cc_state_name(in->st->state));
     cJSON_AddItemToObject(st, "since", date(in->st->since_day));
-    cJSON_AddItemToObject(st, "fired_on", date(in->st->fired_day));
-    cJSON_AddNumberToObject(st, "breaching_windows", in->st->breach_run);
-    cJSON_AddNumberToObject(st, "clear_windows", in->st->clear_run);
-    cJSON_AddStringToObject(o, "summary", text);
+    cJSON_AddItemToObject(st, "raised_on", date(in->st->fired_day));
+    cJSON_AddNumberToObject(st, "breaching_days", in->st->breach_run);
+    cJSON_AddNumberToObject(st, "clear_days", in->st->clear_run);
+    cJSON_AddStringToObject(o, "sentence", text);
     cJSON *evid = cc_evidence_build(in->report, r);
     cJSON_AddItemToObject(o, "evidence", evid ? evid : cJSON_CreateArray());
     cJSON *act = cJSON_AddObjectToObject(o, "action");
-    cJSON_AddStringToObject(act, "code", in->kind == CC_TR_RESOLVED ? "none" : r->action);
-    cJSON_AddStringToObject(act, "text", in->kind == CC_TR_RESOLVED
+    cJSON_AddStringToObject(act, "code", in->kind == CC_TR_CLEARED ? "none" : r->action);
+    cJSON_AddStringToObject(act, "text", in->kind == CC_TR_CLEARED
                                              ? "No action needed; keep an eye on the next days."
                                              : r->advice ? r->advice : default_advice(r->action));
     if (r->description)
-        cJSON_AddStringToObject(o, "description", r->description);
+        cJSON_AddStringToObject(o, "about", r->description);
     time_t t = (time_t)in->now;
     struct tm tm;
     gmtime_r(&t, &tm);
     strftime(created, sizeof created, "%Y-%m-%dT%H:%M:%SZ", &tm);
     cJSON_AddStringToObject(o, "created_at", created);
-    cJSON_AddStringToObject(o, "source", "concord " "0.1.0");
+    cJSON_AddStringToObject(o, "sender", "concord " "0.1.0");
     char *body = cJSON_PrintUnformatted(o);
     cJSON_Delete(o);
     return body;

@@ -1,6 +1,7 @@
-/* payload.h — the JSON body of a notification (schema "concord.alert/1",
- * the README, section Alerts) and its dedupe key, which names the transition: the same
- * model, rule, kind and checked day always give the same key. */
+/* payload.h — the JSON body of a notification (schema "concord.notice/2",
+ * the README, section Alerts) and its notice id, which names the transition:
+ * the same model, rule, kind and checked day always give the same id. It is
+ * also the webhook-id header, so receivers deduplicate retries by it. */
 #ifndef CC_ALERTS_PAYLOAD_H
 #define CC_ALERTS_PAYLOAD_H
 
@@ -12,7 +13,7 @@
 #include "rule.h"
 #include "state.h"
 
-#define CC_PAYLOAD_SCHEMA "concord.alert/1"
+#define CC_PAYLOAD_SCHEMA "concord.notice/2"
 
 typedef struct cc_payload_in {
     const char *model;
@@ -28,7 +29,7 @@ typedef struct cc_payload_in {
 /* "<model>/<rule>/<kind>/<YYYY-MM-DD>"; rule names cannot hold '/', so the
  * key reads unambiguously from the right. Returns the length, or -1 if it
  * does not fit. */
-int cc_payload_dedupe_key(char *out, size_t cap, const char *model, const char *rule,
+int cc_payload_notice_id(char *out, size_t cap, const char *model, const char *rule,
                           cc_transition kind, int64_t day);
 
 /* The human sentence of the body, for printing too. */

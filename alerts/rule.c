@@ -57,6 +57,7 @@ static void rule_clear(cc_rule *r)
     free(r->action);
     free(r->advice);
     free(r->description);
+    free(r->subject);
     for (int i = 0; i < r->n_models; i++)
         free(r->models[i]);
     free(r->models);
@@ -355,12 +356,37 @@ static int parse_condition(const where *w, const cJSON *obj, cc_rule *r,
     return 0;
 }
 
+/* "member" or "class": a name, or "each"; only with a figure of that scope,
+ * which defaults to "each". */
+static int parse_scope(const where *w, const cJSON *obj, cc_rule *r, const cc_path_info *pi)
+{
+    static const char *const keys[] = {"member", "class"};
+    for (int i = 0; i < 2; i++) {
+        const cJSON *v = cJSON_GetObjectItemCaseSensitive(obj, keys[i]);
+        cc_figure_scope want = i == 0 ? CC_SCOPE_MEMBER : CC_SCOPE_CLASS;
+        if (!v)
+            continue;
+        if (pi->scope != want)
+            return fail(w, keys[i], "'%s' is not a per-%s figure (see 'concord rules paths')",
+                        r->metric, keys[i]);
+        if (!cJSON_IsString(v) || !v->valuestring[0] || strlen(v->valuestring) > 256)
+            return fail(w, keys[i], "must be a %s name or \"each\"", keys[i]);
+        if (strcmp(v->valuestring, "each") == 0)
+            r->each = 1;
+        else if (!(r->subject = strdup(v->valuestring)))
+            return cc_error_set(w->err, CC_ENOMEM, "out of memory");
+    }
+    if (pi->scope != CC_SCOPE_WINDOW && !r->subject)
+        r->each = 1;
+    return 0;
+}
+
 static int parse_rule(where *w, const cJSON *obj, cc_rule *r)
 {
     static const char *const known[] = {
-        "name", "metric", "above", "below", "sigmas_above", "sigmas_below", "min_shift",
-        "min_relative_shift", "min_events", "min_labels", "for", "clear_for",
-        "remind_after_days", "lag_days", "severity", "action", "advice", "description",
+        "name", "metric", "member", "class", "above", "below", "sigmas_above", "sigmas_below",
+        "min_shift", "min_relative_shift", "min_events", "min_labels", "days", "clear_days",
+        "remind_after_days", "lag_days", "urgency", "action", "what_to_do", "about",
         "models", "enabled", NULL};
     int rc;
     if (!cJSON_IsObject(obj))
@@ -378,39 +404,39 @@ static int parse_rule(where *w, const cJSON *obj, cc_rule *r)
         return fail(w, "metric", "unknown metric path '%s' (allowed: the tracked figures, "
                                  "other numbers of a report window, events, labeled, "
                                  "labels.age_days; see 'concord rules paths')", r->metric);
-    if ((rc = parse_condition(w, obj, r, &pi)))
+    if ((rc = parse_scope(w, obj, r, &pi)) || (rc = parse_condition(w, obj, r, &pi)))
         return rc;
-    int64_t me = 100, ml = 0, fa = 1, ca = 1, ra = 0, lag = 0;
+    int64_t me = CC_RULE_MIN_AUTO, ml = CC_RULE_MIN_AUTO, fa = 1, ca = 1, ra = 0, lag = 0;
     if ((rc = get_int(w, obj, "min_events", "min_events", 0, INT64_C(1) << 40, &me)) ||
         (rc = get_int(w, obj, "min_labels", "min_labels", 0, INT64_C(1) << 40, &ml)) ||
-        (rc = get_int(w, obj, "for", "for", 1, 365, &fa)) ||
-        (rc = get_int(w, obj, "clear_for", "clear_for", 1, 365, &ca)) ||
+        (rc = get_int(w, obj, "days", "days", 1, 365, &fa)) ||
+        (rc = get_int(w, obj, "clear_days", "clear_days", 1, 365, &ca)) ||
         (rc = get_int(w, obj, "remind_after_days", "remind_after_days", 1, 365, &ra)) ||
         (rc = get_int(w, obj, "lag_days", "lag_days", 0, 90, &lag)))
         return rc;
     r->min_events = me;
     r->min_labels = ml;
-    r->fire_after = (int)fa;
+    r->raise_after = (int)fa;
     r->clear_after = (int)ca;
     r->remind_after_days = (int)ra;
     r->lag_days = (int)lag;
 
-    const cJSON *sev = cJSON_GetObjectItemCaseSensitive(obj, "severity");
-    r->severity = CC_SEV_WARNING;
+    const cJSON *sev = cJSON_GetObjectItemCaseSensitive(obj, "urgency");
+    r->urgency = CC_URGENCY_MEDIUM;
     if (sev) {
         const char *s = cJSON_IsString(sev) ? sev->valuestring : "";
-        if (strcmp(s, "info") == 0)
-            r->severity = CC_SEV_INFO;
-        else if (strcmp(s, "warning") == 0)
-            r->severity = CC_SEV_WARNING;
-        else if (strcmp(s, "critical") == 0)
-            r->severity = CC_SEV_CRITICAL;
+        if (strcmp(s, "low") == 0)
+            r->urgency = CC_URGENCY_LOW;
+        else if (strcmp(s, "medium") == 0)
+            r->urgency = CC_URGENCY_MEDIUM;
+        else if (strcmp(s, "high") == 0)
+            r->urgency = CC_URGENCY_HIGH;
         else
-            return fail(w, "severity", "must be \"info\", \"warning\" or \"critical\"");
+            return fail(w, "urgency", "must be \"low\", \"medium\" or \"high\"");
     }
     if ((rc = get_string(w, obj, "action", "action", 0, 64, &r->action)) ||
-        (rc = get_string(w, obj, "advice", "advice", 0, 512, &r->advice)) ||
-        (rc = get_string(w, obj, "description", "description", 0, 1024, &r->description)))
+        (rc = get_string(w, obj, "what_to_do", "what_to_do", 0, 512, &r->advice)) ||
+        (rc = get_string(w, obj, "about", "about", 0, 1024, &r->description)))
         return rc;
     if (!r->action && !(r->action = strdup("review")))
         return cc_error_set(w->err, CC_ENOMEM, "out of memory");
@@ -617,7 +643,7 @@ const char *cc_rules_condition_name(cc_condition c)
     }
 }
 
-const char *cc_rules_severity_name(cc_severity s)
+const char *cc_rules_urgency_name(cc_urgency s)
 {
-    return s == CC_SEV_INFO ? "info" : s == CC_SEV_CRITICAL ? "critical" : "warning";
+    return s == CC_URGENCY_LOW ? "low" : s == CC_URGENCY_HIGH ? "high" : "medium";
 }

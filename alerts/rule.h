@@ -16,7 +16,14 @@ typedef enum cc_condition {
     CC_COND_SIGMAS_BELOW,   /* value < mean - the same */
 } cc_condition;
 
-typedef enum cc_severity { CC_SEV_INFO, CC_SEV_WARNING, CC_SEV_CRITICAL } cc_severity;
+typedef enum cc_urgency { CC_URGENCY_LOW, CC_URGENCY_MEDIUM, CC_URGENCY_HIGH } cc_urgency;
+
+/* min_events / min_labels not set: scaled to the model's traffic, a share
+ * of the baseline's mean daily count (the README, section Alerts). */
+#define CC_RULE_MIN_AUTO (-1)
+#define CC_RULE_AUTO_SHARE 0.25      /* of the baseline's mean daily events or labels */
+#define CC_RULE_AUTO_FLOOR 30        /* never fewer (the drift tests' own minimum) */
+#define CC_RULE_AUTO_NO_BASELINE 100 /* without a baseline */
 
 typedef struct cc_rule {
     char *name;
@@ -25,15 +32,17 @@ typedef struct cc_rule {
     double threshold;            /* the bound, or k for sigma conditions */
     double min_shift;            /* sigma conditions: smallest |value - mean| that counts */
     double min_relative_shift;   /* sigma conditions: the same as a fraction of |mean| */
-    int64_t min_events, min_labels;
-    int fire_after;              /* "for": consecutive breaching windows to fire */
-    int clear_after;             /* "clear_for": consecutive clear windows to resolve */
+    int each;                    /* member/class figure: every member or class */
+    char *subject;               /* member/class figure: one member or class by name */
+    int64_t min_events, min_labels;  /* CC_RULE_MIN_AUTO: scaled to traffic */
+    int raise_after;             /* "days": breaching days in a row before it is raised */
+    int clear_after;             /* "clear_days": clear days in a row before it clears */
     int remind_after_days;       /* 0: no reminders */
     int lag_days;                /* evaluate the window this many days before the checked day */
-    cc_severity severity;
+    cc_urgency urgency;
     char *action;                /* short code, e.g. "review" */
-    char *advice;                /* a sentence for people; may be NULL */
-    char *description;           /* may be NULL */
+    char *advice;                /* "what_to_do": a sentence for people; may be NULL */
+    char *description;           /* "about": may be NULL */
     char **models;               /* NULL: every model */
     int n_models;
 } cc_rule;
@@ -55,7 +64,8 @@ typedef struct cc_receiver {
 
 typedef struct cc_ruleset cc_ruleset;
 
-/* Parses text (JSON with // and block comments); source names it in errors.
+/* Parses text (JSON with // and block comments: the README calls it a
+ * rules file, *.jsonc); source names it in errors.
  * Invalid input is -CC_EINPUT with a message naming rule and key. */
 int cc_rules_parse(cc_ruleset **out, const char *text, const char *source, cc_error *err);
 /* Reads and parses a file. */
@@ -78,7 +88,7 @@ int cc_rules_max_backoff_s(const cc_ruleset *rs);
 int cc_rules_applies(const cc_rule *r, const char *model);
 
 const char *cc_rules_condition_name(cc_condition c);
-const char *cc_rules_severity_name(cc_severity s);
+const char *cc_rules_urgency_name(cc_urgency s);
 
 /* The commented default rules file (static text). */
 const char *cc_rules_default_text(void);

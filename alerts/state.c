@@ -11,12 +11,12 @@ static const char schema[] =
     "  breach_run INTEGER NOT NULL, clear_run INTEGER NOT NULL,"
     "  last_day INTEGER NOT NULL, since_day INTEGER NOT NULL,"
     "  fired_day INTEGER, last_notified_day INTEGER,"
-    "  metric TEXT NOT NULL, severity TEXT NOT NULL, last_value REAL, last_bound REAL,"
+    "  metric TEXT NOT NULL, urgency TEXT NOT NULL, last_value REAL, last_bound REAL,"
     "  updated_at INTEGER NOT NULL,"
     "  PRIMARY KEY(model, rule)) WITHOUT ROWID;"
     "CREATE TABLE IF NOT EXISTS notifications("
-    "  notification_id INTEGER PRIMARY KEY, dedupe_key TEXT NOT NULL UNIQUE,"
-    "  model TEXT NOT NULL, rule TEXT NOT NULL, kind TEXT NOT NULL, severity TEXT NOT NULL,"
+    "  notification_id INTEGER PRIMARY KEY, notice_id TEXT NOT NULL UNIQUE,"
+    "  model TEXT NOT NULL, rule TEXT NOT NULL, kind TEXT NOT NULL, urgency TEXT NOT NULL,"
     "  day INTEGER NOT NULL, window_day INTEGER NOT NULL, value REAL, bound REAL,"
     "  body TEXT NOT NULL, created_at INTEGER NOT NULL);"
     "CREATE TABLE IF NOT EXISTS outbox("
@@ -51,13 +51,14 @@ int cc_state_prepare(cc_store *s, cc_error *err)
     return 0;
 }
 
-static const char *const state_names[] = {"ok", "pending", "firing", "resolved"};
+static const char *const state_names[] = {"quiet", "building", "raised", "cleared",
+                                          "not_evaluated"};
 
 const char *cc_state_name(cc_state_kind k) { return state_names[k]; }
 
 int cc_state_parse(const char *name, cc_state_kind *out)
 {
-    for (int i = 0; i < 4; i++)
+    for (int i = 0; i < 5; i++)
         if (strcmp(name, state_names[i]) == 0) {
             *out = (cc_state_kind)i;
             return 0;
@@ -67,8 +68,8 @@ int cc_state_parse(const char *name, cc_state_kind *out)
 
 const char *cc_transition_name(cc_transition t)
 {
-    return t == CC_TR_FIRED ? "fired" : t == CC_TR_RESOLVED ? "resolved"
-                                      : t == CC_TR_REMINDER ? "reminder" : "none";
+    return t == CC_TR_RAISED ? "raised" : t == CC_TR_CLEARED ? "cleared"
+                                        : t == CC_TR_REMINDER ? "reminder" : "none";
 }
 
 int cc_state_load(cc_store *s, const char *model, const char *rule, cc_rule_state *out,
@@ -86,7 +87,7 @@ int cc_state_load(cc_store *s, const char *model, const char *rule, cc_rule_stat
     sqlite3_bind_text(st, 2, rule, -1, SQLITE_STATIC);
     int rc = sqlite3_step(st);
     if (rc == SQLITE_ROW) {
-        cc_state_kind k = CC_STATE_OK;
+        cc_state_kind k = CC_STATE_NOT_EVALUATED;
         cc_state_parse((const char *)sqlite3_column_text(st, 0), &k);
         out->found = 1;
         out->state = k;
@@ -119,34 +120,37 @@ cc_transition cc_state_step(cc_rule_state *st, const cc_rule *rule, int64_t day,
     if (!st->found)
         st->since_day = day;
     st->last_day = day;
-    if (status == CC_EVAL_SKIPPED)
+    if (status == CC_EVAL_SKIPPED) {
+        if (st->state != CC_STATE_RAISED)
+            enter(st, CC_STATE_NOT_EVALUATED, day);
         return tr;
+    }
     if (status == CC_EVAL_BREACH) {
         st->breach_run++;
         st->clear_run = 0;
-        if (st->state == CC_STATE_FIRING) {
+        if (st->state == CC_STATE_RAISED) {
             if (rule->remind_after_days > 0 &&
                 day - st->last_notified_day >= rule->remind_after_days) {
                 st->last_notified_day = day;
                 tr = CC_TR_REMINDER;
             }
-        } else if (st->breach_run >= rule->fire_after) {
-            enter(st, CC_STATE_FIRING, day);
+        } else if (st->breach_run >= rule->raise_after) {
+            enter(st, CC_STATE_RAISED, day);
             st->fired_day = st->last_notified_day = day;
-            tr = CC_TR_FIRED;
+            tr = CC_TR_RAISED;
         } else {
-            enter(st, CC_STATE_PENDING, day);
+            enter(st, CC_STATE_BUILDING, day);
         }
     } else {
         st->clear_run++;
         st->breach_run = 0;
-        if (st->state == CC_STATE_FIRING) {
+        if (st->state == CC_STATE_RAISED) {
             if (st->clear_run >= rule->clear_after) {
-                enter(st, CC_STATE_RESOLVED, day);
-                tr = CC_TR_RESOLVED;
+                enter(st, CC_STATE_CLEARED, day);
+                tr = CC_TR_CLEARED;
             }
         } else {
-            enter(st, CC_STATE_OK, day);
+            enter(st, CC_STATE_QUIET, day);
         }
     }
     return tr;
@@ -175,7 +179,7 @@ int cc_state_save(cc_store *s, const char *model, const cc_rule *rule, const cc_
     if (sqlite3_prepare_v2(cc_store_db(s),
                            "INSERT OR REPLACE INTO rule_state(model, rule, state, breach_run, "
                            "clear_run, last_day, since_day, fired_day, last_notified_day, "
-                           "metric, severity, last_value, last_bound, updated_at) VALUES "
+                           "metric, urgency, last_value, last_bound, updated_at) VALUES "
                            "(?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12, ?13, ?14)",
                            -1, &q, NULL) != SQLITE_OK)
         return db_fail(s, err, "writing rule_state");
@@ -189,7 +193,7 @@ int cc_state_save(cc_store *s, const char *model, const cc_rule *rule, const cc_
     bind_day(q, 8, st->fired_day);
     bind_day(q, 9, st->last_notified_day);
     sqlite3_bind_text(q, 10, rule->metric, -1, SQLITE_STATIC);
-    sqlite3_bind_text(q, 11, cc_rules_severity_name(rule->severity), -1, SQLITE_STATIC);
+    sqlite3_bind_text(q, 11, cc_rules_urgency_name(rule->urgency), -1, SQLITE_STATIC);
     bind_real(q, 12, ev ? ev->value : NAN);
     bind_real(q, 13, ev ? ev->bound : NAN);
     sqlite3_bind_int64(q, 14, now);
@@ -206,16 +210,16 @@ int cc_state_queue(cc_store *s, const cc_notification *n, const cc_receiver *rec
     sqlite3_stmt *q = NULL;
     *queued = 0;
     if (sqlite3_prepare_v2(db,
-                           "INSERT OR IGNORE INTO notifications(dedupe_key, model, rule, kind, "
-                           "severity, day, window_day, value, bound, body, created_at) VALUES "
+                           "INSERT OR IGNORE INTO notifications(notice_id, model, rule, kind, "
+                           "urgency, day, window_day, value, bound, body, created_at) VALUES "
                            "(?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11)",
                            -1, &q, NULL) != SQLITE_OK)
         return db_fail(s, err, "writing notifications");
-    sqlite3_bind_text(q, 1, n->dedupe_key, -1, SQLITE_STATIC);
+    sqlite3_bind_text(q, 1, n->notice_id, -1, SQLITE_STATIC);
     sqlite3_bind_text(q, 2, n->model, -1, SQLITE_STATIC);
     sqlite3_bind_text(q, 3, n->rule, -1, SQLITE_STATIC);
     sqlite3_bind_text(q, 4, n->kind, -1, SQLITE_STATIC);
-    sqlite3_bind_text(q, 5, n->severity, -1, SQLITE_STATIC);
+    sqlite3_bind_text(q, 5, n->urgency, -1, SQLITE_STATIC);
     sqlite3_bind_int64(q, 6, n->day);
     sqlite3_bind_int64(q, 7, n->window_day);
     bind_real(q, 8, n->value);

@@ -1,5 +1,6 @@
-/* state.h — each (model, rule)'s alert state, ok -> pending -> firing ->
- * resolved, as a pure step function, and its SQLite tables: rule_state,
+/* state.h — each (model, rule)'s alert state, quiet -> building -> raised ->
+ * cleared, and not-evaluated while days cannot be judged, as a pure step
+ * function, and its SQLite tables: rule_state,
  * notifications (one row per transition, with the JSON body) and outbox (one
  * row per notification and receiver, drained by deliver.c). The caller wraps
  * a model's state changes and the notifications they cause in one
@@ -16,16 +17,18 @@
 #include "store.h"
 
 typedef enum cc_state_kind {
-    CC_STATE_OK,
-    CC_STATE_PENDING,     /* breaching, fewer than "for" windows in a row */
-    CC_STATE_FIRING,
-    CC_STATE_RESOLVED,    /* the window it resolved on; the next clear window makes it ok */
+    CC_STATE_QUIET,       /* evaluated and within its bound */
+    CC_STATE_BUILDING,    /* breaching, fewer than "days" days in a row */
+    CC_STATE_RAISED,
+    CC_STATE_CLEARED,     /* the day it cleared on; the next clear day makes it quiet */
+    CC_STATE_NOT_EVALUATED, /* the last checked day could not be judged (too few events or
+                               labels, undefined value, no baseline spread); never healthy */
 } cc_state_kind;
 
 typedef enum cc_transition {
     CC_TR_NONE,
-    CC_TR_FIRED,
-    CC_TR_RESOLVED,
+    CC_TR_RAISED,
+    CC_TR_CLEARED,
     CC_TR_REMINDER,
 } cc_transition;
 
@@ -35,7 +38,7 @@ typedef struct cc_rule_state {
     int breach_run, clear_run;  /* consecutive breaching / clear windows */
     int64_t last_day;           /* last checked day */
     int64_t since_day;          /* day the current state began */
-    int64_t fired_day;          /* day the current or last incident fired; -1 none */
+    int64_t fired_day;          /* day the current or last episode was raised; -1 none */
     int64_t last_notified_day;  /* fired or last reminder; -1 none */
 } cc_rule_state;
 
@@ -45,16 +48,17 @@ int cc_state_prepare(cc_store *s, cc_error *err);
 int cc_state_load(cc_store *s, const char *model, const char *rule, cc_rule_state *out,
                   cc_error *err);
 /* Advances st by one checked day. A day at or before st->last_day must not
- * be passed (the caller reports it as already evaluated). Skipped windows
- * neither breach nor clear. */
+ * be passed (the caller reports it as already evaluated). A day that is not
+ * evaluated neither breaches nor clears (the runs carry over it); a raised
+ * rule stays raised, any other becomes not-evaluated. */
 cc_transition cc_state_step(cc_rule_state *st, const cc_rule *rule, int64_t day,
                             cc_eval_status status);
 int cc_state_save(cc_store *s, const char *model, const cc_rule *rule, const cc_rule_state *st,
                   const cc_eval_result *ev, int64_t now, cc_error *err);
 
 typedef struct cc_notification {
-    const char *dedupe_key;
-    const char *model, *rule, *kind, *severity;
+    const char *notice_id;
+    const char *model, *rule, *kind, *urgency;
     int64_t day, window_day;
     double value, bound;
     const char *body;
@@ -62,7 +66,7 @@ typedef struct cc_notification {
 } cc_notification;
 
 /* Records the notification and an outbox row per receiver. *queued = 0 when
- * the dedupe key was already recorded (nothing is added). */
+ * the notice id was already recorded (nothing is added). */
 int cc_state_queue(cc_store *s, const cc_notification *n, const cc_receiver *receivers,
                    int n_receivers, int backoff_s, int max_backoff_s, int *queued,
                    cc_error *err);

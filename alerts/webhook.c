@@ -1,5 +1,5 @@
-/* webhook.c — HMAC signing (OpenSSL EVP_MAC), the libcurl POST and the
- * file: sink. */
+/* webhook.c — Standard Webhooks signing (HMAC with OpenSSL's EVP_MAC,
+ * base64 with EVP_EncodeBlock), the libcurl POST and the file: sink. */
 #include "webhook.h"
 
 #include <curl/curl.h>
@@ -7,6 +7,7 @@
 #include <fcntl.h>
 #include <inttypes.h>
 #include <openssl/core_names.h>
+#include <openssl/crypto.h>
 #include <openssl/evp.h>
 #include <openssl/params.h>
 #include <stdio.h>
@@ -14,11 +15,10 @@
 #include <string.h>
 #include <unistd.h>
 
-/* HMAC-SHA256 of the concatenated parts. */
+/* HMAC-SHA256 of the concatenated parts, the 32 bytes into mac. */
 static int hmac_parts(const void *key, size_t key_len, const void *const *parts,
-                      const size_t *lens, int n, char hex[65])
+                      const size_t *lens, int n, unsigned char mac[32])
 {
-    unsigned char mac[32];
     size_t mac_len = 0;
     int ok = 1;
     EVP_MAC *alg = EVP_MAC_fetch(NULL, "HMAC", NULL);
@@ -29,14 +29,10 @@ static int hmac_parts(const void *key, size_t key_len, const void *const *parts,
     ok = ctx && EVP_MAC_init(ctx, key, key_len, params);
     for (int i = 0; ok && i < n; i++)
         ok = EVP_MAC_update(ctx, parts[i], lens[i]);
-    ok = ok && EVP_MAC_final(ctx, mac, &mac_len, sizeof mac) && mac_len == sizeof mac;
+    ok = ok && EVP_MAC_final(ctx, mac, &mac_len, 32) && mac_len == 32;
     EVP_MAC_CTX_free(ctx);
     EVP_MAC_free(alg);
-    if (!ok)
-        return -1;
-    for (size_t i = 0; i < sizeof mac; i++)
-        snprintf(hex + 2 * i, 3, "%02x", mac[i]);
-    return 0;
+    return ok ? 0 : -1;
 }
 
 int cc_webhook_hmac_hex(const void *key, size_t key_len, const void *data, size_t data_len,
@@ -44,17 +40,58 @@ int cc_webhook_hmac_hex(const void *key, size_t key_len, const void *data, size_
 {
     const void *parts[] = {data};
     size_t lens[] = {data_len};
-    return hmac_parts(key, key_len, parts, lens, 1, hex);
+    unsigned char mac[32];
+    if (hmac_parts(key, key_len, parts, lens, 1, mac))
+        return -1;
+    for (size_t i = 0; i < sizeof mac; i++)
+        snprintf(hex + 2 * i, 3, "%02x", mac[i]);
+    return 0;
 }
 
-int cc_webhook_sign(const char *secret, size_t secret_len, int64_t timestamp, const char *body,
-                    size_t body_len, char hex[65])
+int cc_webhook_secret_decode(const char *secret, unsigned char key[CC_WEBHOOK_SECRET_MAX])
 {
+    if (strncmp(secret, "whsec_", 6) == 0)
+        secret += 6;
+    size_t n = strlen(secret);
+    if (n == 0 || n % 4 != 0 || n / 4 * 3 > CC_WEBHOOK_SECRET_MAX + 2)
+        return -1;
+    for (size_t i = 0; i < n; i++) {
+        char c = secret[i];
+        int ok = (c >= 'A' && c <= 'Z') || (c >= 'a' && c <= 'z') || (c >= '0' && c <= '9') ||
+                 c == '+' || c == '/' || (c == '=' && i >= n - 2);
+        if (!ok || (c != '=' && i > 0 && secret[i - 1] == '='))
+            return -1;
+    }
+    unsigned char buf[CC_WEBHOOK_SECRET_MAX + 3];
+    int len = EVP_DecodeBlock(buf, (const unsigned char *)secret, (int)n);
+    if (len < 0)
+        return -1;
+    /* EVP_DecodeBlock counts padding as zero bytes */
+    len -= (secret[n - 1] == '=') + (secret[n - 2] == '=');
+    if (len <= 0 || len > CC_WEBHOOK_SECRET_MAX)
+        return -1;
+    memcpy(key, buf, (size_t)len);
+    return len;
+}
+
+int cc_webhook_sign(const char *secret, const char *id, int64_t timestamp, const char *body,
+                    size_t body_len, char out[48])
+{
+    unsigned char key[CC_WEBHOOK_SECRET_MAX], mac[32];
+    int key_len = cc_webhook_secret_decode(secret, key);
+    if (key_len < 0)
+        return -1;
     char ts[32];
-    int n = snprintf(ts, sizeof ts, "%" PRId64 ".", timestamp);
-    const void *parts[] = {ts, body};
-    size_t lens[] = {(size_t)n, body_len};
-    return hmac_parts(secret, secret_len, parts, lens, 2, hex);
+    int n = snprintf(ts, sizeof ts, ".%" PRId64 ".", timestamp);
+    const void *parts[] = {id, ts, body};
+    size_t lens[] = {strlen(id), (size_t)n, body_len};
+    int rc = hmac_parts(key, (size_t)key_len, parts, lens, 3, mac);
+    OPENSSL_cleanse(key, sizeof key);
+    if (rc)
+        return -1;
+    memcpy(out, "v1,", 3);
+    EVP_EncodeBlock((unsigned char *)out + 3, mac, 32);   /* 44 characters and a NUL */
+    return 0;
 }
 
 int cc_webhook_global_init(void) { return curl_global_init(CURL_GLOBAL_DEFAULT) == 0 ? 0 : -1; }
@@ -135,26 +172,24 @@ int cc_webhook_post(void *ctx, const cc_webhook_request *req, cc_webhook_respons
         return -1;
     }
     struct curl_slist *h = NULL;
-    char line[1200], hex[65];
+    char line[1200], sig[48];
+    const char *id = req->notice_id ? req->notice_id : "";
     h = curl_slist_append(h, "Content-Type: application/json");
     h = curl_slist_append(h, "Expect:");
+    h = add_header(h, CC_WEBHOOK_ID_HEADER, id);
     snprintf(line, sizeof line, "%s: %" PRId64, CC_WEBHOOK_TIMESTAMP_HEADER, req->timestamp);
     h = curl_slist_append(h, line);
     if (req->secret) {
-        if (cc_webhook_sign(req->secret, req->secret_len, req->timestamp, req->body,
-                            req->body_len, hex)) {
+        if (cc_webhook_sign(req->secret, id, req->timestamp, req->body, req->body_len, sig)) {
             curl_slist_free_all(h);
             curl_easy_cleanup(c);
-            snprintf(res->error, sizeof res->error, "HMAC failed");
+            snprintf(res->error, sizeof res->error, "the signing secret is not base64 (with "
+                                                    "an optional whsec_ prefix)");
             return -1;
         }
-        snprintf(line, sizeof line, "%s: sha256=%s", CC_WEBHOOK_SIGNATURE_HEADER, hex);
+        snprintf(line, sizeof line, "%s: %s", CC_WEBHOOK_SIGNATURE_HEADER, sig);
         h = curl_slist_append(h, line);
     }
-    if (req->dedupe_key)
-        h = add_header(h, CC_WEBHOOK_KEY_HEADER, req->dedupe_key);
-    if (req->kind)
-        h = add_header(h, CC_WEBHOOK_KIND_HEADER, req->kind);
     char errbuf[CURL_ERROR_SIZE] = "";
     size_t seen = 0;
     curl_easy_setopt(c, CURLOPT_URL, req->url);

@@ -16,8 +16,8 @@ enum {
     EXIT_USAGE = 2,      /* bad command line */
     EXIT_IO = 3,         /* file or database failure */
     EXIT_NOTFOUND = 4,   /* unknown model, or nothing in the range */
-    EXIT_FIRED = 10,     /* check: a rule fired on the checked day */
-    EXIT_FIRING = 11,    /* check: rules are firing, none newly */
+    EXIT_FIRED = 10,     /* check: a rule was raised on a checked day */
+    EXIT_FIRING = 11,    /* check: rules are still raised, none newly */
     EXIT_UNDELIVERED = 12, /* deliver: some notifications failed (retried later) */
 };
 
@@ -101,6 +101,9 @@ struct cc_store;
 struct cc_report;
 int cli_report_html(struct cc_store *store, const struct cc_report *r, int with_review,
                     const char *note, char **out);
+/* The same with the status line from these rules (NULL: the default rules). */
+int cli_report_html_rules(struct cc_store *store, const struct cc_report *r, int with_review,
+                          const char *note, const char *rules_path, char **out);
 int cmd_review(int argc, char **argv);
 int cmd_show(int argc, char **argv);
 int cmd_prune(int argc, char **argv);
@@ -129,6 +132,19 @@ int64_t cli_now(void);
 int cli_check_exit(const struct cc_check_result *r);
 void cli_print_check(const struct cc_check_result *r, int json, int dry_run,
                      const struct cc_deliver_stats *ds, FILE *f);
+/* A rule set replayed over days without recording anything (cmd_check.c):
+ * every rule starts fresh on the first day, its state carried day to day.
+ * rules_path NULL: the default rules. Used by rules validate and report. */
+struct cc_ruleset;
+typedef struct cli_replay {
+    struct cc_ruleset *rules;
+    struct cc_check_result *res;
+    struct cc_report_alert *items, *raised;
+    int n_items, n_raised, not_evaluated;
+} cli_replay;
+int cli_replay_run(struct cc_store *store, const char *rules_path, const char *model,
+                   int64_t from, int64_t to, cli_replay *out);
+void cli_replay_free(cli_replay *r);
 /* The demo's alert timeline (cmd_alerts.c). Returns an exit code. */
 struct cc_store;
 int cli_demo_alerts(struct cc_store *store, const char *dir, int64_t first_day, int days);

@@ -17,12 +17,14 @@
 #include "state.h"
 
 const char help_alerts[] =
-    "usage: concord alerts --db FILE [--model NAME] [--state ok|pending|firing|resolved]\n"
+    "usage: concord alerts --db FILE [--model NAME] [--state STATE]\n"
     "                      [--delivery pending|sent|dead] [--limit N] [--format text|json]\n\n"
     "Lists each rule's state per model (since when, last checked day, last value and\n"
     "bound) and the latest notifications (default 50) with their delivery to each\n"
     "receiver: sent, pending (attempts so far, next try, last error) or dead letter\n"
-    "(gave up after the receiver's max_attempts; 'concord deliver --requeue-dead').\n\n"
+    "(gave up after the receiver's max_attempts; 'concord deliver --requeue-dead').\n"
+    "STATE: quiet, building, raised, cleared or not_evaluated (the last checked day\n"
+    "could not be judged: too few events or labels, or no baseline spread).\n\n"
     "exit: 0 ok, 2 usage, 3 file or database error\n";
 
 static void day_text(int64_t day, char out[11])
@@ -72,12 +74,12 @@ static int state_row(void *ctx, const cc_state_row *r)
         cJSON_AddStringToObject(o, "rule", r->rule);
         cJSON_AddStringToObject(o, "state", r->state);
         cJSON_AddStringToObject(o, "metric", r->metric);
-        cJSON_AddStringToObject(o, "severity", r->severity);
+        cJSON_AddStringToObject(o, "urgency", r->urgency);
         cJSON_AddItemToObject(o, "since", jday(r->since_day));
         cJSON_AddItemToObject(o, "last_checked", jday(r->last_day));
-        cJSON_AddItemToObject(o, "fired_on", jday(r->fired_day));
-        cJSON_AddNumberToObject(o, "breaching_windows", r->breach_run);
-        cJSON_AddNumberToObject(o, "clear_windows", r->clear_run);
+        cJSON_AddItemToObject(o, "raised_on", jday(r->fired_day));
+        cJSON_AddNumberToObject(o, "breaching_days", r->breach_run);
+        cJSON_AddNumberToObject(o, "clear_days", r->clear_run);
         cJSON_AddItemToObject(o, "last_value", jnum(r->last_value));
         cJSON_AddItemToObject(o, "last_bound", jnum(r->last_bound));
         cJSON_AddItemToArray(l->arr, o);
@@ -91,8 +93,8 @@ static int state_row(void *ctx, const cc_state_row *r)
         snprintf(v, sizeof v, "%.4g", r->last_value);
     if (isfinite(r->last_bound))
         snprintf(b, sizeof b, "%.4g", r->last_bound);
-    printf("  %-16s %-20s %-8s %-10s %-10s %-10s %-9s %-10s %s\n", r->model, r->rule, r->state,
-           since, last, fired, v, b, r->severity);
+    printf("  %-16s %-20s %-13s %-10s %-10s %-10s %-9s %-10s %s\n", r->model, r->rule, r->state,
+           since, last, fired, v, b, r->urgency);
     return 0;
 }
 
@@ -104,11 +106,11 @@ static int history_row(void *ctx, const cc_history_row *r)
         if (r->id != l->last_id) {
             o = cJSON_CreateObject();
             cJSON_AddNumberToObject(o, "id", (double)r->id);
-            cJSON_AddStringToObject(o, "dedupe_key", r->dedupe_key);
+            cJSON_AddStringToObject(o, "notice_id", r->notice_id);
             cJSON_AddStringToObject(o, "model", r->model);
             cJSON_AddStringToObject(o, "rule", r->rule);
             cJSON_AddStringToObject(o, "kind", r->kind);
-            cJSON_AddStringToObject(o, "severity", r->severity);
+            cJSON_AddStringToObject(o, "urgency", r->urgency);
             cJSON_AddItemToObject(o, "day", jday(r->day));
             cJSON_AddItemToObject(o, "window", jday(r->window_day));
             cJSON_AddItemToObject(o, "value", jnum(r->value));
@@ -144,7 +146,7 @@ static int history_row(void *ctx, const cc_history_row *r)
         if (isfinite(r->value))
             snprintf(v, sizeof v, "%.4g", r->value);
         printf("  %5lld %-10s %-16s %-20s %-9s %-8s %s%s\n", (long long)r->id, day, r->model,
-               r->rule, r->kind, r->severity, v, r->receiver ? "" : "  (no receiver)");
+               r->rule, r->kind, r->urgency, v, r->receiver ? "" : "  (no receiver)");
         l->last_id = r->id;
         l->count++;
     }
@@ -182,7 +184,7 @@ int cmd_alerts(int argc, char **argv)
     if (n_pos)
         return cli_usage("alerts", "unexpected argument '%s'", pos[0]);
     if (state && cc_state_parse(state, &k))
-        return cli_usage("alerts", "--state must be ok, pending, firing or resolved");
+        return cli_usage("alerts", "--state must be quiet, building, raised, cleared or not_evaluated");
     if (delivery && strcmp(delivery, "pending") && strcmp(delivery, "sent") &&
         strcmp(delivery, "dead"))
         return cli_usage("alerts", "--delivery must be pending, sent or dead");
@@ -205,9 +207,9 @@ int cmd_alerts(int argc, char **argv)
     }
     const char *model = cli_get(opts, n_opts, "model");
     if (!json)
-        printf("rule states%s%s\n  %-16s %-20s %-8s %-10s %-10s %-10s %-9s %-10s %s\n",
+        printf("rule states%s%s\n  %-16s %-20s %-13s %-10s %-10s %-10s %-9s %-10s %s\n",
                state ? ": " : "", state ? state : "", "model", "rule", "state", "since",
-               "checked", "fired on", "value", "bound", "severity");
+               "checked", "raised on", "value", "bound", "urgency");
     if (cc_history_states(store, model, state, state_row, &st, &err)) {
         rc = cli_fail(&err);
         goto done;
@@ -216,7 +218,7 @@ int cmd_alerts(int argc, char **argv)
         printf("  (none: run 'concord check')\n");
     if (!json)
         printf("\nnotifications, newest first (at most %d)\n  %5s %-10s %-16s %-20s %-9s %-8s "
-               "%s\n", limit, "id", "day", "model", "rule", "kind", "severity", "value");
+               "%s\n", limit, "id", "day", "model", "rule", "kind", "urgency", "value");
     if (cc_history_notifications(store, model, delivery, limit, history_row, &hi, &err)) {
         rc = cli_fail(&err);
         goto done;
@@ -247,7 +249,7 @@ done:
 int cli_demo_alerts(struct cc_store *store, const char *dir, int64_t first_day, int days)
 {
     char rules_path[4200], sink[4200];
-    snprintf(rules_path, sizeof rules_path, "%s/rules.json", dir);
+    snprintf(rules_path, sizeof rules_path, "%s/rules.jsonc", dir);
     snprintf(sink, sizeof sink, "%s/alerts.jsonl", dir);
     if (cli_write_output("demo", rules_path, cc_rules_default_text(), 0) != EXIT_OK)
         return EXIT_IO;
@@ -262,11 +264,12 @@ int cli_demo_alerts(struct cc_store *store, const char *dir, int64_t first_day, 
     int rc = EXIT_OK, n = 0, sent = 0;
     printf("\nalert timeline: the default rules ('concord rules init', written to %s)\n"
            "checked day by day; notifications appended to %s\n", rules_path, sink);
-    printf("  %-3s %-10s %-20s %-9s %-8s %s\n", "day", "date", "rule", "kind", "severity",
+    printf("  %-3s %-10s %-30s %-9s %-8s %s\n", "day", "date", "rule", "kind", "urgency",
            "value (bound)");
     for (int d = 0; d < days; d++) {
         int64_t now = (first_day + d + 1) * 86400 + 600;
-        cc_check_opts co = {NULL, 1, first_day + d, 0, now, &recv, 1};
+        cc_check_opts co = {.has_day = 1, .day = first_day + d, .now = now, .extra = &recv,
+                            .n_extra = 1};
         cc_check_result *res = NULL;
         cc_deliver_opts dopt = CC_DELIVER_OPTS_INIT;
         cc_deliver_stats ds;
@@ -280,13 +283,16 @@ int cli_demo_alerts(struct cc_store *store, const char *dir, int64_t first_day, 
         sent += ds.sent;
         for (int i = 0; i < res->n_items; i++) {
             const cc_check_item *it = &res->items[i];
-            if (!it->dedupe_key)
+            if (!it->notice_id)
                 continue;
+            char what[120];
+            snprintf(what, sizeof what, "%s%s%s%s", it->rule->name, it->ev.subject[0] ? " [" : "",
+                     it->ev.subject, it->ev.subject[0] ? "]" : "");
             char date[11];
             cc_format_date(res->day, date);
-            printf("  %-3d %-10s %-20s %-9s %-8s %.4g (%.4g)\n", d + 1, date, it->rule->name,
+            printf("  %-3d %-10s %-30s %-9s %-8s %.4g (%.4g)\n", d + 1, date, what,
                    cc_check_outcome_name(it->outcome),
-                   cc_rules_severity_name(it->rule->severity), it->ev.value, it->ev.bound);
+                   cc_rules_urgency_name(it->rule->urgency), it->ev.value, it->ev.bound);
             n++;
         }
         cc_check_result_free(res);

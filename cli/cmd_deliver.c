@@ -23,9 +23,9 @@ static void on_event(void *ctx, const cc_deliver_event *e)
 {
     (void)ctx;
     if (e->ok)
-        printf("sent     %s -> %s\n", e->dedupe_key, e->receiver);
+        printf("sent     %s -> %s\n", e->notice_id, e->receiver);
     else
-        printf("%-8s %s -> %s (attempt %d): %s\n", e->dead ? "dead" : "failed", e->dedupe_key,
+        printf("%-8s %s -> %s (attempt %d): %s\n", e->dead ? "dead" : "failed", e->notice_id,
                e->receiver, e->attempts, e->error);
 }
 

@@ -24,7 +24,7 @@ const char help_demo[] =
     "after which the members are near copies (from day 23: disagreement collapses).\n"
     "Writes events.jsonl, labels.jsonl, demo.db, report.txt, report.json and report.html\n"
     "into DIR (default ./concord-demo, replacing an earlier demo database there). Then\n"
-    "checks the default alert rules day by day (rules.json) and prints the alert timeline\n"
+    "checks the default alert rules day by day (rules.jsonc) and prints the alert timeline\n"
     "(alerts.jsonl).\n\n"
     "exit: 0 ok, 2 usage, 3 file or database error\n";
 
@@ -158,7 +158,7 @@ int cmd_demo(int argc, char **argv)
            "--where top-mi\n", cli_program, db, fog_a, fog_b);
     if ((rc = cli_demo_alerts(store, dir, dopts.first_day, dopts.days)) != EXIT_OK)
         goto done;
-    /* the page last, so its status line shows the rules still firing */
+    /* the page last, so its status line shows the rules still raised */
     if ((rc = cli_report_html(store, rep, 1,
                               "Invented data from concord demo: an imaginary apple packhouse, "
                               "not real measurements.",

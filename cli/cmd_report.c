@@ -8,13 +8,12 @@
 #include "out.h"
 #include "report.h"
 #include "date.h"
-#include "history.h"
 #include "review.h"
 
 const char help_report[] =
     "usage: concord report --db FILE --model NAME [--from DATE] [--to DATE]\n"
     "                      [--by day|week|all] [--format text|json|html] [--no-review]\n"
-    "                      [-o FILE]\n\n"
+    "                      [--rules FILE] [-o FILE]\n\n"
     "Diversity of the members (disagreement, Cohen's and Fleiss' kappa), uncertainty of\n"
     "the averaged output (entropy, expected entropy, mutual information), class mix,\n"
     "contested class pairs, and on labelled events accuracy of members, ensemble, vote\n"
@@ -26,42 +25,38 @@ const char help_report[] =
     "  --format html      one self-contained page with charts (write it with -o); it also\n"
     "                     reads the range's event rows for the review lists, unless\n"
     "  --no-review        is given\n"
+    "  --rules FILE       replay these alert rules day by day over the report's days\n"
+    "                     (from a fresh state, recording and sending nothing) and add the\n"
+    "                     alert timeline; the HTML page's status line always comes from\n"
+    "                     such a replay, of the default rules when --rules is not given\n"
     "  -o FILE            write there instead of standard output\n\n"
     "exit: 0 ok, 2 usage, 3 file or database error, 4 unknown model\n";
 
-/* The rules firing now, one line each, for the page's status line. */
-typedef struct firing {
-    char **lines;
-    int n;
-} firing;
-
-static int add_firing(void *ctx, const cc_state_row *row)
+/* The alert timeline over the report's days (NULL rules_path: the default
+ * rules); t stays empty when the report has no windows. */
+static int timeline_of(cc_store *store, const cc_report *r, const char *rules_path,
+                       cli_replay *rp, cc_report_timeline *t)
 {
-    firing *f = ctx;
-    char since[11], line[512];
-    cc_format_date(row->since_day, since);
-    snprintf(line, sizeof line, "%s (%s): firing since %s; %s = %.4g, bound %.4g", row->rule,
-             row->severity, since, row->metric, row->last_value, row->last_bound);
-    char **grown = realloc(f->lines, (size_t)(f->n + 1) * sizeof *grown);
-    if (!grown || !(grown[f->n] = strdup(line))) {
-        if (grown)
-            f->lines = grown;
-        return 1;
-    }
-    f->lines = grown;
-    f->n++;
-    return 0;
+    memset(rp, 0, sizeof *rp);
+    memset(t, 0, sizeof *t);
+    t->rules = rules_path ? rules_path : "default rules";
+    if (r->n_windows == 0)
+        return EXIT_OK;
+    int64_t from = r->windows[0].from, to = r->windows[r->n_windows - 1].to;
+    int rc = cli_replay_run(store, rules_path, r->model->name, from, to, rp);
+    if (rc)
+        return rc;
+    t->items = rp->items;
+    t->n = rp->n_items;
+    t->raised = rp->raised;
+    t->n_raised = rp->n_raised;
+    t->not_evaluated = rp->not_evaluated;
+    t->last_day = to;
+    return EXIT_OK;
 }
 
-static void free_firing(firing *f)
-{
-    for (int i = 0; i < f->n; i++)
-        free(f->lines[i]);
-    free(f->lines);
-}
-
-int cli_report_html(cc_store *store, const cc_report *r, int with_review, const char *note,
-                    char **out)
+int cli_report_html_rules(cc_store *store, const cc_report *r, int with_review,
+                          const char *note, const char *rules_path, char **out)
 {
     cc_html_extras x = CC_HTML_EXTRAS_INIT;
     cc_review *rv = NULL;
@@ -78,29 +73,33 @@ int cli_report_html(cc_store *store, const cc_report *r, int with_review, const 
             return cli_fail(&err);
         x.review = rv;
     }
-    firing f = {NULL, 0};
-    if (cc_history_evaluated(store, r->model->name)) {
-        x.alerts_known = 1;
-        if (cc_history_states(store, r->model->name, "firing", add_firing, &f, &err)) {
-            cc_review_free(rv);
-            free_firing(&f);
-            return cli_fail(&err);
-        }
-        x.alerts = (const char *const *)f.lines;
-        x.n_alerts = f.n;
+    cli_replay rp;
+    cc_report_timeline t;
+    int rc = timeline_of(store, r, rules_path, &rp, &t);
+    if (rc) {
+        cc_review_free(rv);
+        return rc;
     }
+    x.timeline = &t;
     *out = cc_report_html(r, &x);
     cc_review_free(rv);
-    free_firing(&f);
+    cli_replay_free(&rp);
     return EXIT_OK;
+}
+
+int cli_report_html(cc_store *store, const cc_report *r, int with_review, const char *note,
+                    char **out)
+{
+    return cli_report_html_rules(store, r, with_review, note, NULL, out);
 }
 
 int cmd_report(int argc, char **argv)
 {
     cli_opt opts[] = {{"db", 0, 1, NULL},  {"model", 0, 1, NULL},  {"from", 0, 1, NULL},
                       {"to", 0, 1, NULL},  {"by", 0, 1, NULL},     {"format", 0, 1, NULL},
-                      {"output", 'o', 1, NULL}, {"no-review", 0, 0, NULL}};
-    int n_opts = 8, n_pos, help;
+                      {"output", 'o', 1, NULL}, {"no-review", 0, 0, NULL},
+                      {"rules", 0, 1, NULL}};
+    int n_opts = 9, n_pos, help;
     char *pos[64];
     if (argc > 64 || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, "report"))
         return EXIT_USAGE;
@@ -148,7 +147,7 @@ int cmd_report(int argc, char **argv)
     int rc = EXIT_OK;
     if (cli_store_open(&store, db, CC_STORE_READONLY, &err))
         return cli_fail(&err);
-    if (!html) {
+    if (!html && !cli_get(opts, n_opts, "rules")) {
         /* text and JSON are written window by window as they are computed,
          * through the checked writer (no partial file on failure) */
         cc_out *o;
@@ -177,7 +176,20 @@ int cmd_report(int argc, char **argv)
         rc = cli_fail(&err);
     } else {
         char *text = NULL;
-        rc = cli_report_html(store, r, !cli_get(opts, n_opts, "no-review"), NULL, &text);
+        const char *rules = cli_get(opts, n_opts, "rules");
+        if (html) {
+            rc = cli_report_html_rules(store, r, !cli_get(opts, n_opts, "no-review"), NULL,
+                                       rules, &text);
+        } else if (rules) {
+            cli_replay rp;
+            cc_report_timeline t;
+            rc = timeline_of(store, r, rules, &rp, &t);
+            if (rc == EXIT_OK)
+                text = json ? cc_report_json_with(r, &t) : cc_report_text_with(r, &t);
+            cli_replay_free(&rp);
+        } else {
+            text = json ? cc_report_json(r) : cc_report_text(r);
+        }
         if (rc != EXIT_OK) {
             cc_report_free(r);
             cc_store_close(store);
@@ -187,7 +199,8 @@ int cmd_report(int argc, char **argv)
             fprintf(stderr, "concord report: out of memory\n");
             rc = EXIT_IO;
         } else {
-            rc = cli_write_output("report", out, text, 0);
+            rc = cli_write_output("report", out, text,
+                                  json ? CLI_OUT_NEWLINE : html ? 0 : CLI_OUT_TEXT);
         }
         free(text);
     }

@@ -2,9 +2,12 @@
  * rules file (every error names the rule and the key), list metric paths. */
 #include <errno.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
+#include "check.h"
 #include "cli.h"
+#include "date.h"
 #include "out.h"
 #include "paths.h"
 #include "rule.h"
@@ -12,14 +15,112 @@
 const char help_rules[] =
     "usage: concord rules init [-o FILE] [--force]\n"
     "       concord rules check FILE\n"
+    "       concord rules validate [FILE] --db DB [--model NAME]\n"
     "       concord rules paths\n\n"
-    "init   writes the default rules (diversity collapse, disagreement spike, class-mix\n"
-    "       drift, score drift, label shift, accuracy drop, ensemble gain lost,\n"
-    "       calibration drift, stale labels, no events), each with its reasoning in a\n"
-    "       comment, to standard output or FILE (not over an existing FILE without --force)\n"
-    "check  parses and validates FILE and lists its rules and receivers\n"
-    "paths  lists the metric paths a rule may name; sigma conditions need a tracked one\n\n"
-    "exit: 0 ok, 1 invalid rules file, 2 usage, 3 file error\n";
+    "init      writes the default rules (diversity collapse, mutual-information rise,\n"
+    "          member departs, class-mix drift, score drift, label shift, accuracy drop,\n"
+    "          ensemble gain lost, calibration drift, stale labels, no events), each with\n"
+    "          its reasoning in a comment, to standard output or FILE (not over an\n"
+    "          existing FILE without --force); name it *.jsonc (JSON with comments)\n"
+    "check     parses and validates FILE and lists its rules and receivers\n"
+    "validate  replays FILE (default: the default rules) over each model's baseline\n"
+    "          days, from a fresh state and recording nothing, and warns about every\n"
+    "          rule that would breach or be raised there, and every rule that could\n"
+    "          not judge some of those days\n"
+    "paths     lists the figures a rule may name, their scope (window, member,\n"
+    "          class) and whether sigma conditions work (tracked figures)\n\n"
+    "exit: 0 ok, 1 invalid rules file, 2 usage, 3 file error, 4 unknown model,\n"
+    "10 validate: a rule would breach on the baseline\n";
+
+/* Replays the rules over one model's baseline days; *warned counts rules
+ * that would breach there. */
+static int validate_model(cc_store *store, const char *file, const char *model, int *warned)
+{
+    cc_error err = CC_ERROR_INIT;
+    cc_model *m = NULL;
+    int has = 0;
+    int64_t from = 0, to = 0;
+    if (cc_store_model_get(store, model, &m, &err) ||
+        cc_store_baseline_get(store, m, &has, &from, &to, &err)) {
+        cc_model_free(m);
+        return cli_fail(&err);
+    }
+    cc_model_free(m);
+    char a[11], b[11];
+    if (!has) {
+        printf("model %s: no baseline set ('concord baseline'); nothing to replay\n", model);
+        return EXIT_OK;
+    }
+    cc_format_date(from, a);
+    cc_format_date(to, b);
+    cli_replay rp;
+    int rc = cli_replay_run(store, file, model, from, to, &rp);
+    if (rc)
+        return rc;
+    int n_days = (int)(to - from + 1), quiet = 0;
+    printf("model %s: %d rule(s) replayed over the baseline %s..%s (%d days)\n", model,
+           cc_rules_count(rp.rules), a, b, n_days);
+    for (int r = 0; r < cc_rules_count(rp.rules); r++) {
+        const cc_rule *rule = cc_rules_get(rp.rules, r);
+        int breach = 0, skipped = 0, raised = 0;
+        const cc_check_item *first = NULL, *skip = NULL;
+        for (int i = 0; i < rp.res->n_items; i++) {
+            const cc_check_item *it = &rp.res->items[i];
+            if (it->rule != rule)
+                continue;
+            if (it->ev.status == CC_EVAL_BREACH && !breach++)
+                first = it;
+            if (it->ev.status == CC_EVAL_SKIPPED && !skipped++)
+                skip = it;
+            raised += it->outcome == CC_OUT_RAISED;
+        }
+        if (breach) {
+            char d[11];
+            cc_format_date(first->day, d);
+            printf("  warning: %s breaches on %d of %d baseline day(s)%s; first %s: %s%s%s = "
+                   "%.4g, bound %.4g\n",
+                   rule->name, breach, n_days, raised ? " and would be raised" : "", d,
+                   rule->metric, first->ev.subject[0] ? " of " : "", first->ev.subject,
+                   first->ev.value, first->ev.bound);
+            (*warned)++;
+        } else if (skipped) {
+            printf("  note: %s could not judge %d of %d baseline day(s): %s\n", rule->name,
+                   skipped, n_days, skip->ev.reason);
+        } else {
+            quiet++;
+        }
+    }
+    printf("  %d rule(s) quiet on every baseline day\n", quiet);
+    cli_replay_free(&rp);
+    return EXIT_OK;
+}
+
+static int validate(const char *file, const char *db, const char *model)
+{
+    cc_error err = CC_ERROR_INIT;
+    cc_store *store = NULL;
+    char **models = NULL;
+    int n = 0, rc = EXIT_OK, warned = 0;
+    if (cc_store_open(&store, db, 0, &err))
+        return cli_fail(&err);
+    if (model) {
+        rc = validate_model(store, file, model, &warned);
+    } else if (cc_store_model_list(store, &models, &n, &err)) {
+        rc = cli_fail(&err);
+    }
+    for (int i = 0; rc == EXIT_OK && i < n; i++)
+        rc = validate_model(store, file, models[i], &warned);
+    for (int i = 0; i < n; i++)
+        free(models[i]);
+    free(models);
+    cc_store_close(store);
+    if (rc == EXIT_OK && warned) {
+        fprintf(stderr, "concord rules validate: %d rule(s) would breach on baseline days: "
+                        "widen them, or check the baseline period\n", warned);
+        return EXIT_FIRED;
+    }
+    return rc;
+}
 
 static int init(const char *out, int force)
 {
@@ -52,8 +153,15 @@ static int check(const char *path)
         else
             snprintf(cond, sizeof cond, "%g sd %s", r->threshold,
                      r->cond == CC_COND_SIGMAS_ABOVE ? "above" : "below");
-        printf("  %-20s %-8s %-34s %-18s for %d, clear %d%s\n", r->name,
-               cc_rules_severity_name(r->severity), r->metric, cond, r->fire_after,
+        char scope[80] = "";
+        if (r->each || r->subject) {
+            cc_path_info pi;
+            cc_paths_lookup(r->metric, &pi);
+            snprintf(scope, sizeof scope, " (%s %s)", r->each ? "each" : cc_figures_scope_name(pi.scope),
+                     r->each ? cc_figures_scope_name(pi.scope) : r->subject);
+        }
+        printf("  %-24s %-6s %s%s, %s; days %d, clear_days %d%s\n", r->name,
+               cc_rules_urgency_name(r->urgency), r->metric, scope, cond, r->raise_after,
                r->clear_after, r->remind_after_days ? ", reminders" : "");
     }
     for (int i = 0; i < cc_rules_receiver_count(rs); i++) {
@@ -68,8 +176,9 @@ static int check(const char *path)
 
 int cmd_rules(int argc, char **argv)
 {
-    cli_opt opts[] = {{"output", 'o', 1, NULL}, {"force", 0, 0, NULL}};
-    int n_opts = 2, n_pos, help;
+    cli_opt opts[] = {{"output", 'o', 1, NULL}, {"force", 0, 0, NULL}, {"db", 0, 1, NULL},
+                      {"model", 0, 1, NULL}};
+    int n_opts = 4, n_pos, help;
     char *pos[64];
     if (argc > 64 || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, "rules"))
         return EXIT_USAGE;
@@ -78,7 +187,15 @@ int cmd_rules(int argc, char **argv)
         return EXIT_OK;
     }
     if (n_pos == 0)
-        return cli_usage("rules", "say init, check FILE or paths");
+        return cli_usage("rules", "say init, check FILE, validate [FILE] --db DB or paths");
+    if (strcmp(pos[0], "validate") == 0 && n_pos <= 2) {
+        if (!cli_get(opts, n_opts, "db"))
+            return cli_usage("rules", "validate needs --db");
+        return validate(n_pos == 2 ? pos[1] : NULL, cli_get(opts, n_opts, "db"),
+                        cli_get(opts, n_opts, "model"));
+    }
+    if (cli_get(opts, n_opts, "db") || cli_get(opts, n_opts, "model"))
+        return cli_usage("rules", "--db and --model belong to 'rules validate'");
     if (strcmp(pos[0], "init") == 0 && n_pos == 1)
         return init(cli_get(opts, n_opts, "output"), cli_get(opts, n_opts, "force") != NULL);
     if (cli_get(opts, n_opts, "output") || cli_get(opts, n_opts, "force"))
@@ -89,8 +206,9 @@ int cmd_rules(int argc, char **argv)
         for (int i = 0; i < cc_paths_count(); i++) {
             cc_path_info pi;
             cc_paths_lookup(cc_paths_name(i), &pi);
-            printf("%-42s %-9s %s\n", cc_paths_name(i),
-                   pi.kind == CC_PATH_TRACKED ? "sigmas ok" : "bounds", pi.what);
+            printf("%-36s %-7s %-9s %s%s\n", cc_paths_name(i), cc_figures_scope_name(pi.scope),
+                   pi.kind == CC_PATH_TRACKED ? "sigmas ok" : "bounds", pi.what,
+                   pi.needs_labels ? " (needs labels)" : "");
         }
         return EXIT_OK;
     }

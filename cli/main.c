@@ -42,7 +42,7 @@ static void usage(FILE *f)
                "writer's lock before giving up with exit 3 (default 60; follow retries).\n"
                "exit codes: 0 ok, 1 some input lines rejected, 2 usage error,\n"
                "            3 file or database error, 4 unknown model or nothing to report;\n"
-               "            check: 10 a rule fired, 11 rules still firing; deliver: 12 some\n"
+               "            check: 10 a rule raised, 11 rules still raised; deliver: 12 some\n"
                "            notifications not delivered yet\n");
 }
 

@@ -30,10 +30,10 @@ static const double late_mix[K] = {0.03, 0.10, 0.20, 0.30, 0.22, 0.15};
 
 /* The old model of the broken-member incident: share of fruit it sees one
  * grade lower, weight of the shared view, concentration and sharpening. */
-#define OLD_LEAN 0.65
-#define OLD_W 0.6
-#define OLD_GAMMA 120.0
-#define OLD_SHARPEN 1.1
+#define OLD_LEAN 0.3
+#define OLD_W 0.5
+#define OLD_GAMMA 25.0
+#define OLD_SHARPEN 2.4
 
 /* Dirichlet parameter centred on grade y with leakage to its neighbours. */
 static void around(double *alpha, int y, double strength, double leak)
@@ -126,8 +126,13 @@ int cc_demo_generate(const char *events_path, const char *labels_path, const cc_
                 gsl_ran_dirichlet(r, K, mixed, p[m]);
                 sharpen(p[m], copies ? 2.0 : 2.4);
                 if (broken && m == inc->broken_member) {
-                    int seen = y + 1 < K && gsl_rng_uniform(old) < OLD_LEAN ? y + 1 : y;
-                    around(alpha, seen, 8.0, 0.5);
+                    /* the old model: on a share of the fruit it settles on a
+                     * neighbouring grade as firmly as the others answer */
+                    int seen = y;
+                    if (gsl_rng_uniform(old) < OLD_LEAN)
+                        seen = y == 0 ? 1 : y == K - 1 ? K - 2
+                                      : y + (gsl_rng_uniform(old) < 0.5 ? -1 : 1);
+                    around(alpha, seen, 8.0, 0.35);
                     gsl_ran_dirichlet(old, K, alpha, b);
                     for (int c = 0; c < K; c++)
                         mixed[c] = OLD_GAMMA * (OLD_W * a[c] + (1.0 - OLD_W) * b[c]) + 1e-3;

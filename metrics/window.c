@@ -88,6 +88,35 @@ static int fill_contested(cc_window_metrics *out, const int64_t *tab, int k)
     return 0;
 }
 
+/* Each member against the others, from the pairwise disagreement: its mean
+ * disagreement with them, and how far that exceeds the others' mean
+ * disagreement among themselves. A shift that moves every member alike
+ * (harder inputs) leaves the second near zero; one member going its own way
+ * raises it for that member only. */
+static void member_spread(cc_window_metrics *out, int m)
+{
+    const double *d = out->disagreement.pairs;
+    for (int i = 0; i < m; i++) {
+        double own = 0, rest = 0;
+        int n_own = 0, n_rest = 0;
+        for (int j = 0; d && j < m; j++) {
+            if (j == i)
+                continue;
+            if (isfinite(d[i * m + j])) {
+                own += d[i * m + j];
+                n_own++;
+            }
+            for (int l = j + 1; l < m; l++)
+                if (l != i && isfinite(d[j * m + l])) {
+                    rest += d[j * m + l];
+                    n_rest++;
+                }
+        }
+        out->member_disagreement[i] = n_own ? own / n_own : NAN;
+        out->member_departure[i] = n_own && n_rest ? own / n_own - rest / n_rest : NAN;
+    }
+}
+
 static void label_free_part(cc_window_metrics *out, const cc_layout *L, const int64_t *v)
 {
     const int m = L->m, k = L->k;
@@ -104,6 +133,7 @@ static void label_free_part(cc_window_metrics *out, const cc_layout *L, const in
         }
     pair_matrix_finish(&out->disagreement, m);
     pair_matrix_finish(&out->kappa, m);
+    member_spread(out, m);
 
     /* Each event is an item rated by all m members (Fleiss 1971). */
     int64_t totals[CC_MAX_CLASSES];
@@ -151,6 +181,16 @@ static void labeled_part(cc_window_metrics *out, const cc_layout *L, const int64
         if (right > v[L->member_correct + best])
             best = i;
     }
+    /* per class, from the confusion matrix of the averaged output */
+    for (int c = 0; c < L->k; c++) {
+        int64_t pred = 0, truth = 0, right = v[L->confusion + (size_t)c * L->k + c];
+        for (int x = 0; x < L->k; x++) {
+            pred += v[L->confusion + (size_t)c * L->k + x];
+            truth += v[L->confusion + (size_t)x * L->k + c];
+        }
+        out->class_precision[c] = pred ? (double)right / (double)pred : NAN;
+        out->class_recall[c] = truth ? (double)right / (double)truth : NAN;
+    }
     out->ensemble_accuracy = (double)v[L->ens_correct] / n;
     out->vote_accuracy = (double)v[L->vote_correct] / n;
     out->oracle_accuracy = (double)v[L->oracle_correct] / n;
@@ -175,6 +215,7 @@ int cc_window_metrics_compute(cc_window_metrics *out, const cc_summary *s)
     out->events = v[L->n_events];
     out->labeled = v[L->n_labeled];
     out->class_counts = v + L->pred_counts;
+    out->confusion = v + L->confusion;
     out->vote_ties = v[L->vote_ties];
     out->fleiss_kappa = NAN;
     out->entropy = NAN;
@@ -193,10 +234,17 @@ int cc_window_metrics_compute(cc_window_metrics *out, const cc_summary *s)
         if (pair_matrix_alloc(mats[i], m) != 0)
             goto oom;
     out->member_accuracy = malloc((size_t)m * sizeof *out->member_accuracy);
-    if (!out->member_accuracy)
+    out->member_disagreement = malloc((size_t)m * sizeof *out->member_disagreement);
+    out->member_departure = malloc((size_t)m * sizeof *out->member_departure);
+    out->class_precision = malloc((size_t)L->k * sizeof *out->class_precision);
+    out->class_recall = malloc((size_t)L->k * sizeof *out->class_recall);
+    if (!out->member_accuracy || !out->member_disagreement || !out->member_departure ||
+        !out->class_precision || !out->class_recall)
         goto oom;
     for (int i = 0; i < m; i++)
-        out->member_accuracy[i] = NAN;
+        out->member_accuracy[i] = out->member_disagreement[i] = out->member_departure[i] = NAN;
+    for (int c = 0; c < L->k; c++)
+        out->class_precision[c] = out->class_recall[c] = NAN;
     cc_nonpairwise_compute(&out->nonpairwise, NULL, 0);
 
     label_free_part(out, L, v);
@@ -225,6 +273,10 @@ void cc_window_metrics_free(cc_window_metrics *w)
     free(w->double_fault.pairs);
     free(w->oracle_disagreement.pairs);
     free(w->member_accuracy);
+    free(w->member_disagreement);
+    free(w->member_departure);
+    free(w->class_precision);
+    free(w->class_recall);
     free(w->contested);
     w->disagreement.pairs = NULL;
     w->kappa.pairs = NULL;
@@ -233,6 +285,8 @@ void cc_window_metrics_free(cc_window_metrics *w)
     w->double_fault.pairs = NULL;
     w->oracle_disagreement.pairs = NULL;
     w->member_accuracy = NULL;
+    w->member_disagreement = w->member_departure = NULL;
+    w->class_precision = w->class_recall = NULL;
     w->contested = NULL;
     w->n_contested = 0;
 }

@@ -22,6 +22,9 @@ typedef struct cc_window_metrics {
 
     /* label-free diversity */
     cc_pair_matrix disagreement;
+    double *member_disagreement;      /* m: member i's mean disagreement with each other member */
+    double *member_departure;         /* m: member_disagreement[i] minus the mean disagreement of
+                                         the other members among themselves; NAN for m < 3 */
     cc_pair_matrix kappa;
     double fleiss_kappa;
 
@@ -34,6 +37,9 @@ typedef struct cc_window_metrics {
     cc_nonpairwise nonpairwise;
 
     double *member_accuracy;          /* m */
+    const int64_t *confusion;         /* k*k [pred*k + true] of the averaged output, borrowed */
+    double *class_precision;          /* k: right / predicted as c; NAN when none predicted */
+    double *class_recall;             /* k: right / labelled c; NAN when none labelled */
     double ensemble_accuracy, vote_accuracy, oracle_accuracy;
     int64_t vote_ties_labeled;
     int best_member;                  /* highest accuracy, ties to lowest index; -1 without labels */

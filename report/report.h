@@ -26,12 +26,13 @@ typedef struct cc_report_window {
     int64_t from, to;           /* days */
     cc_summary *summary;        /* merged days; only while a cc_report_stream callback
                                    runs (NULL in a built report, see cc_report.range) */
-    int64_t *counts;            /* 2k: predicted-class counts (metrics.class_counts
-                                   points here), then label counts */
+    int64_t *counts;            /* (2 + k)k: predicted-class counts (metrics.class_counts
+                                   points here), label counts, then the k x k confusion
+                                   matrix (metrics.confusion points there) */
     const int64_t *label_counts; /* counts + k: labelled events per true class */
     cc_window_metrics metrics;
     cc_comparison cmp;          /* against the baseline (has_baseline = 0 without one) */
-    double *z;                  /* cc_tracked_count(): z-score against the baseline days */
+    double *z;                  /* cc_tracked_slots(m, k): z-score against the baseline days */
     double *ewma;               /* the same figures' EWMA over day windows; NULL otherwise */
 } cc_report_window;
 
@@ -41,7 +42,7 @@ typedef struct cc_report {
     int64_t baseline_from, baseline_to, baseline_events, baseline_labeled;
     int baseline_days;          /* days with events in the baseline period */
     cc_summary *baseline;       /* merged baseline summary, NULL without one */
-    cc_baseline_stat *stats;    /* cc_tracked_count(): the baseline days' mean and sd */
+    cc_baseline_stat *stats;    /* cc_tracked_slots(m, k): the baseline days' mean and sd */
     cc_grouping by;
     cc_report_window *windows;  /* cc_report_build only; none when streamed */
     int n_windows, cap_windows;
@@ -75,13 +76,43 @@ int cc_report_stream(cc_report **out, cc_store *store, const cc_report_opts *opt
  * cc_report_stream callback). */
 void cc_report_window_free(cc_report_window *w);
 
-/* Renderings; malloc'd NUL-terminated text, NULL on out of memory. */
+
+/* An alert timeline the caller evaluated over the report's range (the cli's
+ * `report --rules`): the transitions day by day, and the rules still raised
+ * after the last day. Strings are borrowed. */
+typedef struct cc_report_alert {
+    int64_t day;
+    const char *rule, *kind, *urgency, *subject, *sentence;  /* subject may be "" */
+    const char *metric;
+    double value, bound;
+    int64_t since;              /* raised_at_end: the day it was raised */
+} cc_report_alert;
+
+typedef struct cc_report_timeline {
+    const char *rules;          /* the rules file, or "default rules" */
+    const cc_report_alert *items;
+    int n;
+    const cc_report_alert *raised;  /* still raised after the last day (kind "raised") */
+    int n_raised;
+    int not_evaluated;          /* rules that could not judge the last day */
+    int64_t last_day;
+} cc_report_timeline;
+
+/* Findings about the baseline itself, stated once (not alerts): e.g. the
+ * ensemble does not beat its best member even on the baseline days. Fills
+ * up to cap sentences; returns how many. */
+int cc_report_findings(const cc_report *r, char out[][320], int cap);
+
+/* Renderings; malloc'd NUL-terminated text, NULL on out of memory. The
+ * _with forms add the alert timeline when t is not NULL. */
 char *cc_report_json(const cc_report *r);
+char *cc_report_json_with(const cc_report *r, const cc_report_timeline *t);
 
 /* Window i of the JSON contract as a cJSON tree (caller frees with
- * cJSON_Delete), for readers that look figures up by path (alerts). */
+ * cJSON_Delete). Figures by path are better read through figures.h. */
 struct cJSON *cc_report_window_json(const cc_report *r, int i);
 char *cc_report_text(const cc_report *r);
+char *cc_report_text_with(const cc_report *r, const cc_report_timeline *t);
 
 /* The JSON or text rendering of the report opts asks for, built with
  * cc_report_stream and written to out window by window: the same bytes as
@@ -103,9 +134,10 @@ typedef struct cc_html_extras {
     int n_alerts;
     double band_k;              /* band = baseline mean +- band_k sd of its days */
     const char *note;           /* a line under the title, or NULL */
+    const cc_report_timeline *timeline; /* rules evaluated over the range, or NULL */
 } cc_html_extras;
 
-#define CC_HTML_EXTRAS_INIT {NULL, 0, NULL, 0, 3.0, NULL}
+#define CC_HTML_EXTRAS_INIT {NULL, 0, NULL, 0, 3.0, NULL, NULL}
 
 /* One self-contained HTML page (inline CSS and SVG, no script); extras may
  * be NULL. Strings from the logs are escaped. */

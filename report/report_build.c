@@ -48,7 +48,7 @@ static int64_t window_key(int64_t day, cc_grouping by)
 static int load_baseline(cc_report *r, cc_store *store, cc_summary *day_sum, cc_error *err)
 {
     const cc_model *m = r->model;
-    const int nt = cc_tracked_count();
+    const int nt = cc_tracked_slots(m->m, m->k);
     int64_t *days = NULL;
     double *series = NULL;
     int n_days = 0, rc;
@@ -99,7 +99,7 @@ done:
  * baseline mean (Roberts 1959) and carried in level from window to window. */
 static int score_window(const cc_report *r, cc_report_window *w, double *level)
 {
-    const int nt = cc_tracked_count();
+    const int nt = cc_tracked_slots(r->model->m, r->model->k);
     w->z = malloc(sizeof(double) * (size_t)nt);
     if (r->by == CC_BY_DAY)
         w->ewma = malloc(sizeof(double) * (size_t)nt);
@@ -126,12 +126,14 @@ static int finish_window(cc_report *r, cc_report_window *w, cc_summary *sum, dou
     const size_t k = (size_t)L->k;
     if (cc_window_metrics_compute(&w->metrics, sum) ||
         cc_comparison_compute(&w->cmp, sum, r->baseline) ||
-        !(w->counts = malloc(2 * k * sizeof *w->counts)) || score_window(r, w, level))
+        !(w->counts = malloc((2 + k) * k * sizeof *w->counts)) || score_window(r, w, level))
         return cc_error_set(err, CC_ENOMEM, "out of memory");
     memcpy(w->counts, v + L->pred_counts, k * sizeof *w->counts);
     memcpy(w->counts + k, v + L->label_counts, k * sizeof *w->counts);
+    memcpy(w->counts + 2 * k, v + L->confusion, k * k * sizeof *w->counts);
     w->label_counts = w->counts + k;
     w->metrics.class_counts = w->counts;
+    w->metrics.confusion = w->counts + 2 * k;
     w->summary = sum;
     int rc = fn(payload, r, w);
     w->summary = NULL;
@@ -156,7 +158,7 @@ static int stream(cc_report *r, cc_store *store, const cc_report_opts *opts,
     const cc_model *m = r->model;
     day_sum = cc_summary_create(m->m, m->k);
     win_sum = cc_summary_create(m->m, m->k);
-    level = malloc(sizeof(double) * (size_t)cc_tracked_count());
+    level = malloc(sizeof(double) * (size_t)cc_tracked_slots(m->m, m->k));
     if (!day_sum || !win_sum || !level) {
         rc = cc_error_set(err, CC_ENOMEM, "out of memory");
         goto done;
@@ -166,7 +168,7 @@ static int stream(cc_report *r, cc_store *store, const cc_report_opts *opts,
         goto done;
     if (r->has_baseline && (rc = load_baseline(r, store, day_sum, err)))
         goto done;
-    for (int t = 0; t < cc_tracked_count(); t++)
+    for (int t = 0; t < cc_tracked_slots(m->m, m->k); t++)
         level[t] = r->stats ? r->stats[t].mean : NAN;
 
     int64_t from = opts->has_from ? opts->from : INT64_MIN / 4;

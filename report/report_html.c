@@ -13,6 +13,7 @@
 #include "review.h"
 #include "review_render.h"
 #include "svg.h"
+#include "figures.h"
 #include "tracked.h"
 
 static const char css[] =
@@ -163,9 +164,13 @@ static void band_of(const page *p, int t, double *lo, double *mid, double *hi)
     const cc_baseline_stat *b = &p->r->stats[t];
     if (b->n < CC_BASELINE_MIN_DAYS || !isfinite(b->sd) || b->sd <= 0)
         return;
+    /* never past what the figure can take (PSI >= 0, rates in [0, 1]) */
+    double nlo, nhi;
+    int index;
+    cc_figures_range(cc_tracked_figure(t, p->r->model->m, p->r->model->k, &index), &nlo, &nhi);
     *mid = b->mean;
-    *lo = b->mean - p->x->band_k * b->sd;
-    *hi = b->mean + p->x->band_k * b->sd;
+    *lo = fmax(b->mean - p->x->band_k * b->sd, nlo);
+    *hi = fmin(b->mean + p->x->band_k * b->sd, nhi);
 }
 
 static void masthead(page *p)
@@ -212,22 +217,58 @@ static void masthead(page *p)
           "<a href=\"#review\">review</a></nav></header>\n", f);
 }
 
-static int off_band(const page *p, int t, int i, double lo, double hi)
-{
-    const cc_report_window *w = &p->r->windows[i];
-    double v = cc_tracked_value(t, &w->metrics, &w->cmp);
-    return isfinite(v) && (v < lo || v > hi);
-}
-
+/* The verdict comes from the alert rules replayed over the page's days
+ * (the caller's rules, or the default rules); the bands only illustrate. */
 static void status_line(page *p, int n_days_off)
 {
     FILE *f = p->f;
     const cc_html_extras *x = p->x;
-    int attention = n_days_off > 0 || (x->alerts_known && x->n_alerts > 0);
+    const cc_report_timeline *t = x->timeline;
+    (void)n_days_off;
+    int attention = t ? t->n_raised > 0 : x->alerts_known && x->n_alerts > 0;
     fprintf(f, "<section id=\"status\" class=\"status %s\">\n",
             attention ? "attention" : "quiet");
-    if (x->alerts_known) {
-        fprintf(f, "<p><b>Alerts firing: %d</b></p>", x->n_alerts);
+    if (t) {
+        char d[11];
+        fprintf(f, "<p><b>Alerts raised after the last day: %d</b> (", t->n_raised);
+        esc(f, t->rules);
+        fputs(", replayed day by day over these days)</p>", f);
+        if (t->n_raised > 0) {
+            fputs("<ul>", f);
+            for (int i = 0; i < t->n_raised; i++) {
+                const cc_report_alert *a = &t->raised[i];
+                char line[512];
+                cc_format_date(a->since, d);
+                snprintf(line, sizeof line, "%s (%s): raised since %s; %s%s%s%s = %.4g, bound %.4g",
+                         a->rule, a->urgency, d, a->metric, a->subject[0] ? " [" : "",
+                         a->subject, a->subject[0] ? "]" : "", a->value, a->bound);
+                fputs("<li>", f);
+                esc(f, line);
+                fputs("</li>", f);
+            }
+            fputs("</ul>\n", f);
+        }
+        fprintf(f, "<p>%d transition(s) over the range", t->n);
+        for (int i = 0; i < t->n && i < 12; i++) {
+            cc_format_date(t->items[i].day, d);
+            fprintf(f, "%s%s %s ", i ? "; " : ": ", d, t->items[i].kind);
+            esc(f, t->items[i].rule);
+            if (t->items[i].subject[0]) {
+                fputs(" [", f);
+                esc(f, t->items[i].subject);
+                fputs("]", f);
+            }
+        }
+        if (t->n > 12)
+            fprintf(f, "; and %d more", t->n - 12);
+        fputs(".", f);
+        if (t->not_evaluated > 0)
+            fprintf(f, " %d rule(s) could not judge the last day (too few events or labels, "
+                       "or no baseline spread): not evaluated, which is not healthy.",
+                    t->not_evaluated);
+        fputs("</p>\n", f);
+    } else if (x->alerts_known) {
+        fprintf(f, "<p><b>Alerts raised: %d</b></p>", x->n_alerts);
         if (x->n_alerts > 0) {
             fputs("<ul>", f);
             for (int i = 0; i < x->n_alerts; i++) {
@@ -240,45 +281,19 @@ static void status_line(page *p, int n_days_off)
     } else {
         fputs("<p><b>Alerts:</b> not evaluated for this page.</p>\n", f);
     }
-    if (!p->r->has_baseline || p->r->n_windows == 0) {
-        fputs("<p>No baseline band to compare with.</p>\n</section>\n", f);
-        return;
-    }
-    fprintf(f, "<p><b>Outside the baseline band</b> (baseline mean &plusmn; %g sd of its "
-               "days) on at least one daily chart: %d of %d windows.</p>\n",
-            x->band_k, n_days_off, p->r->n_windows);
-    fputs("<ul>", f);
-    for (int c = 0; c < N_DAILY; c++) {
-        int t = tracked_index(daily[c].path);
-        fprintf(f, "<li>%s: ", daily[c].title);
-        double lo, mid, hi;
-        band_of(p, t, &lo, &mid, &hi);
-        if (!isfinite(lo)) {
-            fputs("no band (too few baseline days, or no spread)</li>", f);
-            continue;
-        }
-        if (p->outside[c] == 0) {
-            fputs("inside on every window</li>", f);
-            continue;
-        }
-        fprintf(f, "%d outside", p->outside[c]);
-        const char *sep = " (";
-        for (int i = 0; i < p->r->n_windows; i++) {
-            if (!off_band(p, t, i, lo, hi))
-                continue;
-            int j = i;
-            while (j + 1 < p->r->n_windows && off_band(p, t, j + 1, lo, hi))
-                j++;
-            fprintf(f, "%s%s", sep, p->dates[i]);
-            if (j > i)
-                fprintf(f, " to %s", strncmp(p->dates[i], p->dates[j], 5) == 0 ? p->dates[j] + 5
-                                                                              : p->dates[j]);
-            sep = ", ";
-            i = j;
-        }
-        fputs(")</li>", f);
-    }
-    fputs("</ul>\n</section>\n", f);
+    if (!p->r->has_baseline)
+        fputs("<p>No baseline is set: there is no band, and rules that compare with the "
+              "baseline are not evaluated.</p>\n", f);
+    else if (p->r->baseline_days < CC_BASELINE_MIN_DAYS)
+        fprintf(f, "<p>The baseline has %d day(s) with events; a band needs at least %d, so "
+                   "there is no band and sigma rules are not evaluated.</p>\n",
+                p->r->baseline_days, (int)CC_BASELINE_MIN_DAYS);
+    else
+        fprintf(f, "<p>The charts shade the baseline days' mean &plusmn; %g sd, clipped to "
+                   "what each figure can take; a point outside the shade is not an alert by "
+                   "itself.</p>\n",
+                x->band_k);
+    fputs("</section>\n", f);
 }
 
 static void daily_section(page *p, FILE *charts)

@@ -7,6 +7,7 @@
 
 #include "date.h"
 #include "report.h"
+#include "figures.h"
 #include "tracked.h"
 
 static cJSON *num(double x) { return isfinite(x) ? cJSON_CreateNumber(x) : cJSON_CreateNull(); }
@@ -145,12 +146,51 @@ static cJSON *calibration_json(const cc_comparison *c)
     return o;
 }
 
-static cJSON *tracked_json(const double *x)
+/* One entry per tracked figure: a number, or an array for member and class
+ * figures. make(t) gives slot t's value. */
+static cJSON *tracked_json(int m, int k, cJSON *(*make)(const void *ctx, int t), const void *ctx)
 {
     cJSON *o = cJSON_CreateObject();
-    for (int t = 0; t < cc_tracked_count(); t++)
-        cJSON_AddItemToObject(o, cc_tracked_path(t), num(x[t]));
+    int t = 0;
+    for (int i = 0; i < cc_figures_count(); i++) {
+        const cc_figure *f = cc_figures_get(i);
+        if (!f->tracked)
+            continue;
+        if (f->scope == CC_SCOPE_WINDOW) {
+            cJSON_AddItemToObject(o, f->path, make(ctx, t++));
+            continue;
+        }
+        cJSON *a = cJSON_AddArrayToObject(o, f->path);
+        for (int j = 0; j < cc_figures_width(f, m, k); j++)
+            cJSON_AddItemToArray(a, make(ctx, t++));
+    }
     return o;
+}
+
+static cJSON *slot_num(const void *ctx, int t) { return num(((const double *)ctx)[t]); }
+
+static cJSON *slot_stat(const void *ctx, int t)
+{
+    const cc_baseline_stat *s = (const cc_baseline_stat *)ctx + t;
+    cJSON *e = cJSON_CreateObject();
+    cJSON_AddItemToObject(e, "mean", num(s->mean));
+    cJSON_AddItemToObject(e, "sd", num(s->sd));
+    cJSON_AddNumberToObject(e, "days", s->n);
+    return e;
+}
+
+static double fig(const char *path, const cc_report_window *w, int index)
+{
+    return cc_figures_value(cc_figures_find(path), &w->metrics, &w->cmp, index);
+}
+
+/* An array of a member- or class-scoped figure. */
+static cJSON *fig_array(const char *path, const cc_report_window *w, int n)
+{
+    cJSON *a = cJSON_CreateArray();
+    for (int i = 0; i < n; i++)
+        cJSON_AddItemToArray(a, num(fig(path, w, i)));
+    return a;
 }
 
 static cJSON *window_json(const cc_report_window *w, int m, int k);
@@ -202,9 +242,7 @@ static cJSON *window_json(const cc_report_window *w, int m, int k)
 
     if (x->has_labels) {
         cJSON *a = cJSON_AddObjectToObject(o, "accuracy");
-        cJSON *mem = cJSON_AddArrayToObject(a, "members");
-        for (int i = 0; i < m; i++)
-            cJSON_AddItemToArray(mem, num(x->member_accuracy[i]));
+        cJSON_AddItemToObject(a, "members", fig_array("accuracy.members", w, m));
         cJSON_AddItemToObject(a, "ensemble", num(x->ensemble_accuracy));
         cJSON_AddItemToObject(a, "vote", num(x->vote_accuracy));
         cJSON_AddNumberToObject(a, "vote_ties", (double)x->vote_ties_labeled);
@@ -212,8 +250,15 @@ static cJSON *window_json(const cc_report_window *w, int m, int k)
         cJSON_AddNumberToObject(a, "best_member", x->best_member);
         cJSON_AddItemToObject(a, "best_member_accuracy",
                               num(x->member_accuracy[x->best_member]));
-        cJSON_AddItemToObject(a, "ensemble_gain",
-                              num(x->ensemble_accuracy - x->member_accuracy[x->best_member]));
+        cJSON_AddItemToObject(a, "ensemble_gain", num(fig("accuracy.ensemble_gain", w, 0)));
+        /* rows: true class, columns: predicted class */
+        cJSON *cm = cJSON_AddArrayToObject(a, "confusion");
+        for (int t = 0; t < k; t++) {
+            cJSON *row = cJSON_CreateArray();
+            for (int p = 0; p < k; p++)
+                cJSON_AddItemToArray(row, cJSON_CreateNumber((double)x->confusion[p * k + t]));
+            cJSON_AddItemToArray(cm, row);
+        }
         cJSON *mc = cJSON_AddObjectToObject(a, "mcnemar");
         cJSON_AddNumberToObject(mc, "ensemble_only", (double)x->mcnemar_ensemble_only);
         cJSON_AddNumberToObject(mc, "best_only", (double)x->mcnemar_best_only);
@@ -221,6 +266,14 @@ static cJSON *window_json(const cc_report_window *w, int m, int k)
     } else {
         cJSON_AddNullToObject(o, "accuracy");
     }
+
+    cJSON *bm = cJSON_AddObjectToObject(o, "by_member");
+    cJSON_AddItemToObject(bm, "disagreement", fig_array("by_member.disagreement", w, m));
+    cJSON_AddItemToObject(bm, "departure", fig_array("by_member.departure", w, m));
+    cJSON *bc = cJSON_AddObjectToObject(o, "by_class");
+    cJSON_AddItemToObject(bc, "predicted_share", fig_array("by_class.predicted_share", w, k));
+    cJSON_AddItemToObject(bc, "precision", fig_array("by_class.precision", w, k));
+    cJSON_AddItemToObject(bc, "recall", fig_array("by_class.recall", w, k));
 
     cJSON *cp = cJSON_AddArrayToObject(o, "contested_pairs");
     for (int i = 0; i < x->n_contested; i++) {
@@ -240,9 +293,39 @@ static cJSON *window_json(const cc_report_window *w, int m, int k)
     cJSON_AddItemToObject(lab, "coverage", num(c->label_coverage));
     cJSON_AddNumberToObject(lab, "delayed", (double)c->delayed_labels);
     cJSON_AddItemToObject(lab, "mean_delay_hours", num(c->mean_label_delay_hours));
-    cJSON_AddItemToObject(o, "zscores", tracked_json(w->z));
+    cJSON_AddItemToObject(o, "zscores", tracked_json(m, k, slot_num, w->z));
     if (w->ewma)
-        cJSON_AddItemToObject(o, "ewma", tracked_json(w->ewma));
+        cJSON_AddItemToObject(o, "ewma", tracked_json(m, k, slot_num, w->ewma));
+    return o;
+}
+
+static cJSON *alert_json(const cc_report_alert *a)
+{
+    cJSON *e = cJSON_CreateObject();
+    cJSON_AddItemToObject(e, "day", date(a->day));
+    cJSON_AddStringToObject(e, "rule", a->rule);
+    cJSON_AddStringToObject(e, "kind", a->kind);
+    cJSON_AddStringToObject(e, "urgency", a->urgency);
+    if (a->subject && a->subject[0])
+        cJSON_AddStringToObject(e, "subject", a->subject);
+    cJSON_AddItemToObject(e, "value", num(a->value));
+    cJSON_AddItemToObject(e, "bound", num(a->bound));
+    if (a->sentence)
+        cJSON_AddStringToObject(e, "sentence", a->sentence);
+    return e;
+}
+
+static cJSON *timeline_json(const cc_report_timeline *t)
+{
+    cJSON *o = cJSON_CreateObject();
+    cJSON_AddStringToObject(o, "rules", t->rules);
+    cJSON *a = cJSON_AddArrayToObject(o, "transitions");
+    for (int i = 0; i < t->n; i++)
+        cJSON_AddItemToArray(a, alert_json(&t->items[i]));
+    cJSON *raised = cJSON_AddArrayToObject(o, "raised_at_end");
+    for (int i = 0; i < t->n_raised; i++)
+        cJSON_AddItemToArray(raised, alert_json(&t->raised[i]));
+    cJSON_AddNumberToObject(o, "not_evaluated_at_end", t->not_evaluated);
     return o;
 }
 
@@ -261,14 +344,12 @@ static cJSON *report_root(const cc_report *r)
         cJSON_AddNumberToObject(b, "events", (double)r->baseline_events);
         cJSON_AddNumberToObject(b, "labeled", (double)r->baseline_labeled);
         cJSON_AddNumberToObject(b, "days", r->baseline_days);
-        cJSON *st = cJSON_AddObjectToObject(b, "daily");
-        for (int t = 0; t < cc_tracked_count(); t++) {
-            cJSON *e = cJSON_CreateObject();
-            cJSON_AddItemToObject(e, "mean", num(r->stats[t].mean));
-            cJSON_AddItemToObject(e, "sd", num(r->stats[t].sd));
-            cJSON_AddNumberToObject(e, "days", r->stats[t].n);
-            cJSON_AddItemToObject(st, cc_tracked_path(t), e);
-        }
+        cJSON_AddItemToObject(b, "daily", tracked_json(m->m, m->k, slot_stat, r->stats));
+        char found[4][320];
+        int nf = cc_report_findings(r, found, 4);
+        cJSON *fa = cJSON_AddArrayToObject(b, "findings");
+        for (int i = 0; i < nf; i++)
+            cJSON_AddItemToArray(fa, cJSON_CreateString(found[i]));
     } else {
         cJSON_AddNullToObject(root, "baseline");
     }
@@ -285,13 +366,17 @@ static cJSON *report_root(const cc_report *r)
     return root;
 }
 
-char *cc_report_json(const cc_report *r)
+char *cc_report_json(const cc_report *r) { return cc_report_json_with(r, NULL); }
+
+char *cc_report_json_with(const cc_report *r, const cc_report_timeline *tl)
 {
     const cc_model *m = r->model;
     cJSON *root = report_root(r);
     cJSON *ws = cJSON_GetObjectItemCaseSensitive(root, "windows");
     for (int i = 0; i < r->n_windows; i++)
         cJSON_AddItemToArray(ws, window_json(&r->windows[i], m->m, m->k));
+    if (tl)
+        cJSON_AddItemToObject(root, "alerts", timeline_json(tl));
     char *text = cJSON_Print(root);
     cJSON_Delete(root);
     return text;

@@ -8,6 +8,7 @@
 
 #include "date.h"
 #include "report.h"
+#include "figures.h"
 #include "tracked.h"
 
 static void fnum(FILE *f, int width, int prec, double x)
@@ -222,6 +223,54 @@ static void matrix(FILE *f, const char *title, const cc_pair_matrix *pm, const c
     }
 }
 
+/* Precision and recall per class, and the confusion matrix of the averaged
+ * output (rows: true class, columns: predicted). */
+static void per_class(FILE *f, const cc_model *m, const cc_report_window *w)
+{
+    const cc_figure *prec = cc_figures_find("by_class.precision");
+    const cc_figure *rec = cc_figures_find("by_class.recall");
+    fprintf(f, "\nper class on labelled events (precision: right of those predicted as the "
+               "class; recall: right of those that are)\n  %-12s %9s %9s\n", "class",
+            "precision", "recall");
+    for (int c = 0; c < m->k; c++) {
+        fprintf(f, "  %-12s", m->classes[c]);
+        fnum(f, 9, 4, cc_figures_value(prec, &w->metrics, &w->cmp, c));
+        fnum(f, 9, 4, cc_figures_value(rec, &w->metrics, &w->cmp, c));
+        fputc('\n', f);
+    }
+    fprintf(f, "\nconfusion matrix (rows: true class, columns: predicted)\n  %-12s", "");
+    for (int c = 0; c < m->k; c++)
+        fprintf(f, " %10.10s", m->classes[c]);
+    fputc('\n', f);
+    for (int t = 0; t < m->k; t++) {
+        fprintf(f, "  %-12s", m->classes[t]);
+        for (int p = 0; p < m->k; p++)
+            fprintf(f, " %10lld", (long long)w->metrics.confusion[p * m->k + t]);
+        fputc('\n', f);
+    }
+}
+
+static void timeline(FILE *f, const cc_report_timeline *t)
+{
+    char d[11];
+    fprintf(f, "\nalerts (%s, evaluated day by day over the range)\n", t->rules);
+    if (t->n == 0)
+        fprintf(f, "  no rule was raised or cleared\n");
+    for (int i = 0; i < t->n; i++) {
+        const cc_report_alert *a = &t->items[i];
+        cc_format_date(a->day, d);
+        fprintf(f, "  %s %-8s %-6s %s\n", d, a->kind, a->urgency,
+                a->sentence ? a->sentence : a->rule);
+    }
+    cc_format_date(t->last_day, d);
+    fprintf(f, "after %s: %d rule(s) raised", d, t->n_raised);
+    for (int i = 0; i < t->n_raised; i++)
+        fprintf(f, "%s%s%s%s%s", i ? ", " : ": ", t->raised[i].rule,
+                t->raised[i].subject[0] ? " [" : "", t->raised[i].subject,
+                t->raised[i].subject[0] ? "]" : "");
+    fprintf(f, "; %d not evaluated on that day\n", t->not_evaluated);
+}
+
 static void detail(FILE *f, const cc_report *r, const cc_report_window *w)
 {
     const cc_model *m = r->model;
@@ -257,6 +306,8 @@ static void detail(FILE *f, const cc_report *r, const cc_report_window *w)
                 x->nonpairwise.interrater_kappa, x->nonpairwise.difficulty,
                 x->nonpairwise.generalized_diversity);
     }
+    if (x->has_labels)
+        per_class(f, m, w);
     shift_detail(f, r, &w->cmp);
     calibration_detail(f, m, &w->cmp);
     if (x->n_contested > 0) {
@@ -277,12 +328,18 @@ static void head(FILE *f, const cc_report *r)
         cc_format_date(r->baseline_to, b);
         fprintf(f, "baseline %s..%s: %d days, %lld events, %lld labelled\n", a, b,
                 r->baseline_days, (long long)r->baseline_events, (long long)r->baseline_labeled);
+        char found[4][320];
+        int nf = cc_report_findings(r, found, 4);
+        for (int i = 0; i < nf; i++)
+            fprintf(f, "finding: %s\n", found[i]);
     } else {
         fprintf(f, "no baseline set\n");
     }
 }
 
-char *cc_report_text(const cc_report *r)
+char *cc_report_text(const cc_report *r) { return cc_report_text_with(r, NULL); }
+
+char *cc_report_text_with(const cc_report *r, const cc_report_timeline *t)
 {
     char *buf = NULL;
     size_t len = 0;
@@ -311,6 +368,8 @@ char *cc_report_text(const cc_report *r)
         if (r->n_windows == 1)
             detail(f, r, &r->windows[0]);
     }
+    if (t)
+        timeline(f, t);
     if (fclose(f) != 0) {
         free(buf);
         return NULL;

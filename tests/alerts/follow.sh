@@ -37,9 +37,9 @@ python3 "$SRC/gen_days.py" "$T/d1.jsonl" --start 2026-03-01 --pattern agree --pr
 python3 "$SRC/gen_days.py" "$T/d2.jsonl" --start 2026-03-02 --pattern split --prefix b
 python3 "$SRC/gen_days.py" "$T/o1.jsonl" --start 2026-03-02 --pattern split --prefix c --per-day 5
 python3 "$SRC/gen_days.py" "$T/o2.jsonl" --start 2026-03-02 --pattern split --prefix d --per-day 5
-cat > "$T/rules.json" <<'JSON'
+cat > "$T/rules.jsonc" <<'JSON'
 {"rules": [{"name": "split", "metric": "diversity.disagreement.mean", "above": 0.5,
-            "min_events": 10, "severity": "critical"}]}
+            "min_events": 10, "urgency": "high"}]}
 JSON
 DB=$T/f.db
 E=$T/events.jsonl
@@ -48,7 +48,7 @@ E=$T/events.jsonl
 # The rule fires on that day's first 10 events, which the first chunks store
 # well before (the count 50 below is reached first on any machine).
 NOW=$(( $(date -u -d 2026-03-03 +%s) - 20 ))
-CONCORD_NOW=$NOW timeout 900 "$C" follow --db "$DB" --model m --rules "$T/rules.json" \
+CONCORD_NOW=$NOW timeout 900 "$C" follow --db "$DB" --model m --rules "$T/rules.jsonc" \
   --webhook "file:$T/sink.jsonl" --interval 100 --grace 0 --chunk 7 "$E" "$T/other.jsonl" \
   > "$T/out" 2> "$T/err" &
 FPID=$!
@@ -78,7 +78,7 @@ stop_follow TERM
 [ "$FRC" -eq 0 ] || fail "follow exit $FRC after SIGTERM: $(cat "$T/err")"
 grep -q 'concord follow: stopped; 80 lines, 80 events stored, 0 duplicates, 0 rejected' "$T/err" ||
   fail "summary: $(tail -1 "$T/err")"
-[ -f "$T/sink.jsonl" ] && [ "$(wc -l < "$T/sink.jsonl")" -eq 1 ] && grep -q '"dedupe_key":"m/split/fired/2026-03-02"' "$T/sink.jsonl" ||
+[ -f "$T/sink.jsonl" ] && [ "$(wc -l < "$T/sink.jsonl")" -eq 1 ] && grep -q '"notice_id":"m/split/raised/2026-03-02"' "$T/sink.jsonl" ||
   fail "sink: $(cat "$T/sink.jsonl")"
 [ "$(sqlite3 "$DB" "SELECT count(DISTINCT id) FROM events")" = 80 ] || fail "ids not unique"
 echo "follow: pieces, rotation, truncation, late file, day-close check ok"

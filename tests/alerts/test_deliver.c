@@ -2,7 +2,7 @@
  * success, a failing receiver's other rows wait for the next run, backoff
  * grows and stays within its jitter band, dead letters after max_attempts,
  * re-queued dead letters are sent once, sent rows are never sent again, a
- * duplicate dedupe key queues nothing. */
+ * duplicate notice id queues nothing. */
 #include <math.h>
 #include <sqlite3.h>
 #include <stdlib.h>
@@ -20,7 +20,7 @@ typedef struct fake {
 static int fake_send(void *ctx, const cc_webhook_request *req, cc_webhook_response *res)
 {
     fake *f = ctx;
-    int n = atoi(strrchr(req->dedupe_key, '-') + 1);
+    int n = atoi(strrchr(req->notice_id, '-') + 1);
     int is_a = strcmp(req->url, "http://a.invalid/") == 0;
     (is_a ? f->calls_a : f->calls_b)[n]++;
     if (is_a && f->fail_a) {
@@ -82,7 +82,7 @@ int main(void)
         T_CHECK(cc_state_queue(s, &n, recv, 2, 10, 100, &queued, &err) == 0 && queued,
                 "queue %d", i);
         T_CHECK(cc_state_queue(s, &n, recv, 2, 10, 100, &queued, &err) == 0 && !queued,
-                "the same dedupe key again queues nothing");
+                "the same notice id again queues nothing");
     }
     T_CHECK(one(s, "SELECT count(*) FROM outbox") == 4, "2 notifications x 2 receivers");
 

@@ -7,7 +7,7 @@
 #include "paths.h"
 #include "rule.h"
 #include "tcheck.h"
-#include "tracked.h"
+#include "figures.h"
 
 static void expect_error(const char *text, const char *part1, const char *part2)
 {
@@ -30,21 +30,36 @@ int main(void)
 
     /* the default file parses and holds the documented rules */
     T_CHECK(cc_rules_parse(&rs, cc_rules_default_text(), "default", &err) == 0, "%s", err.msg);
-    const char *names[] = {"diversity-collapse", "disagreement-spike", "class-mix-drift",
-                           "score-drift",        "label-shift",        "accuracy-drop",
-                           "ensemble-gain-lost", "calibration-drift",  "stale-labels",
-                           "no-events"};
-    T_CHECK(rs && cc_rules_count(rs) == 10, "default rule count");
-    for (int i = 0; rs && i < 10 && i < cc_rules_count(rs); i++)
+    const char *names[] = {"diversity-collapse", "mutual-information-rise", "member-departs",
+                           "class-mix-drift",    "score-drift",        "label-shift",
+                           "accuracy-drop",      "ensemble-gain-lost", "calibration-drift",
+                           "stale-labels",       "no-events"};
+    T_CHECK(rs && cc_rules_count(rs) == 11, "default rule count");
+    for (int i = 0; rs && i < 11 && i < cc_rules_count(rs); i++)
         T_CHECK(strcmp(cc_rules_get(rs, i)->name, names[i]) == 0, "default rule %d", i);
     if (rs) {
         const cc_rule *r = cc_rules_get(rs, 0);
         T_CHECK(r->cond == CC_COND_SIGMAS_BELOW && r->threshold == 4 &&
-                    r->min_relative_shift == 0.25 && r->fire_after == 1 && r->clear_after == 2 &&
-                    r->severity == CC_SEV_CRITICAL && r->remind_after_days == 3,
+                    r->min_relative_shift == 0.25 && r->raise_after == 1 && r->clear_after == 2 &&
+                    r->urgency == CC_URGENCY_HIGH && r->remind_after_days == 3,
                 "diversity-collapse fields");
         T_CHECK(cc_rules_backoff_s(rs) == 60 && cc_rules_max_backoff_s(rs) == 21600,
                 "delivery defaults");
+        const cc_rule *md = cc_rules_get(rs, 2);
+        T_CHECK(md->each && !md->subject && md->cond == CC_COND_SIGMAS_ABOVE,
+                "member-departs watches each member against its own baseline");
+        /* every default rule is baseline-relative except the documented fixed bounds */
+        for (int i = 0; i < cc_rules_count(rs); i++) {
+            const cc_rule *x = cc_rules_get(rs, i);
+            int fixed = x->cond == CC_COND_ABOVE || x->cond == CC_COND_BELOW;
+            int allowed = !strcmp(x->name, "score-drift") || !strcmp(x->name, "stale-labels") ||
+                          !strcmp(x->name, "no-events");
+            T_CHECK(fixed == allowed, "rule %s: fixed bound only where documented", x->name);
+            T_CHECK(fixed || x->min_shift > 0 || x->min_relative_shift > 0,
+                    "rule %s: a minimum absolute change", x->name);
+            T_CHECK(x->min_events == CC_RULE_MIN_AUTO && x->min_labels == CC_RULE_MIN_AUTO,
+                    "rule %s: minimum counts scale with traffic", x->name);
+        }
         cc_receiver rc;
         T_CHECK(cc_rules_receiver_for(rs, "http://127.0.0.1:9/x", &rc, &err) == 0, "receiver");
         T_CHECK(rc.secret_env && strcmp(rc.secret_env, "CONCORD_WEBHOOK_SECRET") == 0 &&
@@ -62,15 +77,16 @@ int main(void)
                           "{\"name\": \"b\", \"metric\": \"events\", \"below\": 1, "
                           "\"enabled\": false},\n"
                           "{\"name\": \"c\", \"metric\": \"drift.class_mix.js\", \"above\": 0.1,"
-                          " \"description\": \"has // inside a string\", \"models\": [\"m1\"]}]}";
+                          " \"about\": \"has // inside a string\", \"models\": [\"m1\"]}]}";
     rs = NULL;
     T_CHECK(cc_rules_parse(&rs, minimal, "m", &err) == 0, "%s", err.msg);
     T_CHECK(rs && cc_rules_count(rs) == 2, "disabled rule left out");
     if (rs && cc_rules_count(rs) == 2) {
         const cc_rule *a = cc_rules_get(rs, 0), *c = cc_rules_get(rs, 1);
-        T_CHECK(a->min_events == 100 && a->min_labels == 0 && a->fire_after == 1 &&
+        T_CHECK(a->min_events == CC_RULE_MIN_AUTO && a->min_labels == CC_RULE_MIN_AUTO &&
+                    a->raise_after == 1 &&
                     a->clear_after == 1 && a->remind_after_days == 0 && a->lag_days == 0 &&
-                    a->severity == CC_SEV_WARNING && strcmp(a->action, "review") == 0,
+                    a->urgency == CC_URGENCY_MEDIUM && strcmp(a->action, "review") == 0,
                 "rule defaults");
         T_CHECK(strcmp(c->description, "has // inside a string") == 0, "string kept whole");
         T_CHECK(cc_rules_applies(c, "m1") && !cc_rules_applies(c, "m2") &&
@@ -104,14 +120,14 @@ int main(void)
     expect_error(RULE("{\"name\": \"neg\", \"metric\": \"accuracy.ensemble\", "
                       "\"sigmas_below\": -3}"),
                  "rule 'neg': key 'sigmas_below'", "above 0");
-    expect_error(RULE("{\"name\": \"f\", \"metric\": \"events\", \"below\": 1, \"for\": 0}"),
-                 "rule 'f': key 'for'", "whole number from 1");
+    expect_error(RULE("{\"name\": \"f\", \"metric\": \"events\", \"below\": 1, \"days\": 0}"),
+                 "rule 'f': key 'days'", "whole number from 1");
     expect_error(RULE("{\"name\": \"f\", \"metric\": \"events\", \"below\": 1, "
-                      "\"for\": 1.5}"),
-                 "rule 'f': key 'for'", "whole number");
+                      "\"days\": 1.5}"),
+                 "rule 'f': key 'days'", "whole number");
     expect_error(RULE("{\"name\": \"sev\", \"metric\": \"events\", \"below\": 1, "
-                      "\"severity\": \"high\"}"),
-                 "rule 'sev': key 'severity'", "critical");
+                      "\"urgency\": \"critical\"}"),
+                 "rule 'sev': key 'urgency'", "\"high\"");
     expect_error(RULE("{\"name\": \"d\", \"metric\": \"events\", \"below\": 1},"
                       "{\"name\": \"d\", \"metric\": \"labeled\", \"below\": 1}"),
                  "rule 'd': key 'name'", "unique");
@@ -135,13 +151,34 @@ int main(void)
                  "key 'delivery.max_backoff_seconds'", "below backoff_seconds");
     expect_error("{\"version\": 2, \"rules\": []}", "key 'version'", "version 1");
 
-    /* every tracked figure is a path, with sigma conditions allowed */
-    for (int t = 0; t < cc_tracked_count(); t++) {
+    /* every registered figure is a path; tracked ones allow sigma conditions */
+    for (int i = 0; i < cc_figures_count(); i++) {
         cc_path_info pi;
-        T_CHECK(cc_paths_lookup(cc_tracked_path(t), &pi) == 0 && pi.kind == CC_PATH_TRACKED &&
-                    pi.tracked == t,
-                "tracked path %s", cc_tracked_path(t));
+        const cc_figure *f = cc_figures_get(i);
+        T_CHECK(cc_paths_lookup(f->path, &pi) == 0 && pi.fig == f &&
+                    (pi.kind == CC_PATH_TRACKED) == (f->tracked != 0) && pi.scope == f->scope,
+                "figure path %s", f->path);
     }
+    /* scopes: a member rule on a member figure, by name or each */
+    rs = NULL;
+    T_CHECK(cc_rules_parse(&rs, "{\"rules\": [{\"name\": \"m\", \"metric\": "
+                                "\"accuracy.members\", \"member\": \"tree\", \"below\": 0.5},"
+                                "{\"name\": \"c\", \"metric\": \"by_class.recall\", "
+                                "\"below\": 0.5}]}",
+                           "scope", &err) == 0,
+            "%s", err.msg);
+    if (rs) {
+        T_CHECK(!cc_rules_get(rs, 0)->each && strcmp(cc_rules_get(rs, 0)->subject, "tree") == 0,
+                "one member by name");
+        T_CHECK(cc_rules_get(rs, 1)->each, "a class figure without a class watches each");
+    }
+    cc_rules_free(rs);
+    expect_error("{\"rules\": [{\"name\": \"w\", \"metric\": \"events\", \"member\": "
+                 "\"a\", \"below\": 1}]}",
+                 "rule 'w': key 'member'", "not a per-member figure");
+    expect_error("{\"rules\": [{\"name\": \"f\", \"metric\": \"events\", \"below\": 1, "
+                 "\"for\": 2}]}",
+                 "rule 'f': key 'for'", "unknown key");
     cc_path_info pi;
     T_CHECK(cc_paths_lookup("drift.per_class.min_p_bonferroni", &pi) == 0 &&
                 pi.kind == CC_PATH_REPORT,

@@ -1,6 +1,8 @@
 /* test_webhook.c — HMAC-SHA256 against the published test vectors of
- * RFC 4231 (cases 1, 2, 3 and 6), the signed string "<timestamp>.<body>",
- * the file: sink, and a refused connection reported as a failure. */
+ * RFC 4231 (cases 1, 2, 3 and 6), the signature of the Standard Webhooks
+ * specification 1.0 against its published example, secrets in base64 with
+ * and without the whsec_ prefix, the file: sink, and a refused connection
+ * reported as a failure. */
 #include <stdlib.h>
 #include <unistd.h>
 
@@ -30,22 +32,48 @@ int main(void)
     T_CHECK(strcmp(hex, "60e431591ee0b67f0d8a26aacbf5b77f8e0bc6213728c5140546040f0ee37f54") == 0,
             "RFC 4231 case 6 (key longer than a block): %s", hex);
 
-    /* the signature covers "<timestamp>.<body>" */
-    char joined[64], direct[65];
+    /* Standard Webhooks 1.0, the specification's example: HMAC-SHA256 of
+     * "<id>.<timestamp>.<body>" with the base64-decoded secret, "v1," + base64 */
+    char sig[48];
+    const char *sw_body = "{\"test\": 2432232314}";
+    T_CHECK(cc_webhook_sign("whsec_MfKQ9r8GKYqrTwjUPD8ILPZIo2LaLaSw", "msg_p5jXN8AQM9LWM0D4loKWxJek",
+                            1614265330, sw_body, strlen(sw_body), sig) == 0 &&
+                strcmp(sig, "v1,g0hM9SsE+OTPJTGt/tmIKtSyZlE3uFJELVlNIOLJ1OE=") == 0,
+            "Standard Webhooks 1.0 example signature: %s", sig);
+    T_CHECK(cc_webhook_sign("MfKQ9r8GKYqrTwjUPD8ILPZIo2LaLaSw", "msg_p5jXN8AQM9LWM0D4loKWxJek",
+                            1614265330, sw_body, strlen(sw_body), sig) == 0 &&
+                strcmp(sig, "v1,g0hM9SsE+OTPJTGt/tmIKtSyZlE3uFJELVlNIOLJ1OE=") == 0,
+            "the whsec_ prefix is optional: %s", sig);
+    /* the signature is the HMAC of id, '.', timestamp, '.', body */
+    unsigned char key[CC_WEBHOOK_SECRET_MAX];
+    T_CHECK(cc_webhook_secret_decode("whsec_MfKQ9r8GKYqrTwjUPD8ILPZIo2LaLaSw", key) == 24,
+            "32 base64 characters are 24 key bytes");
+    T_CHECK(cc_webhook_secret_decode("aGk=", key) == 2 && key[0] == 'h' && key[1] == 'i',
+            "padding: base64 'aGk=' is 'hi' (RFC 4648)");
+    T_CHECK(cc_webhook_secret_decode("not base64!", key) == -1 &&
+                cc_webhook_secret_decode("abc", key) == -1 && cc_webhook_secret_decode("", key) == -1,
+            "a secret that is not base64 is refused");
+    T_CHECK(cc_webhook_sign("not base64!", "i", 1, "b", 1, sig) == -1, "no signature without a key");
+    /* python3: base64.b64encode(hmac.new(b"hi", b"n1.1700000000.{\"a\":1}",
+     * hashlib.sha256).digest()) */
     const char *body = "{\"a\":1}";
-    snprintf(joined, sizeof joined, "1700000000.%s", body);
-    cc_webhook_hmac_hex("k", 1, joined, strlen(joined), direct);
-    cc_webhook_sign("k", 1, 1700000000, body, strlen(body), hex);
-    T_CHECK(strcmp(hex, direct) == 0, "sign = HMAC of timestamp, '.', body");
-    T_CHECK(strcmp(hex, "1b6ad1bc9bf48c52ce01939866d5877c6cc4e87ddad27e16673cb8c4964394a3") == 0,
-            "sign: python3 hmac.new(b'k', b'1700000000.{\"a\":1}', sha256): %s", hex);
+    T_CHECK(cc_webhook_sign("aGk=", "n1", 1700000000, body, strlen(body), sig) == 0,
+            "sign with a short key");
+    char joined[64], hex_direct[65];
+    snprintf(joined, sizeof joined, "n1.1700000000.%s", body);
+    cc_webhook_hmac_hex("hi", 2, joined, strlen(joined), hex_direct);
+    T_CHECK(strcmp(sig, "v1,ttSUh8BUaflSMKs8k9yD376oMAwBHMFxo+Le/sVKa6I=") == 0, "python3 hmac: %s",
+            sig);
+    T_CHECK(strcmp(hex_direct, "b6d49487c05469f95230ab3c93dc83dfbea8300c011cc171a3e2defec54a6ba2") ==
+                0,
+            "the same HMAC in hex (python3 hmac.hexdigest): %s", hex_direct);
 
     /* the file sink appends one body per line */
     char dir[] = "/tmp/cc-webhook-XXXXXX", path[128], url[160];
     T_CHECK(mkdtemp(dir) != NULL, "mkdtemp");
     snprintf(path, sizeof path, "%s/sink.jsonl", dir);
     snprintf(url, sizeof url, "file:%s", path);
-    cc_webhook_request req = {url, body, strlen(body), NULL, 0, 1, "k1", "fired", 1000, 1000};
+    cc_webhook_request req = {url, body, strlen(body), NULL, 1, "k1", 1000, 1000};
     cc_webhook_response res;
     T_CHECK(cc_webhook_post(NULL, &req, &res) == 0 && res.status == 200, "file sink");
     T_CHECK(cc_webhook_post(NULL, &req, &res) == 0, "file sink, second line");

@@ -1,11 +1,12 @@
 #!/usr/bin/env bash
 # webhook_delivery.sh — notifications to a real HTTP receiver on loopback
-# (receiver.py, python3's http.server): body schema; HMAC signature checked
-# with python3's hmac module and with `openssl dgst`; receiver down during
+# (receiver.py, python3's http.server): body schema; the Standard Webhooks
+# 1.0 signature checked with python3's hmac and base64 modules (first on the
+# specification's own example) and with `openssl dgst`; receiver down during
 # the check, then up: delivered exactly once; HTTP 302/500 retried with
 # backoff, then a dead letter, re-queued and delivered; a receiver that
 # never answers costs one timeout per run and loses nothing; a crash between
-# send and mark repeats the send with the same dedupe_key; 100 transitions
+# send and mark repeats the send with the same webhook-id; 100 transitions
 # give 100 notifications with 100 distinct keys; an HTTPS receiver with a
 # certificate the system does not trust is refused.
 # Usage: webhook_delivery.sh CONCORD TESTDIR
@@ -21,7 +22,8 @@ cleanup() {
 trap cleanup EXIT
 fails=0
 fail() { echo "FAIL: $*" >&2; fails=$((fails + 1)); }
-export CC_TEST_SECRET='s3cret with spaces & symbols'
+# a Standard Webhooks secret: base64 key bytes after "whsec_" (invented key)
+export CC_TEST_SECRET='whsec_c2VjcmV0IGtleSBvZiB0aGUgdGVzdHMhIQ=='
 
 start_receiver() { # MODE LOG [PORT] -> RPID, PORT
   rm -f "$T/port"
@@ -46,7 +48,7 @@ rules() { # FILE URL TIMEOUT N_RULES
 import json, sys
 path, url, timeout, n = sys.argv[1], sys.argv[2], float(sys.argv[3]), int(sys.argv[4])
 rules = [{"name": "split" if n == 1 else f"r{i:02d}", "metric": "diversity.disagreement.mean",
-          "above": 0.5, "min_events": 10, "severity": "critical", "action": "review_members"}
+          "above": 0.5, "min_events": 10, "urgency": "high", "action": "review_members"}
          for i in range(n)]
 json.dump({"webhooks": [{"url": url}],
            "delivery": {"secret_env": "CC_TEST_SECRET", "connect_timeout_seconds": 1,
@@ -70,62 +72,78 @@ rules "$T/sig.json" "http://127.0.0.1:$PORT/hook" 2 1
 run "$C" check --db "$T/sig.db" --rules "$T/sig.json" --day 2026-03-01
 [ $RC -eq 0 ] || fail "sig: day 1 exit $RC, expected 0 (healthy)"
 run "$C" check --db "$T/sig.db" --rules "$T/sig.json" --day 2026-03-02 --format json
-[ $RC -eq 10 ] || fail "sig: day 2 exit $RC, expected 10 (fired)"
+[ $RC -eq 10 ] || fail "sig: day 2 exit $RC, expected 10 (raised)"
 python3 - "$T/out" <<'PY' || fail "sig: check --format json"
 import json, sys
 o = json.load(open(sys.argv[1]))
 r = o["results"][0]
-assert o["exit_code"] == 10 and o["counts"]["fired"] == 1, o["counts"]
+assert o["exit_code"] == 10 and o["counts"]["raised"] == 1, o["counts"]
 assert r["rule"] == "split" and r["metric"] == "diversity.disagreement.mean"
-assert r["value"] == 1.0 and r["bound"] == 0.5 and r["state"] == "firing" and r["outcome"] == "fired"
-assert r["dedupe_key"] == "m/split/fired/2026-03-02"
+assert r["value"] == 1.0 and r["bound"] == 0.5 and r["state"] == "raised" and r["outcome"] == "raised"
+assert r["notice_id"] == "m/split/raised/2026-03-02"
 assert o["delivery"]["sent"] == 1, o["delivery"]
 PY
 run "$C" check --db "$T/sig.db" --rules "$T/sig.json" --day 2026-03-02
-[ $RC -eq 11 ] || fail "sig: day 2 again exit $RC, expected 11 (firing, nothing new)"
+[ $RC -eq 11 ] || fail "sig: day 2 again exit $RC, expected 11 (still raised, nothing new)"
 grep -q 'already checked' "$T/out" || fail "sig: re-check not reported as already checked"
 run "$C" check --db "$T/sig.db" --rules "$T/sig.json" --day 2026-03-03
 [ $RC -eq 11 ] || fail "sig: day 3 exit $RC, expected 11"
 run "$C" check --db "$T/sig.db" --rules "$T/sig.json" --day 2026-03-04
-[ $RC -eq 0 ] || fail "sig: day 4 exit $RC, expected 0 (resolved)"
-grep -q 'RESOLVED' "$T/out" || fail "sig: day 4 not resolved: $(cat "$T/out")"
+[ $RC -eq 0 ] || fail "sig: day 4 exit $RC, expected 0 (cleared)"
+grep -q 'CLEARED' "$T/out" || fail "sig: day 4 not cleared: $(cat "$T/out")"
 stop_receiver
-[ "$(lines "$T/sig.log")" = 2 ] || fail "sig: $(lines "$T/sig.log") posts, expected 2 (fired, resolved)"
+[ "$(lines "$T/sig.log")" = 2 ] || fail "sig: $(lines "$T/sig.log") posts, expected 2 (raised, cleared)"
 python3 - "$T/sig.log" "$T" <<'PY' || fail "sig: body schema or signature"
-import hashlib, hmac, json, os, sys
-secret = os.environ["CC_TEST_SECRET"].encode()
+import base64, hashlib, hmac, json, os, sys
+def sign(secret, msg_id, ts, body):
+    # Standard Webhooks 1.0: HMAC-SHA256 with the base64-decoded secret over
+    # "<id>.<timestamp>.<body>", sent as "v1,<base64>"
+    key = base64.b64decode(secret.removeprefix("whsec_"))
+    mac = hmac.new(key, f"{msg_id}.{ts}.".encode() + body, hashlib.sha256).digest()
+    return "v1," + base64.b64encode(mac).decode()
+# the specification's own example
+assert sign("whsec_MfKQ9r8GKYqrTwjUPD8ILPZIo2LaLaSw", "msg_p5jXN8AQM9LWM0D4loKWxJek", 1614265330,
+            b'{"test": 2432232314}') == "v1,g0hM9SsE+OTPJTGt/tmIKtSyZlE3uFJELVlNIOLJ1OE="
+secret = os.environ["CC_TEST_SECRET"]
 posts = [json.loads(l) for l in open(sys.argv[1])]
 kinds = []
 for i, p in enumerate(posts):
     h, raw = p["headers"], p["body"]
-    ts = h["x-concord-timestamp"]
-    want = hmac.new(secret, ts.encode() + b"." + raw.encode(), hashlib.sha256).hexdigest()
-    assert h["x-concord-signature"] == "sha256=" + want, (h["x-concord-signature"], want)
+    ts, msg_id = h["webhook-timestamp"], h["webhook-id"]
+    want = sign(secret, msg_id, ts, raw.encode())
+    assert hmac.compare_digest(h["webhook-signature"], want), (h["webhook-signature"], want)
     assert h["content-type"] == "application/json"
+    assert not any(k.startswith("x-concord") for k in h), h
     b = json.loads(raw)
-    assert h["x-concord-dedupe-key"] == b["dedupe_key"] and h["x-concord-event"] == b["kind"]
-    for key, typ in [("schema", str), ("kind", str), ("dedupe_key", str), ("incident_key", str),
-                     ("rule", str), ("severity", str), ("model", str), ("window", dict),
+    assert msg_id == b["notice_id"]
+    for key, typ in [("schema", str), ("kind", str), ("notice_id", str), ("episode", str),
+                     ("rule", str), ("urgency", str), ("model", str), ("window", dict),
                      ("metric", str), ("value", (int, float)), ("condition", dict), ("state", dict),
-                     ("summary", str), ("evidence", list), ("action", dict),
-                     ("created_at", str)]:
+                     ("sentence", str), ("evidence", list), ("action", dict),
+                     ("created_at", str), ("sender", str)]:
         assert isinstance(b[key], typ), (key, b.get(key))
-    assert b["schema"] == "concord.alert/1" and b["model"] == "m" and b["severity"] == "critical"
+    for old in ("dedupe_key", "incident_key", "summary", "severity", "source"):
+        assert old not in b, old
+    assert b["schema"] == "concord.notice/2" and b["model"] == "m" and b["urgency"] == "high"
     assert b["condition"]["type"] == "above" and b["condition"]["bound"] == 0.5
+    assert b["condition"]["days"] == 1 and b["condition"]["clear_days"] == 1
     assert b["window"]["events"] == 40 and b["window"]["from"] == b["window"]["to"]
     assert "baseline" in b and b["baseline"] is None   # no baseline set, fixed bound
-    assert len(b["summary"]) > 20 and b["action"]["code"] and b["action"]["text"]
-    assert any(e["kind"] == "contested_pair" for e in b["evidence"]) or b["kind"] == "resolved"
+    assert len(b["sentence"]) > 20 and b["action"]["code"] and b["action"]["text"]
+    assert any(e["kind"] == "contested_pair" for e in b["evidence"]) or b["kind"] == "cleared"
     assert all("text" in e and "kind" in e for e in b["evidence"])
-    kinds.append((b["kind"], b["dedupe_key"], b["incident_key"]))
+    kinds.append((b["kind"], b["notice_id"], b["episode"]))
     open(os.path.join(sys.argv[2], f"body{i}"), "w").write(raw)
     open(os.path.join(sys.argv[2], f"ts{i}"), "w").write(ts)
-assert kinds == [("fired", "m/split/fired/2026-03-02", "m/split/2026-03-02"),
-                 ("resolved", "m/split/resolved/2026-03-04", "m/split/2026-03-02")], kinds
+    open(os.path.join(sys.argv[2], f"id{i}"), "w").write(msg_id)
+assert kinds == [("raised", "m/split/raised/2026-03-02", "m/split/2026-03-02"),
+                 ("cleared", "m/split/cleared/2026-03-04", "m/split/2026-03-02")], kinds
 PY
 # the same signature with openssl, as a receiver in shell would compute it
-sig=$( { printf '%s.' "$(cat "$T/ts0")"; cat "$T/body0"; } | openssl dgst -sha256 -hmac "$CC_TEST_SECRET" | sed 's/^.*= //')
-head -1 "$T/sig.log" | grep -q "sha256=$sig" || fail "sig: openssl HMAC $sig differs from the header"
+key_hex=$(printf '%s' "${CC_TEST_SECRET#whsec_}" | base64 -d | od -An -tx1 | tr -d ' \n')
+sig=$( { printf '%s.%s.' "$(cat "$T/id0")" "$(cat "$T/ts0")"; cat "$T/body0"; } |
+  openssl dgst -sha256 -mac HMAC -macopt "hexkey:$key_hex" -binary | base64)
+head -1 "$T/sig.log" | grep -qF "\"webhook-signature\": \"v1,$sig\"" || fail "sig: openssl HMAC $sig differs from the header"
 echo "webhook_delivery: schema and signature ok"
 
 # --- 2. receiver down during the check, then up: exactly once ------------
@@ -133,17 +151,17 @@ fresh down
 P=$(free_port)
 rules "$T/down.json" "http://127.0.0.1:$P/hook" 2 1
 run "$C" check --db "$T/down.db" --rules "$T/down.json" --day 2026-03-02
-[ $RC -eq 10 ] || fail "down: exit $RC, expected 10 (the alert fired; delivery is separate)"
+[ $RC -eq 10 ] || fail "down: exit $RC, expected 10 (the alert was raised; delivery is separate)"
 grep -q 'failed (attempt 1)' "$T/err" || fail "down: no delivery failure reported: $(cat "$T/err")"
 "$C" alerts --db "$T/down.db" --format json > "$T/alerts.json"
 python3 - "$T/alerts.json" <<'PY' || fail "down: alerts listing"
 import json, sys
 o = json.load(open(sys.argv[1]))
 n = o["notifications"]
-assert len(n) == 1 and n[0]["dedupe_key"] == "m/split/fired/2026-03-02"
+assert len(n) == 1 and n[0]["notice_id"] == "m/split/raised/2026-03-02"
 d = n[0]["deliveries"][0]
 assert d["status"] == "pending" and d["attempts"] == 1 and d["last_error"], d
-assert [s["state"] for s in o["rule_states"]] == ["firing"]
+assert [s["state"] for s in o["rule_states"]] == ["raised"]
 PY
 start_receiver ok "$T/down.log" "$P"
 run env CONCORD_NOW=$NOW "$C" deliver --db "$T/down.db"
@@ -155,7 +173,7 @@ run "$C" check --db "$T/down.db" --rules "$T/down.json" --day 2026-03-03
 [ $RC -eq 11 ] || fail "down: day 3 exit $RC, expected 11"
 stop_receiver
 [ "$(lines "$T/down.log")" = 1 ] || fail "down: $(lines "$T/down.log") posts, expected exactly 1"
-grep -q '"x-concord-dedupe-key": "m/split/fired/2026-03-02"' "$T/down.log" || fail "down: wrong key"
+grep -q '"webhook-id": "m/split/raised/2026-03-02"' "$T/down.log" || fail "down: wrong key"
 echo "webhook_delivery: receiver down then up: delivered once"
 
 # --- 3. HTTP 302 and 500: retried with backoff, dead letter, re-queued ----
@@ -237,7 +255,7 @@ run env CONCORD_NOW=$((NOW + 10)) "$C" deliver --db "$T/crash.db"
 run env CONCORD_NOW=$((NOW + 500)) "$C" deliver --db "$T/crash.db"
 stop_receiver
 [ "$(lines "$T/crash.log")" = 2 ] || fail "crash: $(lines "$T/crash.log") posts, expected 2 (one repeat)"
-[ "$(grep -c '"x-concord-dedupe-key": "m/split/fired/2026-03-02"' "$T/crash.log")" = 2 ] || fail "crash: the repeat must carry the same dedupe_key"
+[ "$(grep -c '"webhook-id": "m/split/raised/2026-03-02"' "$T/crash.log")" = 2 ] || fail "crash: the repeat must carry the same webhook-id"
 echo "webhook_delivery: crash between send and mark: one repeat with the same key"
 
 # --- 6. 100 transitions -> 100 notifications, no duplicate key -------------
@@ -252,11 +270,11 @@ run "$C" deliver --db "$T/many.db" --retry-now
 stop_receiver
 python3 - "$T/many.log" <<'PY' || fail "many: notifications"
 import json, sys
-keys = [json.loads(json.loads(l)["body"])["dedupe_key"] for l in open(sys.argv[1])]
+keys = [json.loads(json.loads(l)["body"])["notice_id"] for l in open(sys.argv[1])]
 assert len(keys) == 100, len(keys)
 assert len(set(keys)) == 100, "duplicate keys"
 want = {f"m/r{i:02d}/{k}/2026-03-{d}" for i in range(25)
-        for k, d in [("fired", "02"), ("resolved", "04"), ("fired", "05"), ("resolved", "06")]}
+        for k, d in [("raised", "02"), ("cleared", "04"), ("raised", "05"), ("cleared", "06")]}
 assert set(keys) == want
 PY
 [ "$(sqlite3 "$T/many.db" "SELECT count(*) FROM notifications")" = 100 ] || fail "many: notifications table"

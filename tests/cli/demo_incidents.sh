@@ -41,8 +41,8 @@ bad = []
 for day, x in enumerate(w, 1):
     mi = x["uncertainty"]["mutual_information"]; dis = x["diversity"]["disagreement"]["mean"]
     fog, late, copies, broken = 9 <= day <= 11, day >= 16, day >= 23, 14 <= day <= 15
-    # the old model file: 'size' alone loses accuracy (about 0.83 -> 0.69) and disagrees
-    # with the others more (about 0.26 -> 0.33); fog and retrain move every member
+    # the old model file: 'size' alone loses accuracy (about 0.83 -> 0.67) and disagrees
+    # with the others more (about 0.26 -> 0.37); fog and retrain move every member
     if not (fog or copies):
         a = x["accuracy"]["members"][SIZE]; md = member_dis(x, SIZE)
         if broken != (a < acc_size0 - 0.08): bad.append(f"day {day}: size's accuracy {a:.3f} vs baseline {acc_size0:.3f}")
@@ -56,8 +56,9 @@ for day, x in enumerate(w, 1):
         if x["accuracy"]["ensemble"] < acc0 - 0.05: bad.append(f"day {day}: ensemble accuracy {x['accuracy']['ensemble']:.3f} vs {acc0:.3f}")
         if mi > 1.2 * mi0: bad.append(f"day {day}: mutual information {mi:.3f} vs baseline {mi0:.3f}")
         if x["drift"]["class_mix"]["psi"] > 0.05: bad.append(f"day {day}: class-mix PSI {x['drift']['class_mix']['psi']:.3f}")
-        # the member's own answers lean a grade lower: its PSI against its baseline rises
-        if x["drift"]["members_psi"][SIZE] < 0.015: bad.append(f"day {day}: size's PSI {x['drift']['members_psi'][SIZE]:.3f}")
+        # the old model's mistakes go to either neighbouring grade, so its own class
+        # mix hardly moves (PSI < 0.02): only its disagreement with the others shows it
+        if x["drift"]["members_psi"][SIZE] > 0.02: bad.append(f"day {day}: size's PSI {x['drift']['members_psi'][SIZE]:.3f}")
     if fog != (mi > 2 * mi0): bad.append(f"day {day}: mutual information {mi:.3f} vs baseline {mi0:.3f}")
     if copies != (dis < 0.3 * dis0): bad.append(f"day {day}: disagreement {dis:.3f} vs baseline {dis0:.3f}")
     if late != (low_share(x) > low0 + 0.15): bad.append(f"day {day}: low-grade share {low_share(x):.3f} vs {low0:.3f}")
