@@ -29,11 +29,11 @@ trap 'rm -rf "$T"' EXIT
   --classes 0,1,2,3,4,5,6,7,8,9 "$T/logs/events.jsonl" > /dev/null
 "$C" label --db "$T/r.db" --model digits "$T/logs/labels.jsonl" > /dev/null
 "$C" baseline --db "$T/r.db" --model digits --from 2026-03-02 --to 2026-03-08 > /dev/null
-"$C" rules init -o "$T/rules.json"
+"$C" rules init -o "$T/rules.jsonc"
 for d in $(seq 1 30); do
   day=$(date -u -d "2026-03-02 + $((d - 1)) days" +%F)
   set +e
-  "$C" check --db "$T/r.db" --rules "$T/rules.json" --model digits --day "$day" --format json \
+  "$C" check --db "$T/r.db" --rules "$T/rules.jsonc" --model digits --day "$day" --format json \
     > "$T/day$d.json" 2> "$T/err$d"
   rc=$?
   set -e
@@ -53,7 +53,7 @@ report = {i + 1: w for i, w in enumerate(json.load(open(os.path.join(T, "report.
 
 def line_of(r):
     s = f"rule={r.get('rule')} metric={r.get('metric')}"
-    for k in ("member", "class", "scope"):
+    for k in ("subject", "scope"):
         if r.get(k) is not None: s += f" {k}={r[k]}"
     return s
 
@@ -61,12 +61,12 @@ days = {}
 for d in range(1, 31):
     o = json.load(open(os.path.join(T, f"day{d}.json")))
     res = o.get("results", [])
-    days[d] = {"fired": [r for r in res if r.get("outcome") in ("fired", "reminder")],
-               "firing": [r for r in res if r.get("state") == "firing" and r.get("outcome") not in ("fired", "reminder")],
-               "resolved": [r for r in res if r.get("outcome") == "resolved"]}
+    days[d] = {"fired": [r for r in res if r.get("outcome") in ("raised", "reminder")],
+               "firing": [r for r in res if r.get("state") == "raised" and r.get("outcome") not in ("raised", "reminder")],
+               "resolved": [r for r in res if r.get("outcome") == "cleared"]}
 
 names = plan["members"]
-print("day date       phase               gain    MI     dis   worst member  fired (value vs bound) | still firing | resolved")
+print("day date       phase               gain    MI     dis   worst member  raised (value vs bound) | still raised | cleared")
 for d in range(1, 31):
     w = report.get(d, {})
     acc = w.get("accuracy") or {}
@@ -102,7 +102,7 @@ for raw in open(expect_path):
     else:
         first = sorted(ds)[:2]
         hits = [f"day {d}: {line_of(r)}" for d in first for r in days[d]["fired"]
-                if r["outcome"] == "fired" and re.search(pattern.strip(), line_of(r))]
+                if r["outcome"] == "raised" and re.search(pattern.strip(), line_of(r))]
         (met if hits else unmet).append(f"{phase} (days {spans}) raises /{pattern.strip()}/ within two days"
                                         + (": " + hits[0] if hits else ""))
 for m in met: print("MET:", m)
