@@ -37,11 +37,51 @@ static int db_fail(cc_store *s, cc_error *err, const char *what)
                         sqlite3_errmsg(cc_store_db(s)));
 }
 
+/* Alert tables written by versions before the vocabulary change (states
+ * ok/pending/firing/resolved, urgency called severity with critical/warning/
+ * info, notification kinds fired/resolved, dedupe_key): renamed and mapped
+ * in place, in one savepoint, the first time a writer opens them. */
+static const char upgrade_vocabulary[] =
+    "SAVEPOINT alert_vocabulary;"
+    "ALTER TABLE rule_state RENAME COLUMN severity TO urgency;"
+    "UPDATE rule_state SET state = CASE state WHEN 'ok' THEN 'quiet' WHEN 'pending' THEN"
+    "  'building' WHEN 'firing' THEN 'raised' WHEN 'resolved' THEN 'cleared' ELSE state END,"
+    "  urgency = CASE urgency WHEN 'critical' THEN 'high' WHEN 'warning' THEN 'medium'"
+    "  WHEN 'info' THEN 'low' ELSE urgency END;"
+    "ALTER TABLE notifications RENAME COLUMN severity TO urgency;"
+    "ALTER TABLE notifications RENAME COLUMN dedupe_key TO notice_id;"
+    "UPDATE notifications SET kind = CASE kind WHEN 'fired' THEN 'raised' WHEN 'resolved'"
+    "  THEN 'cleared' ELSE kind END,"
+    "  urgency = CASE urgency WHEN 'critical' THEN 'high' WHEN 'warning' THEN 'medium'"
+    "  WHEN 'info' THEN 'low' ELSE urgency END;"
+    "RELEASE alert_vocabulary;";
+
+/* 1 when rule_state exists with the old column name "severity". */
+static int has_old_vocabulary(cc_store *s)
+{
+    sqlite3_stmt *st = NULL;
+    int old = 0;
+    if (sqlite3_prepare_v2(cc_store_db(s), "SELECT 1 FROM pragma_table_info('rule_state') "
+                           "WHERE name = 'severity'", -1, &st, NULL) == SQLITE_OK)
+        old = sqlite3_step(st) == SQLITE_ROW;
+    sqlite3_finalize(st);
+    return old;
+}
+
 int cc_state_prepare(cc_store *s, cc_error *err)
 {
     char *msg = NULL;
     if (cc_store_readonly(s))
         return 0; /* a reader creates nothing; the history reads treat missing tables as empty */
+    if (has_old_vocabulary(s) &&
+        sqlite3_exec(cc_store_db(s), upgrade_vocabulary, NULL, NULL, &msg) != SQLITE_OK) {
+        int rc = cc_error_set(err, CC_EIO, "%s: upgrading the alert tables: %s",
+                              cc_store_path(s), msg ? msg : "?");
+        sqlite3_free(msg);
+        sqlite3_exec(cc_store_db(s), "ROLLBACK TO alert_vocabulary; RELEASE alert_vocabulary;",
+                     NULL, NULL, NULL);
+        return rc;
+    }
     if (sqlite3_exec(cc_store_db(s), schema, NULL, NULL, &msg) != SQLITE_OK) {
         int rc = cc_error_set(err, CC_EIO, "%s: creating the alert tables: %s",
                               cc_store_path(s), msg ? msg : "?");
