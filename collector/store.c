@@ -926,9 +926,12 @@ int cc_store_pending_label_drain(cc_store *s, const cc_model *m, cc_pending_fn f
 {
     sqlite3_stmt *st;
     int rc = 0;
+    /* CROSS JOIN keeps pending_labels the outer table: one events_by_id
+     * lookup per waiting label, never a walk over the model's events */
     if (sqlite3_prepare_v2(s->db,
-                           "SELECT p.id, p.label, p.received_at FROM pending_labels p JOIN events e "
-                           "ON e.model_id = p.model_id AND e.id = p.id WHERE p.model_id = ?1",
+                           "SELECT p.id, p.label, p.received_at FROM pending_labels p "
+                           "CROSS JOIN events e ON e.model_id = p.model_id AND e.id = p.id "
+                           "WHERE p.model_id = ?1",
                            -1, &st, NULL) != SQLITE_OK)
         return db_error(s, err, "reading pending labels");
     sqlite3_bind_int64(st, 1, m->id);
