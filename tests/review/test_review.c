@@ -2,7 +2,7 @@
  * database written here: eight events of three members and three classes
  * whose categories, counts and orderings were worked out by hand (the
  * comments give each event's averaged output). Also checks that the scan
- * uses the (model, day, ts) index and the event lookup the primary key. */
+ * uses the (model, day, ts) index and the event lookup events_by_id. */
 #include <math.h>
 #include <sqlite3.h>
 #include <stdio.h>
