@@ -1,6 +1,6 @@
 /* review.c — the review queries behind review.h: one pass over a time range
  * through events_by_time, bounded candidate heaps per list, then the kept
- * events read by primary key. */
+ * events read by id through events_by_id. */
 #include "review.h"
 
 #include <math.h>
@@ -212,7 +212,7 @@ static int db_fail(cc_store *s, cc_error *err, const char *what)
 static const char fetch_sql[] =
     "SELECT ts, segment, label, probs, label_at FROM events WHERE model_id = ?1 AND id = ?2";
 
-/* Reads one row by primary key into e (id already set). *found = 0 when absent. */
+/* Reads one row by (model, id) into e (id already set). *found = 0 when absent. */
 static int fetch(sqlite3_stmt *st, cc_store *s, const cc_model *m, cc_review_event *e,
                  int *found, cc_error *err)
 {

@@ -6,7 +6,7 @@
  *
  * A review reads the range once through the index on (model, day, ts) and
  * keeps only the ids of the best `limit` candidates of each list; the kept
- * events are then read by primary key (model, id). Both reads happen in one
+ * events are then read by id (the unique index on (model, id)). Both reads happen in one
  * read transaction, so they see the same snapshot. */
 #ifndef CC_COLLECTOR_REVIEW_H
 #define CC_COLLECTOR_REVIEW_H

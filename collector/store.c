@@ -16,8 +16,9 @@
 #include "date.h"
 #include "summary_codec.h"
 
-/* 1: the first layout; 2: pruned_days. */
-#define SCHEMA_VERSION 2
+/* 1: the first layout; 2: pruned_days; 3: events in arrival order (a rowid
+ * table) with a unique index on (model_id, id). */
+#define SCHEMA_VERSION 3
 
 enum {
     ST_EVENT_INSERT,
@@ -62,17 +63,33 @@ struct cc_store {
     int64_t wait_start_ms;
 };
 
+#define EVENTS_COLUMNS                                                                         \
+    "model_id INTEGER NOT NULL, id TEXT NOT NULL, ts INTEGER NOT NULL, day INTEGER NOT NULL,"   \
+    " segment TEXT, pred INTEGER NOT NULL, label INTEGER, label_at INTEGER, probs BLOB NOT NULL"
+
+/* Versions 1 and 2 kept events WITHOUT ROWID keyed by (model_id, id). The
+ * rows are copied in time order (the order a review reads them), the old
+ * table and its index dropped, and both indexes built once after the copy;
+ * schema_sql then finds everything in place. Runs inside the upgrade's
+ * transaction. */
+static const char events_v3_sql[] =
+    "CREATE TABLE events_v3(" EVENTS_COLUMNS ");"
+    "INSERT INTO events_v3(model_id, id, ts, day, segment, pred, label, label_at, probs) "
+    "  SELECT model_id, id, ts, day, segment, pred, label, label_at, probs FROM events "
+    "  ORDER BY model_id, day, ts;"
+    "DROP TABLE events;"
+    "ALTER TABLE events_v3 RENAME TO events;";
+
 static const char schema_sql[] =
     "CREATE TABLE IF NOT EXISTS meta(key TEXT PRIMARY KEY, value TEXT NOT NULL);"
     "CREATE TABLE IF NOT EXISTS models("
     "  model_id INTEGER PRIMARY KEY, name TEXT NOT NULL UNIQUE,"
     "  members INTEGER NOT NULL, classes INTEGER NOT NULL,"
     "  member_names TEXT NOT NULL, class_names TEXT NOT NULL, created_at INTEGER NOT NULL);"
-    "CREATE TABLE IF NOT EXISTS events("
-    "  model_id INTEGER NOT NULL, id TEXT NOT NULL, ts INTEGER NOT NULL, day INTEGER NOT NULL,"
-    "  segment TEXT, pred INTEGER NOT NULL, label INTEGER, label_at INTEGER,"
-    "  probs BLOB NOT NULL,"
-    "  PRIMARY KEY(model_id, id)) WITHOUT ROWID;"
+    /* version 3: rows in arrival order; ids in their own index, so ids in
+     * random order (UUIDs) touch only that index's pages, not the rows' */
+    "CREATE TABLE IF NOT EXISTS events(" EVENTS_COLUMNS ");"
+    "CREATE UNIQUE INDEX IF NOT EXISTS events_by_id ON events(model_id, id);"
     "CREATE INDEX IF NOT EXISTS events_by_time ON events(model_id, day, ts);"
     "CREATE TABLE IF NOT EXISTS summaries("
     "  model_id INTEGER NOT NULL, day INTEGER NOT NULL, version INTEGER NOT NULL,"
@@ -274,6 +291,7 @@ static int bring_up_to_date(cc_store *s, cc_error *err)
         return rc;
     /* another writer may have done it meanwhile */
     if ((rc = read_version(s, &version, err)) || (rc = check_version(s, version, err)) ||
+        (version >= 1 && version < 3 && (rc = exec(s, events_v3_sql, err))) ||
         (rc = exec(s, schema_sql, err))) {
         cc_store_rollback(s);
         return rc;
@@ -908,9 +926,12 @@ int cc_store_pending_label_drain(cc_store *s, const cc_model *m, cc_pending_fn f
 {
     sqlite3_stmt *st;
     int rc = 0;
+    /* CROSS JOIN keeps pending_labels the outer table: one events_by_id
+     * lookup per waiting label, never a walk over the model's events */
     if (sqlite3_prepare_v2(s->db,
-                           "SELECT p.id, p.label, p.received_at FROM pending_labels p JOIN events e "
-                           "ON e.model_id = p.model_id AND e.id = p.id WHERE p.model_id = ?1",
+                           "SELECT p.id, p.label, p.received_at FROM pending_labels p "
+                           "CROSS JOIN events e ON e.model_id = p.model_id AND e.id = p.id "
+                           "WHERE p.model_id = ?1",
                            -1, &st, NULL) != SQLITE_OK)
         return db_error(s, err, "reading pending labels");
     sqlite3_bind_int64(st, 1, m->id);
