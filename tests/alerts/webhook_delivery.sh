@@ -43,15 +43,18 @@ stop_receiver() {
 free_port() { python3 -c 'import socket; s=socket.socket(); s.bind(("127.0.0.1",0)); print(s.getsockname()[1])'; }
 lines() { [ -f "$1" ] && wc -l < "$1" | tr -d ' ' || echo 0; }
 
-rules() { # FILE URL TIMEOUT N_RULES
+rules() { # FILE URL TIMEOUT N_RULES [CONNECT_TIMEOUT, default 30]
+  # generous timeouts (a loaded machine answers slowly) except where the
+  # timeout itself is under test
   python3 - "$@" <<'PY'
 import json, sys
 path, url, timeout, n = sys.argv[1], sys.argv[2], float(sys.argv[3]), int(sys.argv[4])
+connect = float(sys.argv[5]) if len(sys.argv) > 5 else 30.0
 rules = [{"name": "split" if n == 1 else f"r{i:02d}", "metric": "diversity.disagreement.mean",
           "above": 0.5, "min_events": 10, "urgency": "high", "action": "review_members"}
          for i in range(n)]
 json.dump({"webhooks": [{"url": url}],
-           "delivery": {"secret_env": "CC_TEST_SECRET", "connect_timeout_seconds": 1,
+           "delivery": {"secret_env": "CC_TEST_SECRET", "connect_timeout_seconds": connect,
                         "timeout_seconds": timeout, "max_attempts": 3, "backoff_seconds": 10,
                         "max_backoff_seconds": 40},
            "rules": rules}, open(path, "w"), indent=1)
@@ -68,7 +71,7 @@ NOW=$(date +%s)
 # --- 1. schema and signature; transitions only ---------------------------
 fresh sig
 start_receiver ok "$T/sig.log"
-rules "$T/sig.json" "http://127.0.0.1:$PORT/hook" 2 1
+rules "$T/sig.json" "http://127.0.0.1:$PORT/hook" 120 1
 run "$C" check --db "$T/sig.db" --rules "$T/sig.json" --day 2026-03-01
 [ $RC -eq 0 ] || fail "sig: day 1 exit $RC, expected 0 (healthy)"
 run "$C" check --db "$T/sig.db" --rules "$T/sig.json" --day 2026-03-02 --format json
@@ -149,7 +152,7 @@ echo "webhook_delivery: schema and signature ok"
 # --- 2. receiver down during the check, then up: exactly once ------------
 fresh down
 P=$(free_port)
-rules "$T/down.json" "http://127.0.0.1:$P/hook" 2 1
+rules "$T/down.json" "http://127.0.0.1:$P/hook" 120 1
 run "$C" check --db "$T/down.db" --rules "$T/down.json" --day 2026-03-02
 [ $RC -eq 10 ] || fail "down: exit $RC, expected 10 (the alert was raised; delivery is separate)"
 grep -q 'failed (attempt 1)' "$T/err" || fail "down: no delivery failure reported: $(cat "$T/err")"
@@ -180,7 +183,7 @@ echo "webhook_delivery: receiver down then up: delivered once"
 fresh err
 start_receiver status:302 "$T/err1.log"
 P=$PORT
-rules "$T/err.json" "http://127.0.0.1:$P/hook" 2 1
+rules "$T/err.json" "http://127.0.0.1:$P/hook" 120 1
 run env CONCORD_NOW=$NOW "$C" check --db "$T/err.db" --rules "$T/err.json" --day 2026-03-02
 [ $RC -eq 10 ] || fail "err: exit $RC"
 grep -q 'HTTP 302' "$T/err" || fail "err: a redirect must not count as delivered: $(cat "$T/err")"
@@ -212,7 +215,7 @@ echo "webhook_delivery: 302 and 500 retried, dead letter kept and re-sent"
 fresh hang
 start_receiver hang "$T/hang.log"
 P=$PORT
-rules "$T/hang.json" "http://127.0.0.1:$P/hook" 2 3
+rules "$T/hang.json" "http://127.0.0.1:$P/hook" 2 3 1
 t0=$(date +%s%N)
 run "$C" check --db "$T/hang.db" --rules "$T/hang.json" --day 2026-03-02
 ms=$(( ($(date +%s%N) - t0) / 1000000 ))
@@ -236,7 +239,7 @@ echo "webhook_delivery: unanswered receiver: $ms ms for the check, all 3 deliver
 # receiver has the notification, the outbox does not know yet; then SIGKILL
 fresh crash
 start_receiver ok "$T/crash.log"
-rules "$T/crash.json" "http://127.0.0.1:$PORT/hook" 10 1
+rules "$T/crash.json" "http://127.0.0.1:$PORT/hook" 120 1
 run env CONCORD_NOW=$NOW "$C" check --db "$T/crash.db" --rules "$T/crash.json" --day 2026-03-02 --no-deliver
 rm -f "$T/deliver.fifo"; mkfifo "$T/deliver.fifo"
 env CONCORD_NOW=$NOW CONCORD_TESTPOINT=deliver-sent:1 "$C" deliver --db "$T/crash.db" \
@@ -261,7 +264,7 @@ echo "webhook_delivery: crash between send and mark: one repeat with the same ke
 # --- 6. 100 transitions -> 100 notifications, no duplicate key -------------
 fresh many
 start_receiver ok "$T/many.log"
-rules "$T/many.json" "http://127.0.0.1:$PORT/hook" 5 25
+rules "$T/many.json" "http://127.0.0.1:$PORT/hook" 120 25
 for d in 01 02 03 04 05 06; do
   run "$C" check --db "$T/many.db" --rules "$T/many.json" --day 2026-03-$d
   [ $RC -eq 0 ] || [ $RC -eq 10 ] || [ $RC -eq 11 ] || fail "many: day $d exit $RC: $(cat "$T/err")"
@@ -293,7 +296,7 @@ RPID=$!
 for _ in $(seq 2400); do [ -s "$T/port" ] && break; sleep 0.05; done
 [ -s "$T/port" ] || { echo "FAIL: the TLS test receiver did not start within 120 s" >&2; exit 1; }
 PORT=$(cat "$T/port")
-rules "$T/tls.json" "https://127.0.0.1:$PORT/hook" 2 1
+rules "$T/tls.json" "https://127.0.0.1:$PORT/hook" 120 1
 run "$C" check --db "$T/tls.db" --rules "$T/tls.json" --day 2026-03-02
 [ $RC -eq 10 ] || fail "tls: exit $RC"
 grep -qi 'certificate' "$T/err" || fail "tls: a self-signed certificate must be refused: $(cat "$T/err")"
