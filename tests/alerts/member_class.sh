@@ -4,6 +4,7 @@
 # - every figure of the registry ('concord rules paths') is in the JSON
 #   window, member figures as arrays of 3 and class figures of 4; per-class
 #   precision, recall and the confusion matrix equal a plain-Python count
+#   and scikit-learn's confusion_matrix, precision_score and recall_score
 #   over the events by their textbook definitions;
 # - the default rules are quiet on every baseline day ('rules validate') and
 #   on the clean days, raise member-departs naming the broken member on its
@@ -76,6 +77,28 @@ for c in range(K):
     assert abs(w["by_class"]["recall"][c] - conf[c][c] / row) < 1e-12
 assert w["by_class"]["recall"][2] < 0.6, w["by_class"]["recall"]   # class c missed that day
 PY
+# the same figures against scikit-learn's metrics (Debian's python3-sklearn,
+# test-only): confusion_matrix, precision_score and recall_score, average=None
+if /usr/bin/python3 -c 'import sklearn' 2> /dev/null; then
+  /usr/bin/python3 - "$T/r.json" "$T/ev.jsonl" <<'PY' || fail "per-class figures against scikit-learn"
+import json, sys
+from sklearn.metrics import confusion_matrix, precision_score, recall_score
+w = json.load(open(sys.argv[1]))["windows"][0]
+K, truth, pred = 4, [], []
+for line in open(sys.argv[2]):
+    e = json.loads(line)
+    if e["ts"].startswith("2026-05-14"):
+        avg = [sum(p[c] for p in e["probs"]) / len(e["probs"]) for c in range(K)]
+        truth.append(e["label"]); pred.append(max(range(K), key=lambda c: (avg[c], -c)))
+assert w["accuracy"]["confusion"] == confusion_matrix(truth, pred, labels=range(K)).tolist()
+for name, fn in (("precision", precision_score), ("recall", recall_score)):
+    ref = fn(truth, pred, labels=range(K), average=None, zero_division=0)
+    assert all(abs(a - b) < 1e-12 for a, b in zip(w["by_class"][name], ref)), (name, ref)
+print("member_class: confusion, precision and recall equal scikit-learn's")
+PY
+else
+  echo "member_class: scikit-learn comparison skipped (/usr/bin/python3 has no sklearn)"
+fi
 "$C" report --db "$T/m.db" --model m --from 2026-05-14 --to 2026-05-14 > "$T/r.txt"
 grep -q '^confusion matrix (rows: true class, columns: predicted)' "$T/r.txt" &&
   grep -qE '^  c +[0-9.]+ +0\.[0-5]' "$T/r.txt" || fail "text report: per-class table or confusion matrix"
