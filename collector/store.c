@@ -17,8 +17,9 @@
 #include "summary_codec.h"
 
 /* 1: the first layout; 2: pruned_days; 3: events in arrival order (a rowid
- * table) with a unique index on (model_id, id). */
-#define SCHEMA_VERSION 3
+ * table) with a unique index on (model_id, id); 4: what changed since the
+ * last publish to a cluster (upgrade_publish_marks). */
+#define SCHEMA_VERSION 4
 
 enum {
     ST_EVENT_INSERT,
@@ -109,6 +110,39 @@ static const char schema_sql[] =
     "  model_id INTEGER NOT NULL, day INTEGER NOT NULL, version INTEGER NOT NULL,"
     "  events INTEGER NOT NULL, counters BLOB NOT NULL, pruned_at INTEGER NOT NULL,"
     "  PRIMARY KEY(model_id, day)) WITHOUT ROWID;";
+
+/* Version 4, publishing (cluster/publish.c): triggers note every summary
+ * written and every label changed; INSERT OR REPLACE gives a re-noted row a
+ * new, higher rowid (mark), so a publisher that sent everything up to mark R
+ * clears exactly that and keeps what changed meanwhile. New events need no
+ * trigger: they are the rows past publish_state's 'event_rowid'. */
+static const char publish_marks_sql[] =
+    "CREATE TABLE IF NOT EXISTS publish_state(key TEXT PRIMARY KEY, value INTEGER NOT NULL);"
+    "CREATE TABLE IF NOT EXISTS publish_days(mark INTEGER PRIMARY KEY,"
+    "  model_id INTEGER NOT NULL, day INTEGER NOT NULL, UNIQUE(model_id, day));"
+    "CREATE TABLE IF NOT EXISTS publish_relabels(mark INTEGER PRIMARY KEY,"
+    "  event_rowid INTEGER NOT NULL UNIQUE);"
+    "CREATE TRIGGER IF NOT EXISTS publish_note_day AFTER INSERT ON summaries BEGIN"
+    "  INSERT OR REPLACE INTO publish_days(model_id, day) VALUES (NEW.model_id, NEW.day);"
+    " END;"
+    "CREATE TRIGGER IF NOT EXISTS publish_note_relabel AFTER UPDATE OF label, label_at"
+    "  ON events BEGIN"
+    "  INSERT OR REPLACE INTO publish_relabels(event_rowid) VALUES (NEW.rowid);"
+    " END;";
+
+static int exec(cc_store *s, const char *sql, cc_error *err);
+
+/* The upgrade step to version 4: the publish bookkeeping above. A store
+ * upgraded from version 3 has never been published: its days are all marked
+ * and its events all lie past event_rowid 0. */
+static int upgrade_publish_marks(cc_store *s, int64_t from_version, cc_error *err)
+{
+    int rc = exec(s, publish_marks_sql, err);
+    if (!rc && from_version >= 1 && from_version < 4)
+        rc = exec(s, "INSERT OR IGNORE INTO publish_days(model_id, day) "
+                     "SELECT model_id, day FROM summaries ORDER BY model_id, day;", err);
+    return rc;
+}
 
 static int64_t now_ms(void)
 {
@@ -292,7 +326,7 @@ static int bring_up_to_date(cc_store *s, cc_error *err)
     /* another writer may have done it meanwhile */
     if ((rc = read_version(s, &version, err)) || (rc = check_version(s, version, err)) ||
         (version >= 1 && version < 3 && (rc = exec(s, events_v3_sql, err))) ||
-        (rc = exec(s, schema_sql, err))) {
+        (rc = exec(s, schema_sql, err)) || (rc = upgrade_publish_marks(s, version, err))) {
         cc_store_rollback(s);
         return rc;
     }
@@ -1241,5 +1275,154 @@ int cc_store_backup(cc_store *s, const char *out_path, cc_error *err)
     snprintf(side, sizeof side, "%s-journal", tmp);
     unlink(side);
     free(tmp);
+    return rc;
+}
+
+/* ---- publishing (cluster/publish.c) ---- */
+
+int cc_store_publish_state_get(cc_store *s, const char *key, int64_t *value, cc_error *err)
+{
+    sqlite3_stmt *st;
+    *value = 0;
+    if (sqlite3_prepare_v2(s->db, "SELECT value FROM publish_state WHERE key = ?1", -1, &st,
+                           NULL) != SQLITE_OK)
+        return db_error(s, err, "reading the publish state");
+    sqlite3_bind_text(st, 1, key, -1, SQLITE_STATIC);
+    int step = sqlite3_step(st);
+    if (step == SQLITE_ROW)
+        *value = sqlite3_column_int64(st, 0);
+    sqlite3_finalize(st);
+    return step == SQLITE_ROW || step == SQLITE_DONE ? 0
+                                                    : db_error(s, err, "reading the publish state");
+}
+
+int cc_store_publish_state_set(cc_store *s, const char *key, int64_t value, cc_error *err)
+{
+    sqlite3_stmt *st;
+    if (sqlite3_prepare_v2(s->db, "INSERT OR REPLACE INTO publish_state(key, value) "
+                                  "VALUES (?1, ?2)", -1, &st, NULL) != SQLITE_OK)
+        return db_error(s, err, "writing the publish state");
+    sqlite3_bind_text(st, 1, key, -1, SQLITE_STATIC);
+    sqlite3_bind_int64(st, 2, value);
+    int step = sqlite3_step(st);
+    sqlite3_finalize(st);
+    return step == SQLITE_DONE ? 0 : db_error(s, err, "writing the publish state");
+}
+
+int cc_store_publish_days(cc_store *s, int64_t *upto, cc_publish_day_fn fn, void *ctx,
+                          cc_error *err)
+{
+    sqlite3_stmt *st;
+    int rc = 0, step;
+    *upto = 0;
+    if (sqlite3_prepare_v2(s->db, "SELECT p.mark, m.name, p.day FROM publish_days p "
+                                  "JOIN models m ON m.model_id = p.model_id ORDER BY p.mark",
+                           -1, &st, NULL) != SQLITE_OK)
+        return db_error(s, err, "reading the days to publish");
+    while (!rc && (step = sqlite3_step(st)) == SQLITE_ROW) {
+        *upto = sqlite3_column_int64(st, 0);
+        rc = fn(ctx, (const char *)sqlite3_column_text(st, 1), sqlite3_column_int64(st, 2));
+    }
+    if (!rc && step != SQLITE_DONE)
+        rc = db_error(s, err, "reading the days to publish");
+    sqlite3_finalize(st);
+    return rc;
+}
+
+/* Runs one event query (rowid bound as ?1) and hands each row to fn; *last
+ * gets the first column of the last row. */
+static int publish_event_rows(cc_store *s, const char *sql, int64_t bound, int64_t *last,
+                              cc_publish_event_fn fn, void *ctx, cc_error *err)
+{
+    sqlite3_stmt *st;
+    int rc = 0, step;
+    if (sqlite3_prepare_v2(s->db, sql, -1, &st, NULL) != SQLITE_OK)
+        return db_error(s, err, "reading the events to publish");
+    sqlite3_bind_int64(st, 1, bound);
+    while (!rc && (step = sqlite3_step(st)) == SQLITE_ROW) {
+        cc_published_event e;
+        int members = sqlite3_column_int(st, 10), classes = sqlite3_column_int(st, 11);
+        *last = sqlite3_column_int64(st, 0);
+        e.model = (const char *)sqlite3_column_text(st, 1);
+        e.id = (const char *)sqlite3_column_text(st, 2);
+        e.id_len = sqlite3_column_bytes(st, 2);
+        e.ts = sqlite3_column_int64(st, 3);
+        e.day = sqlite3_column_int64(st, 4);
+        e.segment = (const char *)sqlite3_column_text(st, 5);
+        e.segment_len = sqlite3_column_bytes(st, 5);
+        e.pred = sqlite3_column_int(st, 6);
+        e.label = sqlite3_column_type(st, 7) == SQLITE_NULL ? -1 : sqlite3_column_int(st, 7);
+        e.label_at = sqlite3_column_type(st, 8) == SQLITE_NULL ? -1
+                                                               : sqlite3_column_int64(st, 8);
+        e.probs = sqlite3_column_blob(st, 9);
+        e.n_probs = members * classes;
+        if ((size_t)sqlite3_column_bytes(st, 9) != (size_t)e.n_probs * sizeof(float)) {
+            rc = cc_error_set(err, CC_EIO, "%s: event '%.*s' has a damaged probability blob",
+                              s->path, e.id_len, e.id);
+            break;
+        }
+        rc = fn(ctx, &e);
+    }
+    if (!rc && step != SQLITE_DONE)
+        rc = db_error(s, err, "reading the events to publish");
+    sqlite3_finalize(st);
+    return rc;
+}
+
+#define PUBLISH_EVENT_COLUMNS                                                                  \
+    "m.name, e.id, e.ts, e.day, e.segment, e.pred, e.label, e.label_at, e.probs, m.members, "  \
+    "m.classes FROM events e JOIN models m ON m.model_id = e.model_id "
+
+int cc_store_publish_events(cc_store *s, int64_t after_rowid, int64_t *max_rowid,
+                            int64_t *relabel_upto, cc_publish_event_fn fn, void *ctx,
+                            cc_error *err)
+{
+    *max_rowid = after_rowid;
+    *relabel_upto = 0;
+    int rc = publish_event_rows(s, "SELECT e.rowid, " PUBLISH_EVENT_COLUMNS
+                                   "WHERE e.rowid > ?1 ORDER BY e.rowid",
+                                after_rowid, max_rowid, fn, ctx, err);
+    /* relabelled rows that were not new (those went out just above) */
+    if (!rc)
+        rc = publish_event_rows(s, "SELECT r.mark, " PUBLISH_EVENT_COLUMNS
+                                   "JOIN publish_relabels r ON r.event_rowid = e.rowid "
+                                   "WHERE e.rowid <= ?1 ORDER BY r.mark",
+                                after_rowid, relabel_upto, fn, ctx, err);
+    return rc;
+}
+
+int cc_store_publish_clear(cc_store *s, int64_t day_mark, int64_t relabel_mark, cc_error *err)
+{
+    sqlite3_stmt *st;
+    static const char *const sql[2] = {"DELETE FROM publish_days WHERE mark <= ?1",
+                                       "DELETE FROM publish_relabels WHERE mark <= ?1"};
+    for (int i = 0; i < 2; i++) {
+        if (sqlite3_prepare_v2(s->db, sql[i], -1, &st, NULL) != SQLITE_OK)
+            return db_error(s, err, "clearing publish marks");
+        sqlite3_bind_int64(st, 1, i == 0 ? day_mark : relabel_mark);
+        int step = sqlite3_step(st);
+        sqlite3_finalize(st);
+        if (step != SQLITE_DONE)
+            return db_error(s, err, "clearing publish marks");
+    }
+    return 0;
+}
+
+int cc_store_pending_label_list(cc_store *s, cc_pending_list_fn fn, void *ctx, cc_error *err)
+{
+    sqlite3_stmt *st;
+    int rc = 0, step;
+    if (sqlite3_prepare_v2(s->db, "SELECT m.name, p.id, p.label, p.received_at "
+                                  "FROM pending_labels p JOIN models m "
+                                  "ON m.model_id = p.model_id ORDER BY m.name, p.id",
+                           -1, &st, NULL) != SQLITE_OK)
+        return db_error(s, err, "reading pending labels");
+    while (!rc && (step = sqlite3_step(st)) == SQLITE_ROW)
+        rc = fn(ctx, (const char *)sqlite3_column_text(st, 0),
+                (const char *)sqlite3_column_text(st, 1), sqlite3_column_bytes(st, 1),
+                sqlite3_column_int(st, 2), sqlite3_column_int64(st, 3));
+    if (!rc && step != SQLITE_DONE)
+        rc = db_error(s, err, "reading pending labels");
+    sqlite3_finalize(st);
     return rc;
 }

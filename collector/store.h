@@ -182,4 +182,52 @@ int cc_store_integrity(cc_store *s, int (*fn)(void *ctx, const char *line), void
  * renamed into place. Refuses an existing out_path. */
 int cc_store_backup(cc_store *s, const char *out_path, cc_error *err);
 
+/* Publishing to a cluster (cluster/publish.c). The store notes what changed
+ * since the last publish: summaries written (per model and day), labels
+ * changed, and new event rows (those past the 'event_rowid' state). */
+
+/* A named 64-bit value of the publisher ('seq', 'event_rowid'); 0 when never set. */
+int cc_store_publish_state_get(cc_store *s, const char *key, int64_t *value, cc_error *err);
+/* Sets it (inside a write transaction). */
+int cc_store_publish_state_set(cc_store *s, const char *key, int64_t value, cc_error *err);
+
+/* Calls fn for each (model, day) whose summary was written since it was last
+ * cleared; *upto is set to the highest mark seen (pass it to
+ * cc_store_publish_clear once those days are published). */
+typedef int (*cc_publish_day_fn)(void *ctx, const char *model, int64_t day);
+int cc_store_publish_days(cc_store *s, int64_t *upto, cc_publish_day_fn fn, void *ctx,
+                          cc_error *err);
+
+/* One stored event row as published; pointers are valid during the call. */
+typedef struct cc_published_event {
+    const char *model;
+    const char *id;
+    int id_len;
+    int64_t ts, day;
+    const char *segment;        /* NULL when the event had none */
+    int segment_len;
+    int pred, label;            /* label -1 when unknown */
+    int64_t label_at;           /* -1 for an inline label or none */
+    const float *probs;
+    int n_probs;                /* members x classes */
+} cc_published_event;
+typedef int (*cc_publish_event_fn)(void *ctx, const cc_published_event *e);
+
+/* Calls fn for each event row past after_rowid, then for each row whose
+ * label changed since the relabel marks were last cleared. *max_rowid and
+ * *relabel_upto are set to what was read (for the next call and
+ * cc_store_publish_clear). A row sent again is harmless: the receiver keeps one. */
+int cc_store_publish_events(cc_store *s, int64_t after_rowid, int64_t *max_rowid,
+                            int64_t *relabel_upto, cc_publish_event_fn fn, void *ctx,
+                            cc_error *err);
+
+/* Forgets the day marks <= day_mark and relabel marks <= relabel_mark
+ * (inside a write transaction). */
+int cc_store_publish_clear(cc_store *s, int64_t day_mark, int64_t relabel_mark, cc_error *err);
+
+/* Every label waiting for its event, of every model. */
+typedef int (*cc_pending_list_fn)(void *ctx, const char *model, const char *id, int id_len,
+                                  int label, int64_t received_at);
+int cc_store_pending_label_list(cc_store *s, cc_pending_list_fn fn, void *ctx, cc_error *err);
+
 #endif
