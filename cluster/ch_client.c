@@ -259,9 +259,10 @@ static void server_message(const cc_buf *body, char *out, size_t cap)
     long code = -1;
     const char *msg = t, *stop = NULL;
     if (sscanf(t, "Code: %ld", &code) == 1) {
-        const char *e = strstr(t, "DB::Exception: ");
-        if (e)
-            msg = e + strlen("DB::Exception: ");
+        /* the text after "e.displayText() = DB::SomeException: " */
+        const char *e = strstr(t, "e.displayText() = ");
+        if (e && strncmp(e + 18, "DB::", 4) == 0 && strstr(e, ": "))
+            msg = strstr(e, ": ") + 2;
         stop = strstr(msg, ", e.what() = ");
     }
     size_t n = stop ? (size_t)(stop - msg) : strlen(msg);

@@ -162,6 +162,32 @@ static int apply_labels(run *r, const char *lines, size_t len, int64_t at)
     return rc;
 }
 
+/* The same label as the event's, sent by another host, that arrived before
+ * the one applied here: had one store read both, the later would have
+ * changed nothing, so the label's arrival time is the earlier one. The
+ * label-age counters of the event's day follow. */
+static int move_arrival_back(run *r, const cc_model *m, const char *id, int id_len,
+                             const cc_stored_event *ev, const float *probs, int64_t at)
+{
+    (void)probs;
+    cc_summary *d = cc_summary_create(m->m, m->k);
+    if (!d)
+        return cc_error_set(r->err, CC_ENOMEM, "out of memory");
+    cc_summary_add_label_delay(d, ev->label_at - ev->ts, -1);
+    cc_summary_add_label_delay(d, at - ev->ts, 1);
+    int rc = cc_store_begin(r->store, r->err);
+    if (!rc) {
+        if ((rc = cc_store_summary_add(r->store, m, ev->day, d, r->err)) ||
+            (rc = cc_store_event_set_label(r->store, m, id, id_len, ev->label, at, r->err)) ||
+            (rc = cc_store_commit(r->store, r->err)))
+            cc_store_rollback(r->store);
+    }
+    cc_summary_free(d);
+    if (!rc)
+        r->st->labels_applied++;
+    return rc;
+}
+
 /* Other sources' labels for events stored here whose label is older. They
  * come ordered by arrival time, so the newest is applied last, as a single
  * store reading every label would. */
@@ -195,6 +221,14 @@ static int pull_labels(run *r)
                               cc_ch_where(r->ch));
             break;
         }
+        /* the previous arrival time's labels first: the event's state read
+         * below must include them */
+        if (at != group_at && lines.len) {
+            rc = apply_labels(r, (const char *)lines.p, lines.len, group_at);
+            lines.len = 0;
+            if (rc)
+                break;
+        }
         char *name = strndup(model, model_n);
         cc_model *m = NULL;
         cc_error miss = CC_ERROR_INIT;
@@ -215,11 +249,9 @@ static int pull_labels(run *r)
             rc = cc_error_set(r->err, CC_ENOMEM, "out of memory");
         else
             rc = cc_store_event_get(r->store, m, id, (int)id_n, &found, &ev, probs, r->err);
+        if (!rc && found && at < ev.label_at && label == ev.label)
+            rc = move_arrival_back(r, m, id, (int)id_n, &ev, probs, at);
         if (!rc && found && at > ev.label_at && label >= 0 && label < m->k) {
-            if (at != group_at && lines.len) {
-                rc = apply_labels(r, (const char *)lines.p, lines.len, group_at);
-                lines.len = 0;
-            }
             group_at = at;
             cJSON *o = cJSON_CreateObject();
             char *idz = strndup(id, id_n);
