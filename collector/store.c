@@ -1331,14 +1331,16 @@ int cc_store_publish_days(cc_store *s, int64_t *upto, cc_publish_day_fn fn, void
 
 /* Runs one event query (rowid bound as ?1) and hands each row to fn; *last
  * gets the first column of the last row. */
-static int publish_event_rows(cc_store *s, const char *sql, int64_t bound, int64_t *last,
-                              cc_publish_event_fn fn, void *ctx, cc_error *err)
+static int publish_event_rows(cc_store *s, const char *sql, int64_t bound, int64_t bound2,
+                              int64_t *last, cc_publish_event_fn fn, void *ctx, cc_error *err)
 {
     sqlite3_stmt *st;
     int rc = 0, step;
     if (sqlite3_prepare_v2(s->db, sql, -1, &st, NULL) != SQLITE_OK)
         return db_error(s, err, "reading the events to publish");
     sqlite3_bind_int64(st, 1, bound);
+    if (sqlite3_bind_parameter_count(st) >= 2)
+        sqlite3_bind_int64(st, 2, bound2);
     while (!rc && (step = sqlite3_step(st)) == SQLITE_ROW) {
         cc_published_event e;
         int members = sqlite3_column_int(st, 10), classes = sqlite3_column_int(st, 11);
@@ -1377,17 +1379,25 @@ int cc_store_publish_events(cc_store *s, int64_t after_rowid, int64_t *max_rowid
                             int64_t *relabel_upto, cc_publish_event_fn fn, void *ctx,
                             cc_error *err)
 {
+    sqlite3_stmt *st;
     *max_rowid = after_rowid;
     *relabel_upto = 0;
+    if (sqlite3_prepare_v2(s->db, "SELECT coalesce(max(mark), 0) FROM publish_relabels", -1,
+                           &st, NULL) != SQLITE_OK)
+        return db_error(s, err, "reading the labels to publish");
+    if (sqlite3_step(st) == SQLITE_ROW)
+        *relabel_upto = sqlite3_column_int64(st, 0);
+    sqlite3_finalize(st);
+    int64_t unused;
     int rc = publish_event_rows(s, "SELECT e.rowid, " PUBLISH_EVENT_COLUMNS
                                    "WHERE e.rowid > ?1 ORDER BY e.rowid",
-                                after_rowid, max_rowid, fn, ctx, err);
+                                after_rowid, 0, max_rowid, fn, ctx, err);
     /* relabelled rows that were not new (those went out just above) */
     if (!rc)
         rc = publish_event_rows(s, "SELECT r.mark, " PUBLISH_EVENT_COLUMNS
                                    "JOIN publish_relabels r ON r.event_rowid = e.rowid "
-                                   "WHERE e.rowid <= ?1 ORDER BY r.mark",
-                                after_rowid, relabel_upto, fn, ctx, err);
+                                   "WHERE e.rowid <= ?1 AND r.mark <= ?2 ORDER BY r.mark",
+                                after_rowid, *relabel_upto, &unused, fn, ctx, err);
     return rc;
 }
 
