@@ -1,13 +1,16 @@
 /* store_url.c — `--store URL` for the reading commands: sqlite:PATH (the
- * same as --db PATH) or clickhouse://HOST:PORT/DATABASE, whose merged view
- * is copied into a temporary local store (removed on close) so the command
- * runs its usual code on it. */
+ * same as --db PATH) or clickhouse://HOST:PORT/DATABASE. Reports read the
+ * cluster through its store backend (cluster/ch_store.h). Review and show
+ * read event rows with SQL of the SQLite backend's (collector/review.c), so
+ * for them the cluster's merged view is copied into a temporary local store
+ * (removed on close) until review reads through the store's ops. */
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <unistd.h>
 
 #include "ch_client.h"
+#include "ch_store.h"
 #include "cli.h"
 #include "fetch.h"
 #include "store.h"
@@ -48,6 +51,8 @@ int cli_store_url_open(const char *command, const char *db, const char *url, con
         return cc_error_set(err, CC_EUSAGE,
                             "concord %s: --store '%s': expected sqlite:PATH or "
                             "clickhouse://HOST:PORT/DATABASE", command, url);
+    if (!events)
+        return cc_ch_store_open(out, url, err);
     if (copy.dir[0])
         return cc_error_set(err, CC_EIO, "concord %s: one cluster store at a time", command);
     cc_ch *ch = NULL;

@@ -76,27 +76,36 @@ static int same_names(char **a, int na, char **b, int nb)
     return 1;
 }
 
+void cc_ch_models_free(cc_ch_model *list, int n)
+{
+    for (int i = 0; list && i < n; i++)
+        cc_model_free(list[i].model);
+    free(list);
+}
+
 /* Models and baselines: one row per (model, source); all sources of a
  * model must agree. */
-static int fetch_models(cc_ch *c, cc_store *dst, const cc_fetch_opts *o, cc_error *err)
+int cc_ch_models_load(cc_ch *c, const char *only, cc_ch_model **out, int *n_out, cc_error *err)
 {
     cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
     char head[256];
+    *out = NULL;
+    *n_out = 0;
     snprintf(head, sizeof head,
              "SELECT name, source, members, classes, has_baseline, baseline_from, baseline_to "
              "FROM %s.models FINAL WHERE 1", cc_ch_database(c));
-    build_sql(&sql, head, "name", o->model, " ORDER BY name, source FORMAT RowBinary");
+    build_sql(&sql, head, "name", only, " ORDER BY name, source FORMAT RowBinary");
     int rc = run_select(c, &sql, &ans, err);
     cc_rb rb = {ans.p, ans.p + ans.len};
-    char *cur = NULL, *cur_source = NULL, **cur_m = NULL, **cur_k = NULL;
-    int cur_nm = 0, cur_nk = 0, cur_has = 0;
-    int64_t cur_from = 0, cur_to = 0;
+    cc_ch_model *list = NULL, *cur = NULL;
+    int n = 0;
+    char *cur_source = NULL;
     while (!rc && rb.p < rb.end) {
         const char *name, *src;
         size_t name_n, src_n;
         uint8_t has;
         int64_t from, to;
-        int nm, nk;
+        int nm = 0, nk = 0;
         char **mem = NULL, **cls = NULL;
         if (cc_rb_string(&rb, &name, &name_n) || cc_rb_string(&rb, &src, &src_n) ||
             !(mem = read_names(&rb, &nm)) || !(cls = read_names(&rb, &nk)) ||
@@ -105,58 +114,76 @@ static int fetch_models(cc_ch *c, cc_store *dst, const cc_fetch_opts *o, cc_erro
             rc = truncated(c, "models", err);
             break;
         }
-        if (cur && strlen(cur) == name_n && memcmp(cur, name, name_n) == 0) {
-            if (!same_names(cur_m, cur_nm, mem, nm) || !same_names(cur_k, cur_nk, cls, nk))
+        if (cur && strlen(cur->model->name) == name_n &&
+            memcmp(cur->model->name, name, name_n) == 0) {
+            if (!same_names(cur->model->members, cur->model->m, mem, nm) ||
+                !same_names(cur->model->classes, cur->model->k, cls, nk))
                 rc = cc_error_set(err, CC_EIO,
                                   "cluster: sources '%s' and '%.*s' disagree about model '%s' "
                                   "(its members or classes); one model name, one shape",
-                                  cur_source, (int)src_n, src, cur);
-            else if (has && cur_has && (from != cur_from || to != cur_to))
+                                  cur_source, (int)src_n, src, cur->model->name);
+            else if (has && cur->has_baseline && (from != cur->from || to != cur->to))
                 rc = cc_error_set(err, CC_EIO,
                                   "cluster: sources '%s' and '%.*s' set different baselines "
                                   "for model '%s'; set the same one on every host",
-                                  cur_source, (int)src_n, src, cur);
-            else if (has && !cur_has) {
-                cur_has = 1;
-                cur_from = from;
-                cur_to = to;
-                cc_model *m = NULL;
-                if (!(rc = cc_store_model_get(dst, cur, &m, err)))
-                    rc = cc_store_baseline_set(dst, m, from, to, err);
-                cc_model_free(m);
+                                  cur_source, (int)src_n, src, cur->model->name);
+            else if (has && !cur->has_baseline) {
+                cur->has_baseline = 1;
+                cur->from = from;
+                cur->to = to;
             }
             free_names(mem, nm);
             free_names(cls, nk);
             continue;
         }
-        free(cur);
+        cc_ch_model *grown = realloc(list, (size_t)(n + 1) * sizeof *grown);
+        cc_model *m = calloc(1, sizeof *m);
         free(cur_source);
-        free_names(cur_m, cur_nm);
-        free_names(cur_k, cur_nk);
-        cur = strndup(name, name_n);
         cur_source = strndup(src, src_n);
-        cur_m = mem;
-        cur_nm = nm;
-        cur_k = cls;
-        cur_nk = nk;
-        cur_has = has;
-        cur_from = from;
-        cur_to = to;
-        if (!cur || !cur_source) {
+        if (grown)
+            list = grown;
+        if (!grown || !m || !cur_source || !(m->name = strndup(name, name_n))) {
+            free(m);
+            free_names(mem, nm);
+            free_names(cls, nk);
             rc = cc_error_set(err, CC_ENOMEM, "out of memory");
             break;
         }
-        cc_model *m = NULL;
-        rc = cc_store_model_create(dst, cur, nm, nk, cls, mem, &m, err);
-        if (!rc && has)
-            rc = cc_store_baseline_set(dst, m, from, to, err);
+        m->id = n + 1;
+        m->m = nm;
+        m->k = nk;
+        m->members = mem;
+        m->classes = cls;
+        cur = &list[n++];
+        cur->model = m;
+        cur->has_baseline = has;
+        cur->from = from;
+        cur->to = to;
+    }
+    free(cur_source);
+    cc_buf_free(&ans);
+    if (rc) {
+        cc_ch_models_free(list, n);
+        return rc;
+    }
+    *out = list;
+    *n_out = n;
+    return 0;
+}
+
+static int fetch_models(cc_ch *c, cc_store *dst, const cc_fetch_opts *o, cc_error *err)
+{
+    cc_ch_model *list;
+    int n, rc = cc_ch_models_load(c, o->model, &list, &n, err);
+    for (int i = 0; !rc && i < n; i++) {
+        cc_model *m = NULL, *src = list[i].model;
+        rc = cc_store_model_create(dst, src->name, src->m, src->k, src->classes, src->members,
+                                   &m, err);
+        if (!rc && list[i].has_baseline)
+            rc = cc_store_baseline_set(dst, m, list[i].from, list[i].to, err);
         cc_model_free(m);
     }
-    free(cur);
-    free(cur_source);
-    free_names(cur_m, cur_nm);
-    free_names(cur_k, cur_nk);
-    cc_buf_free(&ans);
+    cc_ch_models_free(list, n);
     return rc;
 }
 

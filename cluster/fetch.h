@@ -27,4 +27,14 @@ typedef struct cc_fetch_opts {
  * an error naming them. */
 int cc_fetch_into(cc_ch *c, cc_store *dst, const cc_fetch_opts *o, cc_error *err);
 
+/* The models the cluster knows (only that one when not NULL), merged over
+ * the sources, with their baseline; free with cc_ch_models_free. */
+typedef struct cc_ch_model {
+    cc_model *model;
+    int has_baseline;
+    int64_t from, to;
+} cc_ch_model;
+int cc_ch_models_load(cc_ch *c, const char *only, cc_ch_model **out, int *n, cc_error *err);
+void cc_ch_models_free(cc_ch_model *list, int n);
+
 #endif
