@@ -62,6 +62,10 @@ int cli_store_url_open(const char *command, const char *db, const char *url, con
                        int events, const char *event_id, struct cc_store **out, cc_error *err);
 void cli_store_url_close(struct cc_store *s);
 int cmd_publish(int argc, char **argv);
+/* Publishes an open writable store (cmd_publish.c), printing what was sent;
+ * source NULL: the host name. Returns an exit code. */
+int cli_publish_store(struct cc_store *store, const char *db, const char *url,
+                      const char *source, const char *command);
 extern const char help_publish[];
 
 /* The wait bound in ms: --wait (any command accepts it), else CONCORD_WAIT,

@@ -37,6 +37,9 @@ static void on_retry(void *ctx, const char *what, int attempt, int pause_ms,
             attempt, why->msg, pause_ms / 1000.0);
 }
 
+static int publish_with(cc_store *store, const char *db, const char *url, const char *source,
+                        const char *command, int retry_for_s);
+
 int cmd_publish(int argc, char **argv)
 {
     cli_opt opts[] = {{"db", 0, 1, NULL},     {"store", 0, 1, NULL},     {"source", 0, 1, NULL},
@@ -65,25 +68,12 @@ int cmd_publish(int argc, char **argv)
             return EXIT_USAGE;
         po.retry_for_s = (int)v;
     }
-    char host[256];
-    if (!source) {
-        if (gethostname(host, sizeof host) != 0)
-            return cli_usage("publish", "cannot read the host name; give --source");
-        host[sizeof host - 1] = 0;
-        source = host;
-    }
-    if (!cc_publish_source_ok(source))
-        return cli_usage("publish",
-                         "--source '%s': use 1 to 64 letters, digits, '_', '-' or '.'", source);
-    po.source = source;
-    po.on_retry = on_retry;
-
     cc_error err = CC_ERROR_INIT;
-    cc_ch *ch = NULL;
-    if (cc_ch_open(&ch, url, &err))
-        return err.code == CC_EUSAGE ? cli_usage("publish", "%s", err.msg) : cli_fail(&err);
-    int rc = EXIT_OK;
     if (init) {
+        cc_ch *ch = NULL;
+        int rc = EXIT_OK;
+        if (cc_ch_open(&ch, url, &err))
+            return err.code == CC_EUSAGE ? cli_usage("publish", "%s", err.msg) : cli_fail(&err);
         if (cc_ch_schema_create(ch, &err))
             rc = cli_fail(&err);
         else
@@ -92,8 +82,37 @@ int cmd_publish(int argc, char **argv)
         return rc;
     }
     cc_store *store = NULL;
+    if (cli_store_open(&store, db, 0, &err))
+        return cli_fail(&err);
+    int rc = publish_with(store, db, url, source, "publish", po.retry_for_s);
+    cc_store_close(store);
+    return rc;
+}
+
+static int publish_with(cc_store *store, const char *db, const char *url, const char *source,
+                        const char *command, int retry_for_s)
+{
+    cc_publish_opts po = CC_PUBLISH_OPTS_INIT;
+    cc_error err = CC_ERROR_INIT;
+    char host[256];
+    if (!source) {
+        if (gethostname(host, sizeof host) != 0)
+            return cli_usage(command, "cannot read the host name; give --source");
+        host[sizeof host - 1] = 0;
+        source = host;
+    }
+    if (!cc_publish_source_ok(source))
+        return cli_usage(command,
+                         "--source '%s': use 1 to 64 letters, digits, '_', '-' or '.'", source);
+    po.source = source;
+    po.on_retry = on_retry;
+    po.retry_for_s = retry_for_s;
+    cc_ch *ch = NULL;
+    if (cc_ch_open(&ch, url, &err))
+        return err.code == CC_EUSAGE ? cli_usage(command, "%s", err.msg) : cli_fail(&err);
+    int rc = EXIT_OK;
     cc_publish_stats st;
-    if (cli_store_open(&store, db, 0, &err) || cc_publish_run(store, ch, &po, &st, &err)) {
+    if (cc_publish_run(store, ch, &po, &st, &err)) {
         rc = cli_fail(&err);
     } else {
         printf("published %s as '%s' (seq %lld): %lld summary vector%s, %lld event row%s, "
@@ -103,7 +122,12 @@ int cmd_publish(int argc, char **argv)
                st.labels_sent == 1 ? "" : "s", (long long)st.labels_applied,
                st.labels_applied == 1 ? "" : "s", (long long)st.bytes);
     }
-    cc_store_close(store);
     cc_ch_close(ch);
     return rc;
+}
+
+int cli_publish_store(cc_store *store, const char *db, const char *url, const char *source,
+                      const char *command)
+{
+    return publish_with(store, db, url, source, command, CC_PUBLISH_RETRY_DEFAULT_S);
 }

@@ -75,6 +75,19 @@ after="$(count summaries) $(count events)"
 [ "$before" = "$after" ] || fail "republishing changed the row counts: $before -> $after"
 compare_all again
 
+# ingest --publish and label --publish: committed, then published
+head -n 300 "$T/d/events.jsonl" > "$T/part.jsonl"
+"$C" ingest --db "$T/h2.db" --model pk2 --classes premium,extra,class-1,class-2,juice,cull \
+  --quiet --publish "$U" --source host-2 "$T/part.jsonl" > "$T/ip.out" 2> /dev/null \
+  || fail "ingest --publish: $(cat "$T/ip.out")"
+"$C" label --db "$T/h2.db" --model pk2 --publish "$U" --source host-2 "$T/d/labels.jsonl" \
+  > "$T/lp.out" 2> /dev/null || fail "label --publish: $(cat "$T/lp.out")"
+"$C" report --db "$T/h2.db" --model pk2 --by all --format json > "$T/pk2-sq.json"
+"$C" report --store "$U" --model pk2 --by all --format json > "$T/pk2-ch.json" || fail "report pk2"
+same "$T/pk2-sq.json" "$T/pk2-ch.json" "ingest --publish, label --publish: report pk2"
+rc=0; "$C" ingest --db "$T/h3.db" --publish "http://x" "$T/part.jsonl" 2> /dev/null || rc=$?
+[ $rc = 2 ] || fail "ingest --publish http://x: exit $rc, expected 2"
+
 # sqlite:PATH is --db PATH; --db with --store is refused; a bad URL names the forms
 "$C" report --store "sqlite:$T/h.db" --model ref --format json > "$T/sqlite-url.json"
 cmp -s "$T/sqlite-url.json" "$T/first-sq-ref-day.json" || fail "--store sqlite:PATH differs from --db"
