@@ -147,23 +147,32 @@ static int select_rb(ch_store *c, cc_buf *sql, const char *tail, cc_buf *ans, cc
     return rc;
 }
 
+/* The model's days in [from, to] with events, one row per day: cols
+ * selected from the merged summaries, in day order. */
+static int days_select(ch_store *c, const cc_model *m, const char *cols, int64_t from,
+                       int64_t to, cc_layout *l, cc_buf *ans, cc_error *err)
+{
+    if (cc_layout_init(l, m->m, m->k))
+        return cc_error_set(err, CC_EIO, "%s: model '%s' has a shape out of range", c->base.path,
+                            m->name);
+    cc_buf sql = CC_BUF_INIT;
+    char tail[256];
+    where_model(&sql, c, "summaries", cols, m);
+    snprintf(tail, sizeof tail,
+             " AND layout_version = %d AND slice = '' AND day >= %lld AND day <= %lld "
+             "GROUP BY day HAVING sum(events) > 0 ORDER BY day FORMAT RowBinary",
+             CC_SUMMARY_VERSION, (long long)from, (long long)to);
+    return select_rb(c, &sql, tail, ans, err);
+}
+
 /* Reads (day, counters) rows into the cache, or into one vector when
  * one_day is set. */
 static int read_vectors(ch_store *c, const cc_model *m, int64_t from, int64_t to, int64_t *one,
                         int *found, cc_error *err)
 {
     cc_layout l;
-    if (cc_layout_init(&l, m->m, m->k))
-        return cc_error_set(err, CC_EIO, "%s: model '%s' has a shape out of range", c->base.path,
-                            m->name);
-    cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
-    char tail[256];
-    where_model(&sql, c, "summaries", "day, sumForEach(counters)", m);
-    snprintf(tail, sizeof tail,
-             " AND layout_version = %d AND slice = '' AND day >= %lld AND day <= %lld "
-             "GROUP BY day HAVING sum(events) > 0 ORDER BY day FORMAT RowBinary",
-             CC_SUMMARY_VERSION, (long long)from, (long long)to);
-    int rc = select_rb(c, &sql, tail, &ans, err);
+    cc_buf ans = CC_BUF_INIT;
+    int rc = days_select(c, m, "day, sumForEach(counters)", from, to, &l, &ans, err);
     cc_rb rb = {ans.p, ans.p + ans.len};
     while (!rc && rb.p < rb.end) {
         int64_t day;
@@ -207,17 +216,8 @@ static int ch_summary_days(cc_store *s, const cc_model *m, int64_t from, int64_t
     *days = NULL;
     *n = 0;
     drop_cache(c);
-    if (cc_layout_init(&l, m->m, m->k))
-        return cc_error_set(err, CC_EIO, "%s: model '%s' has a shape out of range", s->path,
-                            m->name);
-    cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
-    char tail[256];
-    where_model(&sql, c, "summaries", "day", m);
-    snprintf(tail, sizeof tail,
-             " AND layout_version = %d AND slice = '' AND day >= %lld AND day <= %lld "
-             "GROUP BY day HAVING sum(events) > 0 ORDER BY day FORMAT RowBinary",
-             CC_SUMMARY_VERSION, (long long)from, (long long)to);
-    int rc = select_rb(c, &sql, tail, &ans, err);
+    cc_buf ans = CC_BUF_INIT;
+    int rc = days_select(c, m, "day", from, to, &l, &ans, err);
     size_t count = rc ? 0 : ans.len / 8;
     if (!rc && count && !(*days = malloc(count * sizeof **days)))
         rc = cc_error_set(err, CC_ENOMEM, "out of memory");

@@ -187,6 +187,29 @@ static int fetch_models(cc_ch *c, cc_store *dst, const cc_fetch_opts *o, cc_erro
     return rc;
 }
 
+/* The destination's model named by a row, when it is not m already: m is
+ * replaced (NULL on error); *changed tells the caller to renew what it
+ * keeps per model. */
+static int model_of_row(cc_store *dst, const char *name, size_t name_n, cc_model **m,
+                        int *changed, cc_error *err)
+{
+    *changed = 0;
+    if (*m && strlen((*m)->name) == name_n && memcmp((*m)->name, name, name_n) == 0)
+        return 0;
+    *changed = 1;
+    cc_model_free(*m);
+    *m = NULL;
+    char *z = strndup(name, name_n);
+    if (!z)
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    int rc = cc_store_model_get(dst, z, m, err);
+    if (rc == -CC_ENOTFOUND)
+        rc = cc_error_set(err, CC_EIO, "cluster: rows of model '%s' but no source published "
+                                       "the model itself", z);
+    free(z);
+    return rc;
+}
+
 static int fetch_summaries(cc_ch *c, cc_store *dst, const cc_fetch_opts *o, cc_error *err)
 {
     cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
@@ -211,24 +234,11 @@ static int fetch_summaries(cc_ch *c, cc_store *dst, const cc_fetch_opts *o, cc_e
             rc = truncated(c, "summaries", err);
             break;
         }
-        if (!m || strlen(m->name) != name_n || memcmp(m->name, name, name_n) != 0) {
-            char *z = strndup(name, name_n);
-            cc_model_free(m);
-            m = NULL;
+        int changed;
+        if ((rc = model_of_row(dst, name, name_n, &m, &changed, err)))
+            break;
+        if (changed) {
             cc_summary_free(sum);
-            sum = NULL;
-            if (!z) {
-                rc = cc_error_set(err, CC_ENOMEM, "out of memory");
-                break;
-            }
-            rc = cc_store_model_get(dst, z, &m, err);
-            if (rc == -CC_ENOTFOUND)
-                rc = cc_error_set(err, CC_EIO,
-                                  "cluster: summaries of model '%s' but no source published "
-                                  "the model itself", z);
-            free(z);
-            if (rc)
-                break;
             if (!(sum = cc_summary_create(m->m, m->k))) {
                 rc = cc_error_set(err, CC_ENOMEM, "out of memory");
                 break;
@@ -292,20 +302,11 @@ static int fetch_events(cc_ch *c, cc_store *dst, const cc_fetch_opts *o, cc_erro
             rc = truncated(c, "events", err);
             break;
         }
-        if (!m || strlen(m->name) != name_n || memcmp(m->name, name, name_n) != 0) {
-            char *z = strndup(name, name_n);
-            cc_model_free(m);
-            m = NULL;
+        int changed;
+        if ((rc = model_of_row(dst, name, name_n, &m, &changed, err)))
+            break;
+        if (changed) {
             free(probs);
-            probs = NULL;
-            if (!z) {
-                rc = cc_error_set(err, CC_ENOMEM, "out of memory");
-                break;
-            }
-            rc = cc_store_model_get(dst, z, &m, err);
-            free(z);
-            if (rc)
-                break;
             if (!(probs = malloc((size_t)m->m * (size_t)m->k * sizeof *probs))) {
                 rc = cc_error_set(err, CC_ENOMEM, "out of memory");
                 break;
