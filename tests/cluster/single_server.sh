@@ -6,10 +6,13 @@
 # within 1e-9 relative, json_same.py); review and show too. Then publishing
 # again, twice, changes nothing in the cluster, and --store sqlite:PATH is
 # --db PATH.
-# Usage: single_server.sh CONCORD SOURCE_DIR
+# The store backend's row reads that no command uses yet are compared with
+# the SQLite file's rows through ch_store_probe.
+# Usage: single_server.sh CONCORD SOURCE_DIR [CH_STORE_PROBE]
 set -euo pipefail
 C=$1
 SRC=$2
+PROBE=${3:-}
 HERE=$SRC/tests/cluster
 export CONCORD_NOW=1790000000
 T=$(mktemp -d "${TMPDIR:-/tmp}/concord-ch1.XXXXXX")
@@ -61,6 +64,24 @@ compare_all() { # TAG
 }
 compare_all first
 [ "$(grep -c . "$T/first-ch-ref-day.json")" -gt 0 ] || fail "empty report from the cluster"
+
+# the backend's row reads (ch_store_probe) against the SQLite rows
+if [ -n "$PROBE" ]; then
+  from=$(date -u -d 2026-03-01 +%s); to=$(date -u -d 2026-03-31T23:59:59 +%s)
+  "$PROBE" "$U" ref scan "$from" "$to" | sort > "$T/scan-ch.txt" || fail "probe scan"
+  sqlite3 -separator ' ' "$T/h.db" "SELECT e.id, e.ts, coalesce(e.label, -1) FROM events e JOIN models m ON m.model_id = e.model_id WHERE m.name = 'ref' AND e.ts BETWEEN $from AND $to" | sort > "$T/scan-sq.txt"
+  [ -s "$T/scan-sq.txt" ] && cmp -s "$T/scan-ch.txt" "$T/scan-sq.txt" || fail "events_scan differs from the SQLite rows"
+  for id in d1-000 d2-076 d3-208 nosuch; do
+    got=$("$PROBE" "$U" ref read "$id")
+    want=$(sqlite3 -separator ' ' "$T/h.db" "SELECT e.ts, coalesce(e.label, -1), coalesce(e.label_at, -1), coalesce(e.segment, '-') FROM events e JOIN models m ON m.model_id = e.model_id WHERE m.name = 'ref' AND e.id = '$id'")
+    [ "$got" = "${want:-absent}" ] || fail "event_read $id: '$got', expected '${want:-absent}'"
+  done
+  for d in 20500 20521 20523 20530 20600; do
+    got=$("$PROBE" "$U" ref lastlabeled "$d")
+    want=$(sqlite3 "$T/h.db" "SELECT coalesce(max(e.day), 'none') FROM events e JOIN models m ON m.model_id = e.model_id WHERE m.name = 'ref' AND e.label IS NOT NULL AND e.day <= $d")
+    [ "$got" = "$want" ] || fail "labeled_day_last $d: $got, expected $want"
+  done
+fi
 
 # republishing: nothing new is sent; a forced resend of everything (the
 # marks of a fresh copy of the store) leaves the cluster's answers the same
