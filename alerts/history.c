@@ -3,6 +3,7 @@
 
 #include <math.h>
 #include <sqlite3.h>
+#include "store_sqlite.h" /* temporary: step 2 moves this SQL into the store */
 
 #include "state.h"
 

@@ -6,6 +6,7 @@
 
 #include <errno.h>
 #include <sqlite3.h>
+#include "store_sqlite.h" /* temporary: step 2 moves this SQL into the store */
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>

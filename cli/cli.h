@@ -53,6 +53,21 @@ int cli_exit_for(int code);
  * saying so once on stderr when it has to wait. */
 struct cc_store;
 int cli_store_open(struct cc_store **out, const char *path, int flags, cc_error *err);
+/* The store a reading command names (store_url.c): --db PATH, or --store
+ * sqlite:PATH or clickhouse://HOST:PORT/DATABASE. A cluster's merged view of
+ * model (NULL: all), with its event rows when events is set (only event_id's
+ * when not NULL), is copied into a temporary store first. Close it with
+ * cli_store_url_close, which removes the copy. */
+int cli_store_url_open(const char *command, const char *db, const char *url, const char *model,
+                       int events, const char *event_id, struct cc_store **out, cc_error *err);
+void cli_store_url_close(struct cc_store *s);
+int cmd_publish(int argc, char **argv);
+/* Publishes an open writable store (cmd_publish.c), printing what was sent;
+ * source NULL: the host name. Returns an exit code. */
+int cli_publish_store(struct cc_store *store, const char *db, const char *url,
+                      const char *source, const char *command);
+extern const char help_publish[];
+
 /* The wait bound in ms: --wait (any command accepts it), else CONCORD_WAIT,
  * else dflt_ms. */
 int cli_wait_ms(int64_t dflt_ms);

@@ -10,7 +10,8 @@
 
 const char help_ingest[] =
     "usage: concord ingest --db FILE [--model NAME] [--classes A,B,...] [--members X,Y,...]\n"
-    "                      [--strict] [--batch N] [--quiet] FILE...\n\n"
+    "                      [--strict] [--batch N] [--quiet] [--publish URL [--source NAME]]\n"
+    "                      FILE...\n\n"
     "Reads prediction events, one JSON object per line ('-' reads standard input), and\n"
     "stores each with the per-day summaries it adds to. Lines that fail validation are\n"
     "refused with the file, line and reason, recorded in the database's rejects table,\n"
@@ -25,7 +26,10 @@ const char help_ingest[] =
     "  --ts-range FROM,TO  accept event times from the day FROM to the day TO, both\n"
     "                   included (UTC dates; default 2000-01-01,2099-12-31); others are\n"
     "                   refused with the reason\n"
-    "  --quiet          print rejected lines' reasons only in the tally\n\n"
+    "  --quiet          print rejected lines' reasons only in the tally\n"
+    "  --publish URL    then publish the store to clickhouse://HOST:PORT/DATABASE, as\n"
+    "                   'concord publish' does (--source NAME, default the host name);\n"
+    "                   a failed publish is exit 3 with the events kept locally\n\n"
     "exit: 0 all lines stored or duplicates, 1 some lines rejected (with --strict:\n"
     "nothing stored), 2 usage, 3 file or database error (an input file that cannot be\n"
     "read is reported and skipped; the lines of the other files are stored)\n";
@@ -35,7 +39,8 @@ const char help_label[] =
     "Reads delayed labels, one {\"id\": ..., \"label\": CLASS} per line (CLASS an index or\n"
     "a class name; optional \"model\"), and adds each to the labelled part of its event's\n"
     "day. A label that differs from an earlier one replaces it exactly. A label whose\n"
-    "event is not stored yet waits and is applied when the event is ingested.\n\n"
+    "event is not stored yet waits and is applied when the event is ingested.\n"
+    "--publish URL [--source NAME] then publishes the store, as 'concord publish' does.\n\n"
     "exit: 0 ok, 1 some lines rejected, 2 usage, 3 file or database error (an input\n"
     "file that cannot be read is reported and skipped; the others are applied)\n";
 
@@ -91,6 +96,7 @@ static int run(int argc, char **argv, cc_record_kind kind)
         {"db", 0, 1, NULL},      {"model", 0, 1, NULL}, {"classes", 0, 1, NULL},
         {"members", 0, 1, NULL}, {"strict", 0, 0, NULL}, {"batch", 0, 1, NULL},
         {"quiet", 'q', 0, NULL}, {"ts-range", 0, 1, NULL},
+        {"publish", 0, 1, NULL}, {"source", 0, 1, NULL},
     };
     int n_opts = (int)(sizeof opts / sizeof *opts), n_pos, help;
     char **pos = calloc((size_t)argc + 1, sizeof *pos);
@@ -104,6 +110,12 @@ static int run(int argc, char **argv, cc_record_kind kind)
         return EXIT_OK;
     }
     const char *db = cli_get(opts, n_opts, "db");
+    if (cli_get(opts, n_opts, "publish") &&
+        strncmp(cli_get(opts, n_opts, "publish"), "clickhouse://", 13) != 0) {
+        free(pos);
+        return cli_usage(command, "--publish takes clickhouse://HOST:PORT/DATABASE, not '%s'",
+                         cli_get(opts, n_opts, "publish"));
+    }
     int rc = EXIT_OK, n_classes = 0, n_members = 0;
     char **classes = NULL, **members = NULL;
     if (!db)
@@ -226,6 +238,14 @@ static int run(int argc, char **argv, cc_record_kind kind)
         }
     }
     cc_ingest_free(ing);
+    ing = NULL;
+    /* --publish: what this run committed goes to the cluster */
+    if (!e && cli_get(opts, n_opts, "publish") && store) {
+        int prc = cli_publish_store(store, db, cli_get(opts, n_opts, "publish"),
+                                    cli_get(opts, n_opts, "source"), command);
+        if (prc != EXIT_OK)
+            rc = prc;
+    }
     cc_store_close(store);
     cli_free_names(classes, n_classes);
     cli_free_names(members, n_members);

@@ -11,7 +11,7 @@
 #include "review.h"
 
 const char help_report[] =
-    "usage: concord report --db FILE --model NAME [--from DATE] [--to DATE]\n"
+    "usage: concord report (--db FILE | --store URL) --model NAME [--from DATE] [--to DATE]\n"
     "                      [--by day|week|all] [--format text|json|html] [--no-review]\n"
     "                      [--rules FILE] [-o FILE]\n\n"
     "Diversity of the members (disagreement, Cohen's and Fleiss' kappa), uncertainty of\n"
@@ -29,7 +29,10 @@ const char help_report[] =
     "                     (from a fresh state, recording and sending nothing) and add the\n"
     "                     alert timeline; the HTML page's status line always comes from\n"
     "                     such a replay, of the default rules when --rules is not given\n"
-    "  -o FILE            write there instead of standard output\n\n"
+    "  -o FILE            write there instead of standard output\n"
+    "  --store URL        sqlite:PATH (the same as --db PATH) or\n"
+    "                     clickhouse://HOST:PORT/DATABASE: the cluster's merged summaries\n"
+    "                     (see 'concord publish'); fails when a shard does not answer\n\n"
     "exit: 0 ok, 2 usage, 3 file or database error, 4 unknown model\n";
 
 /* The alert timeline over the report's days (NULL rules_path: the default
@@ -98,8 +101,8 @@ int cmd_report(int argc, char **argv)
     cli_opt opts[] = {{"db", 0, 1, NULL},  {"model", 0, 1, NULL},  {"from", 0, 1, NULL},
                       {"to", 0, 1, NULL},  {"by", 0, 1, NULL},     {"format", 0, 1, NULL},
                       {"output", 'o', 1, NULL}, {"no-review", 0, 0, NULL},
-                      {"rules", 0, 1, NULL}};
-    int n_opts = 9, n_pos, help;
+                      {"rules", 0, 1, NULL}, {"store", 0, 1, NULL}};
+    int n_opts = 10, n_pos, help;
     char *pos[64];
     if (argc > 64 || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, "report"))
         return EXIT_USAGE;
@@ -112,8 +115,9 @@ int cmd_report(int argc, char **argv)
     const char *by = cli_get(opts, n_opts, "by"), *format = cli_get(opts, n_opts, "format");
     const char *out = cli_get(opts, n_opts, "output");
     ro.model = cli_get(opts, n_opts, "model");
-    if (!db || !ro.model)
-        return cli_usage("report", "--db and --model are required");
+    const char *url = cli_get(opts, n_opts, "store");
+    if ((!db && !url) || !ro.model)
+        return cli_usage("report", "--db (or --store) and --model are required");
     if (n_pos)
         return cli_usage("report", "unexpected argument '%s'", pos[0]);
     if (cli_get(opts, n_opts, "from")) {
@@ -145,14 +149,15 @@ int cmd_report(int argc, char **argv)
     cc_store *store = NULL;
     cc_report *r = NULL;
     int rc = EXIT_OK;
-    if (cli_store_open(&store, db, CC_STORE_READONLY, &err))
+    if (cli_store_url_open("report", db, url, ro.model, html && !cli_get(opts, n_opts, "no-review"),
+                           NULL, &store, &err))
         return cli_fail(&err);
     if (!html && !cli_get(opts, n_opts, "rules")) {
         /* text and JSON are written window by window as they are computed,
          * through the checked writer (no partial file on failure) */
         cc_out *o;
         if (cc_out_open(&o, out, json ? 0 : CC_OUT_TEXT, &err)) {
-            cc_store_close(store);
+            cli_store_url_close(store);
             return cli_fail(&err);
         }
         FILE *f = cc_out_stream(o);
@@ -169,7 +174,7 @@ int cmd_report(int argc, char **argv)
             if (cc_out_commit(o, &err))
                 rc = cli_fail(&err);
         }
-        cc_store_close(store);
+        cli_store_url_close(store);
         return rc;
     }
     if (cc_report_build(&r, store, &ro, &err)) {
@@ -192,7 +197,7 @@ int cmd_report(int argc, char **argv)
         }
         if (rc != EXIT_OK) {
             cc_report_free(r);
-            cc_store_close(store);
+            cli_store_url_close(store);
             return rc;
         }
         if (!text) {
@@ -205,6 +210,6 @@ int cmd_report(int argc, char **argv)
         free(text);
     }
     cc_report_free(r);
-    cc_store_close(store);
+    cli_store_url_close(store);
     return rc;
 }

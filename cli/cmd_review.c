@@ -13,8 +13,9 @@
 #include "review_render.h"
 
 const char help_review[] =
-    "usage: concord review --db FILE --model NAME --from TS --to TS [--segment S]\n"
-    "                      [--where WHAT] [--limit N] [--format text|json|csv] [-o FILE]\n\n"
+    "usage: concord review (--db FILE | --store URL) --model NAME --from TS --to TS\n"
+    "                      [--segment S] [--where WHAT] [--limit N]\n"
+    "                      [--format text|json|csv] [-o FILE]\n\n"
     "Lists the events of a time range that answer one question, after a summary of the\n"
     "range: counts per category, the ensemble's confusion matrix, the contested class\n"
     "pairs, and for each member how often it was the lone right or lone wrong voice.\n"
@@ -35,8 +36,10 @@ const char help_review[] =
     "                     margin (the most confident answer) first.\n"
     "  --limit N          events per list (default 20)\n"
     "  --format F         text (default), json, or csv (one row per event, no summary)\n"
-    "  -o FILE            write there instead of standard output\n\n"
-    "exit: 0 ok, 2 usage, 3 file or database error, 4 unknown model\n";
+    "  -o FILE            write there instead of standard output\n"
+    "  --store URL        sqlite:PATH (the same as --db PATH) or\n"
+    "                     clickhouse://HOST:PORT/DATABASE: the events of a cluster\n\n"
+    "exit: 0 ok, 2 usage, 3 file, database or cluster error, 4 unknown model\n";
 
 /* An RFC 3339 date-time, or a date meaning its first (start) or last second. */
 static int parse_ts(const char *command, const char *opt, const char *text, int end,
@@ -122,8 +125,9 @@ int cmd_review(int argc, char **argv)
 {
     cli_opt opts[] = {{"db", 0, 1, NULL},      {"model", 0, 1, NULL},  {"from", 0, 1, NULL},
                       {"to", 0, 1, NULL},      {"segment", 0, 1, NULL}, {"where", 0, 1, NULL},
-                      {"limit", 0, 1, NULL},   {"format", 0, 1, NULL}, {"output", 'o', 1, NULL}};
-    int n_opts = 9, n_pos, help;
+                      {"limit", 0, 1, NULL},   {"format", 0, 1, NULL}, {"output", 'o', 1, NULL},
+                      {"store", 0, 1, NULL}};
+    int n_opts = 10, n_pos, help;
     char *pos[64];
     if (argc > 64 || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, "review"))
         return EXIT_USAGE;
@@ -133,8 +137,9 @@ int cmd_review(int argc, char **argv)
     }
     const char *db = cli_get(opts, n_opts, "db"), *model = cli_get(opts, n_opts, "model");
     const char *format = cli_get(opts, n_opts, "format"), *limit = cli_get(opts, n_opts, "limit");
-    if (!db || !model)
-        return cli_usage("review", "--db and --model are required");
+    const char *url = cli_get(opts, n_opts, "store");
+    if ((!db && !url) || !model)
+        return cli_usage("review", "--db (or --store) and --model are required");
     if (n_pos)
         return cli_usage("review", "unexpected argument '%s'", pos[0]);
     cc_review_opts ro = CC_REVIEW_OPTS_INIT;
@@ -162,7 +167,7 @@ int cmd_review(int argc, char **argv)
     cc_model *m = NULL;
     cc_review *rv = NULL;
     int rc = EXIT_OK;
-    if (cli_store_open(&store, db, CC_STORE_READONLY, &err) || cc_store_model_get(store, model, &m, &err)) {
+    if (cli_store_url_open("review", db, url, model, 1, NULL, &store, &err) || cc_store_model_get(store, model, &m, &err)) {
         rc = cli_fail(&err);
     } else if (parse_where(cli_get(opts, n_opts, "where"), m, &ro)) {
         rc = EXIT_USAGE;
@@ -198,6 +203,6 @@ int cmd_review(int argc, char **argv)
     }
     cc_review_free(rv);
     cc_model_free(m);
-    cc_store_close(store);
+    cli_store_url_close(store);
     return rc;
 }

@@ -8,16 +8,17 @@
 #include "review_render.h"
 
 const char help_show[] =
-    "usage: concord show --db FILE --model NAME [--format text|json] ID\n\n"
+    "usage: concord show (--db FILE | --store URL) --model NAME [--format text|json] ID\n\n"
     "One event in full: every member's probability vector, the averaged vector and the\n"
     "ensemble's class, the vote, the label, which members agree with the ensemble and\n"
-    "which were right, the margin, the entropy split and the members' disagreement.\n\n"
+    "which were right, the margin, the entropy split and the members' disagreement.\n"
+    "--store takes sqlite:PATH or clickhouse://HOST:PORT/DATABASE (a cluster).\n\n"
     "exit: 0 ok, 2 usage, 3 file or database error, 4 unknown model or event\n";
 
 int cmd_show(int argc, char **argv)
 {
-    cli_opt opts[] = {{"db", 0, 1, NULL}, {"model", 0, 1, NULL}, {"format", 0, 1, NULL}};
-    int n_opts = 3, n_pos, help;
+    cli_opt opts[] = {{"db", 0, 1, NULL}, {"model", 0, 1, NULL}, {"format", 0, 1, NULL}, {"store", 0, 1, NULL}};
+    int n_opts = 4, n_pos, help;
     char *pos[64];
     if (argc > 64 || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, "show"))
         return EXIT_USAGE;
@@ -27,8 +28,9 @@ int cmd_show(int argc, char **argv)
     }
     const char *db = cli_get(opts, n_opts, "db"), *model = cli_get(opts, n_opts, "model");
     const char *format = cli_get(opts, n_opts, "format");
-    if (!db || !model)
-        return cli_usage("show", "--db and --model are required");
+    const char *url = cli_get(opts, n_opts, "store");
+    if ((!db && !url) || !model)
+        return cli_usage("show", "--db (or --store) and --model are required");
     if (n_pos != 1)
         return cli_usage("show", "give exactly one event id");
     int json = format && strcmp(format, "json") == 0;
@@ -40,7 +42,7 @@ int cmd_show(int argc, char **argv)
     cc_model *m = NULL;
     cc_review_event *e = NULL;
     int rc = EXIT_OK;
-    if (cli_store_open(&store, db, CC_STORE_READONLY, &err) || cc_store_model_get(store, model, &m, &err) ||
+    if (cli_store_url_open("show", db, url, model, 1, pos[0], &store, &err) || cc_store_model_get(store, model, &m, &err) ||
         cc_review_event_get(store, m, pos[0], &e, &err)) {
         rc = cli_fail(&err);
         if (m && err.code == CC_ENOTFOUND)
@@ -57,6 +59,6 @@ int cmd_show(int argc, char **argv)
     }
     cc_review_event_free(e);
     cc_model_free(m);
-    cc_store_close(store);
+    cli_store_url_close(store);
     return rc;
 }

@@ -26,6 +26,7 @@ static const cli_command commands[] = {
     {"deliver", cmd_deliver, "retry notifications waiting in the outbox", help_deliver},
     {"follow", cmd_follow, "tail growing log files, ingest, check when a day closes",
      help_follow},
+    {"publish", cmd_publish, "send a host's store to a ClickHouse cluster", help_publish},
 };
 
 const char *cli_program = "concord";

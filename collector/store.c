@@ -14,22 +14,18 @@
 #include <unistd.h>
 
 #include "date.h"
+#include "store_sqlite.h"
 #include "summary_codec.h"
 
-/* 1: the first layout; 2: pruned_days; 3: events in arrival order (a rowid
- * table) with a unique index on (model_id, id). */
-#define SCHEMA_VERSION 3
+static void sq_close(cc_store *store);
+static void sq_work_abort(cc_store *store);
+static void sq_snapshot_end(cc_store *store);
 
-enum {
-    ST_EVENT_INSERT,
-    ST_EVENT_GET,
-    ST_EVENT_SET_LABEL,
-    ST_SUMMARY_GET,
-    ST_SUMMARY_PUT,
-    ST_REJECT,
-    ST_PENDING_ADD,
-    ST_COUNT
-};
+/* 1: the first layout; 2: pruned_days; 3: events in arrival order (a rowid
+ * table) with a unique index on (model_id, id); 4: what changed since the
+ * last publish to a cluster (upgrade_publish_marks). */
+#define SCHEMA_VERSION 4
+
 
 static const char *const stmt_sql[ST_COUNT] = {
     [ST_EVENT_INSERT] = "INSERT OR IGNORE INTO events(model_id, id, ts, day, segment, pred, "
@@ -45,23 +41,10 @@ static const char *const stmt_sql[ST_COUNT] = {
                   "VALUES (?1, ?2, ?3, ?4, ?5, ?6)",
     [ST_PENDING_ADD] = "INSERT OR REPLACE INTO pending_labels(model_id, id, label, received_at) "
                        "VALUES (?1, ?2, ?3, ?4)",
+    [ST_EVENT_READ] = "SELECT ts, segment, label, probs, label_at FROM events "
+                      "WHERE model_id = ?1 AND id = ?2",
 };
 
-struct cc_store {
-    sqlite3 *db;
-    char *path;
-    sqlite3_stmt *st[ST_COUNT];
-    cc_summary *scratch; /* reused by cc_store_summary_add */
-    cc_store_opts o;
-    int readonly;
-    int64_t version;     /* schema version of the file */
-    int lock_fd;         /* the database file, for the waiting-writer flag (flock) */
-    int in_begin;        /* inside cc_store_begin: a wait raises the flag */
-    int flagged;         /* this store holds the flag */
-    int wait_noted, timed_out;
-    int own_snapshot;    /* cc_store_snapshot_begin opened a read transaction */
-    int64_t wait_start_ms;
-};
 
 #define EVENTS_COLUMNS                                                                         \
     "model_id INTEGER NOT NULL, id TEXT NOT NULL, ts INTEGER NOT NULL, day INTEGER NOT NULL,"   \
@@ -110,6 +93,39 @@ static const char schema_sql[] =
     "  events INTEGER NOT NULL, counters BLOB NOT NULL, pruned_at INTEGER NOT NULL,"
     "  PRIMARY KEY(model_id, day)) WITHOUT ROWID;";
 
+/* Version 4, publishing (cluster/publish.c): triggers note every summary
+ * written and every label changed; INSERT OR REPLACE gives a re-noted row a
+ * new, higher rowid (mark), so a publisher that sent everything up to mark R
+ * clears exactly that and keeps what changed meanwhile. New events need no
+ * trigger: they are the rows past publish_state's 'event_rowid'. */
+static const char publish_marks_sql[] =
+    "CREATE TABLE IF NOT EXISTS publish_state(key TEXT PRIMARY KEY, value INTEGER NOT NULL);"
+    "CREATE TABLE IF NOT EXISTS publish_days(mark INTEGER PRIMARY KEY,"
+    "  model_id INTEGER NOT NULL, day INTEGER NOT NULL, UNIQUE(model_id, day));"
+    "CREATE TABLE IF NOT EXISTS publish_relabels(mark INTEGER PRIMARY KEY,"
+    "  event_rowid INTEGER NOT NULL UNIQUE);"
+    "CREATE TRIGGER IF NOT EXISTS publish_note_day AFTER INSERT ON summaries BEGIN"
+    "  INSERT OR REPLACE INTO publish_days(model_id, day) VALUES (NEW.model_id, NEW.day);"
+    " END;"
+    "CREATE TRIGGER IF NOT EXISTS publish_note_relabel AFTER UPDATE OF label, label_at"
+    "  ON events BEGIN"
+    "  INSERT OR REPLACE INTO publish_relabels(event_rowid) VALUES (NEW.rowid);"
+    " END;";
+
+static int exec(sq_store *s, const char *sql, cc_error *err);
+
+/* The upgrade step to version 4: the publish bookkeeping above. A store
+ * upgraded from version 3 has never been published: its days are all marked
+ * and its events all lie past event_rowid 0. */
+static int upgrade_publish_marks(sq_store *s, int64_t from_version, cc_error *err)
+{
+    int rc = exec(s, publish_marks_sql, err);
+    if (!rc && from_version >= 1 && from_version < 4)
+        rc = exec(s, "INSERT OR IGNORE INTO publish_days(model_id, day) "
+                     "SELECT model_id, day FROM summaries ORDER BY model_id, day;", err);
+    return rc;
+}
+
 static int64_t now_ms(void)
 {
     struct timespec ts;
@@ -124,7 +140,7 @@ static void sleep_ms(int ms)
         ;
 }
 
-static int db_error(cc_store *s, cc_error *err, const char *what)
+static int db_error(sq_store *s, cc_error *err, const char *what)
 {
     int code = sqlite3_errcode(s->db);
     if (code == SQLITE_BUSY || code == SQLITE_LOCKED)
@@ -135,7 +151,7 @@ static int db_error(cc_store *s, cc_error *err, const char *what)
     return cc_error_set(err, CC_EIO, "%s: %s: %s", s->path, what, sqlite3_errmsg(s->db));
 }
 
-static int exec(cc_store *s, const char *sql, cc_error *err)
+static int exec(sq_store *s, const char *sql, cc_error *err)
 {
     char *msg = NULL;
     if (sqlite3_exec(s->db, sql, NULL, NULL, &msg) != SQLITE_OK) {
@@ -150,7 +166,7 @@ static int exec(cc_store *s, const char *sql, cc_error *err)
     return 0;
 }
 
-static sqlite3_stmt *stmt(cc_store *s, int which)
+static sqlite3_stmt *stmt(sq_store *s, int which)
 {
     sqlite3_stmt *st = s->st[which];
     sqlite3_reset(st);
@@ -168,7 +184,7 @@ static sqlite3_stmt *stmt(cc_store *s, int which)
 
 static int busy_handler(void *p, int count)
 {
-    cc_store *s = p;
+    sq_store *s = p;
     int64_t t = now_ms();
     if (count == 0) {
         s->wait_start_ms = t;
@@ -192,7 +208,7 @@ static int busy_handler(void *p, int count)
     return 1;
 }
 
-static void lower_flag(cc_store *s)
+static void lower_flag(sq_store *s)
 {
     if (s->flagged) {
         flock(s->lock_fd, LOCK_UN);
@@ -200,7 +216,7 @@ static void lower_flag(cc_store *s)
     }
 }
 
-static void hand_off(cc_store *s)
+static void hand_off(sq_store *s)
 {
     if (s->lock_fd < 0)
         return;
@@ -215,16 +231,17 @@ static void hand_off(cc_store *s)
     flock(s->lock_fd, LOCK_UN);
 }
 
-int cc_store_take_timed_out(cc_store *s)
+static int sq_take_timed_out(cc_store *store)
 {
+    sq_store *s = SQ(store);
     int t = s->timed_out;
     s->timed_out = 0;
     return t;
 }
 
-int cc_store_readonly(const cc_store *s) { return s->readonly; }
+static int sq_readonly(const cc_store *store) { return ((const sq_store *)store)->readonly; }
 
-static int begin_write(cc_store *s, cc_error *err)
+static int begin_write(sq_store *s, cc_error *err)
 {
     if (s->readonly)
         return cc_error_set(err, CC_EIO, "%s: opened read-only", s->path);
@@ -237,7 +254,7 @@ static int begin_write(cc_store *s, cc_error *err)
 
 /* schema_version from meta: 0 when there is no meta table or no row. Read
  * as 64 bits, so no version wraps round to an old one. */
-static int read_version(cc_store *s, int64_t *version, cc_error *err)
+static int read_version(sq_store *s, int64_t *version, cc_error *err)
 {
     sqlite3_stmt *st = NULL;
     *version = 0;
@@ -262,7 +279,7 @@ static int read_version(cc_store *s, int64_t *version, cc_error *err)
     return 0;
 }
 
-static int check_version(cc_store *s, int64_t version, cc_error *err)
+static int check_version(sq_store *s, int64_t version, cc_error *err)
 {
     if (version < 0)
         return cc_error_set(err, CC_EIO, "%s: schema version %lld is not valid; the database "
@@ -277,7 +294,7 @@ static int check_version(cc_store *s, int64_t version, cc_error *err)
 
 /* Creates or upgrades the schema in one write transaction, unless it is
  * current already (then nothing is written). */
-static int bring_up_to_date(cc_store *s, cc_error *err)
+static int bring_up_to_date(sq_store *s, cc_error *err)
 {
     int64_t version;
     int rc = read_version(s, &version, err);
@@ -292,8 +309,8 @@ static int bring_up_to_date(cc_store *s, cc_error *err)
     /* another writer may have done it meanwhile */
     if ((rc = read_version(s, &version, err)) || (rc = check_version(s, version, err)) ||
         (version >= 1 && version < 3 && (rc = exec(s, events_v3_sql, err))) ||
-        (rc = exec(s, schema_sql, err))) {
-        cc_store_rollback(s);
+        (rc = exec(s, schema_sql, err)) || (rc = upgrade_publish_marks(s, version, err))) {
+        sq_work_abort(&s->base);
         return rc;
     }
     char sql[128];
@@ -301,14 +318,14 @@ static int bring_up_to_date(cc_store *s, cc_error *err)
              "INSERT OR REPLACE INTO meta(key, value) VALUES ('schema_version', '%d');",
              SCHEMA_VERSION);
     if ((rc = exec(s, sql, err)) || (rc = exec(s, "COMMIT;", err))) {
-        cc_store_rollback(s);
+        sq_work_abort(&s->base);
         return rc;
     }
     s->version = SCHEMA_VERSION;
     return 0;
 }
 
-static int open_errno(cc_store *s, const char *what, cc_error *err)
+static int open_errno(sq_store *s, const char *what, cc_error *err)
 {
     if (errno == ENOENT)
         return cc_error_set(err, CC_EIO, "%s: no such database (a reading command never "
@@ -341,13 +358,13 @@ static int wal_pending(const char *path)
     return stat(wal, &st) == 0 && st.st_size > 0;
 }
 
-static int start_snapshot(cc_store *s)
+static int start_snapshot(sq_store *s)
 {
     return sqlite3_exec(s->db, "BEGIN; SELECT count(*) FROM sqlite_master;", NULL, NULL,
                         NULL);
 }
 
-static int open_reader(cc_store *s, cc_error *err)
+static int open_reader(sq_store *s, cc_error *err)
 {
     int flags = SQLITE_OPEN_READONLY | SQLITE_OPEN_NOMUTEX;
     int rc = sqlite3_open_v2(s->path, &s->db, flags, NULL);
@@ -381,7 +398,7 @@ static int open_reader(cc_store *s, cc_error *err)
                         s->db ? sqlite3_errmsg(s->db) : sqlite3_errstr(rc));
 }
 
-static int open_writer(cc_store *s, cc_error *err)
+static int open_writer(sq_store *s, cc_error *err)
 {
     int flags = SQLITE_OPEN_READWRITE | SQLITE_OPEN_NOMUTEX;
     if (sqlite3_open_v2(s->path, &s->db, flags, NULL) != SQLITE_OK)
@@ -397,13 +414,15 @@ static int open_writer(cc_store *s, cc_error *err)
 int cc_store_open_with(cc_store **out, const char *path, const cc_store_opts *o,
                        cc_error *err)
 {
-    cc_store *s = calloc(1, sizeof *s);
+    sq_store *s = calloc(1, sizeof *s);
     int rc;
     *out = NULL;
     if (!s || !(s->path = strdup(path))) {
         free(s);
         return cc_error_set(err, CC_ENOMEM, "out of memory");
     }
+    s->base.be = &cc_sq_backend;
+    s->base.path = s->path;
     s->o = *o;
     s->lock_fd = -1;
     s->readonly = (o->flags & CC_STORE_READONLY) != 0;
@@ -435,7 +454,7 @@ int cc_store_open_with(cc_store **out, const char *path, const cc_store_opts *o,
             goto fail;
     }
     for (int i = 0; i < ST_COUNT; i++) {
-        if (s->readonly && i != ST_EVENT_GET && i != ST_SUMMARY_GET)
+        if (s->readonly && i != ST_EVENT_GET && i != ST_SUMMARY_GET && i != ST_EVENT_READ)
             continue;
         if (sqlite3_prepare_v3(s->db, stmt_sql[i], -1, SQLITE_PREPARE_PERSISTENT, &s->st[i],
                                NULL) != SQLITE_OK) {
@@ -443,10 +462,10 @@ int cc_store_open_with(cc_store **out, const char *path, const cc_store_opts *o,
             goto fail;
         }
     }
-    *out = s;
+    *out = &s->base;
     return 0;
 fail:
-    cc_store_close(s);
+    sq_close(&s->base);
     return rc;
 }
 
@@ -457,8 +476,9 @@ int cc_store_open(cc_store **out, const char *path, int flags, cc_error *err)
     return cc_store_open_with(out, path, &o, err);
 }
 
-void cc_store_close(cc_store *s)
+static void sq_close(cc_store *store)
 {
+    sq_store *s = SQ(store);
     if (!s)
         return;
     for (int i = 0; i < ST_COUNT; i++)
@@ -475,39 +495,47 @@ void cc_store_close(cc_store *s)
     free(s);
 }
 
-sqlite3 *cc_store_db(cc_store *s) { return s->db; }
-const char *cc_store_path(const cc_store *s) { return s->path; }
+sqlite3 *cc_store_db(cc_store *s) { return s->be == &cc_sq_backend ? SQ(s)->db : NULL; }
 
-int cc_store_snapshot_begin(cc_store *s, cc_error *err)
+static int sq_snapshot_begin(cc_store *store, cc_error *err)
 {
+    sq_store *s = SQ(store);
+    if (s->own_snapshot) { /* nested inside one of ours */
+        s->own_snapshot++;
+        return 0;
+    }
     if (!sqlite3_get_autocommit(s->db))
         return 0;
     s->own_snapshot = 1;
     if (start_snapshot(s) != SQLITE_OK) {
         int rc = db_error(s, err, "starting a read transaction");
-        cc_store_snapshot_end(s);
+        sq_snapshot_end(&s->base);
         return rc;
     }
     return 0;
 }
 
-void cc_store_snapshot_end(cc_store *s)
+static void sq_snapshot_end(cc_store *store)
 {
-    if (s->own_snapshot && !sqlite3_get_autocommit(s->db))
+    sq_store *s = SQ(store);
+    if (s->own_snapshot == 0 || --s->own_snapshot > 0)
+        return;
+    if (!sqlite3_get_autocommit(s->db))
         sqlite3_exec(s->db, "COMMIT;", NULL, NULL, NULL);
-    s->own_snapshot = 0;
 }
 
-int cc_store_begin(cc_store *s, cc_error *err) { return begin_write(s, err); }
-int cc_store_commit(cc_store *s, cc_error *err)
+static int sq_work_begin(cc_store *store, cc_error *err) { return begin_write(SQ(store), err); }
+static int sq_work_commit(cc_store *store, cc_error *err)
 {
+    sq_store *s = SQ(store);
     int rc = exec(s, "COMMIT;", err);
     if (!rc)
         hand_off(s);
     return rc;
 }
-void cc_store_rollback(cc_store *s)
+static void sq_work_abort(cc_store *store)
 {
+    sq_store *s = SQ(store);
     if (!sqlite3_get_autocommit(s->db))
         exec(s, "ROLLBACK;", NULL);
 }
@@ -568,8 +596,9 @@ static char *names_to_json(char *const *names, int n, const char *fallback_prefi
     return text;
 }
 
-int cc_store_model_get(cc_store *s, const char *name, cc_model **out, cc_error *err)
+static int sq_model_get(cc_store *store, const char *name, cc_model **out, cc_error *err)
 {
+    sq_store *s = SQ(store);
     sqlite3_stmt *st;
     int rc = 0;
     *out = NULL;
@@ -605,9 +634,10 @@ int cc_store_model_get(cc_store *s, const char *name, cc_model **out, cc_error *
     return rc;
 }
 
-int cc_store_model_create(cc_store *s, const char *name, int m, int k, char *const *classes,
+static int sq_model_create(cc_store *store, const char *name, int m, int k, char *const *classes,
                           char *const *members, cc_model **out, cc_error *err)
 {
+    sq_store *s = SQ(store);
     sqlite3_stmt *st;
     char *cj = names_to_json(classes, k, ""), *mj = names_to_json(members, m, "m");
     int rc = 0;
@@ -634,11 +664,12 @@ int cc_store_model_create(cc_store *s, const char *name, int m, int k, char *con
     }
     free(cj);
     free(mj);
-    return rc ? rc : cc_store_model_get(s, name, out, err);
+    return rc ? rc : sq_model_get(&s->base, name, out, err);
 }
 
-int cc_store_model_list(cc_store *s, char ***out, int *n, cc_error *err)
+static int sq_model_list(cc_store *store, char ***out, int *n, cc_error *err)
 {
+    sq_store *s = SQ(store);
     sqlite3_stmt *st;
     *out = NULL;
     *n = 0;
@@ -656,10 +687,11 @@ int cc_store_model_list(cc_store *s, char ***out, int *n, cc_error *err)
     return 0;
 }
 
-int cc_store_event_insert(cc_store *s, const cc_model *m, const char *id, int id_len,
+static int sq_event_insert(cc_store *store, const cc_model *m, const char *id, int id_len,
                           int64_t ts, const char *segment, int segment_len, int pred,
                           int label, const float *probs, int *inserted, cc_error *err)
 {
+    sq_store *s = SQ(store);
     sqlite3_stmt *st = stmt(s, ST_EVENT_INSERT);
     sqlite3_bind_int64(st, 1, m->id);
     sqlite3_bind_text(st, 2, id, id_len, SQLITE_STATIC);
@@ -678,9 +710,10 @@ int cc_store_event_insert(cc_store *s, const cc_model *m, const char *id, int id
     return 0;
 }
 
-int cc_store_event_get(cc_store *s, const cc_model *m, const char *id, int id_len, int *found,
+static int sq_event_get(cc_store *store, const cc_model *m, const char *id, int id_len, int *found,
                        cc_stored_event *out, float *probs, cc_error *err)
 {
+    sq_store *s = SQ(store);
     sqlite3_stmt *st = stmt(s, ST_EVENT_GET);
     sqlite3_bind_int64(st, 1, m->id);
     sqlite3_bind_text(st, 2, id, id_len, SQLITE_STATIC);
@@ -704,9 +737,10 @@ int cc_store_event_get(cc_store *s, const cc_model *m, const char *id, int id_le
     return 0;
 }
 
-int cc_store_event_set_label(cc_store *s, const cc_model *m, const char *id, int id_len,
+static int sq_event_set_label(cc_store *store, const cc_model *m, const char *id, int id_len,
                              int label, int64_t label_at, cc_error *err)
 {
+    sq_store *s = SQ(store);
     sqlite3_stmt *st = stmt(s, ST_EVENT_SET_LABEL);
     sqlite3_bind_int64(st, 1, m->id);
     sqlite3_bind_text(st, 2, id, id_len, SQLITE_STATIC);
@@ -717,9 +751,10 @@ int cc_store_event_set_label(cc_store *s, const cc_model *m, const char *id, int
     return 0;
 }
 
-int cc_store_summary_get(cc_store *s, const cc_model *m, int64_t day, cc_summary *out,
+static int sq_summary_get(cc_store *store, const cc_model *m, int64_t day, cc_summary *out,
                          cc_error *err)
 {
+    sq_store *s = SQ(store);
     sqlite3_stmt *st = stmt(s, ST_SUMMARY_GET);
     const cc_layout *lay = cc_summary_layout(out);
     sqlite3_bind_int64(st, 1, m->id);
@@ -749,7 +784,7 @@ int cc_store_summary_get(cc_store *s, const cc_model *m, int64_t day, cc_summary
     return 0;
 }
 
-static int summary_put(cc_store *s, const cc_model *m, int64_t day, const cc_summary *sum,
+static int summary_put(sq_store *s, const cc_model *m, int64_t day, const cc_summary *sum,
                        cc_error *err)
 {
     const cc_layout *lay = cc_summary_layout(sum);
@@ -771,16 +806,17 @@ static int summary_put(cc_store *s, const cc_model *m, int64_t day, const cc_sum
     return step == SQLITE_DONE ? 0 : db_error(s, err, "writing summary");
 }
 
-int cc_store_summary_add(cc_store *s, const cc_model *m, int64_t day, const cc_summary *delta,
+static int sq_summary_add(cc_store *store, const cc_model *m, int64_t day, const cc_summary *delta,
                          cc_error *err)
 {
+    sq_store *s = SQ(store);
     const cc_layout *have = s->scratch ? cc_summary_layout(s->scratch) : NULL;
     if (!have || have->m != m->m || have->k != m->k) {
         cc_summary_free(s->scratch);
         if (!(s->scratch = cc_summary_create(m->m, m->k)))
             return cc_error_set(err, CC_ENOMEM, "out of memory");
     }
-    int rc = cc_store_summary_get(s, m, day, s->scratch, err);
+    int rc = sq_summary_get(&s->base, m, day, s->scratch, err);
     if (!rc) {
         cc_summary_merge(s->scratch, delta);
         rc = summary_put(s, m, day, s->scratch, err);
@@ -788,9 +824,10 @@ int cc_store_summary_add(cc_store *s, const cc_model *m, int64_t day, const cc_s
     return rc;
 }
 
-int cc_store_summary_days(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+static int sq_summary_days(cc_store *store, const cc_model *m, int64_t from, int64_t to,
                           int64_t **days, int *n, cc_error *err)
 {
+    sq_store *s = SQ(store);
     sqlite3_stmt *st;
     *days = NULL;
     *n = 0;
@@ -816,9 +853,10 @@ int cc_store_summary_days(cc_store *s, const cc_model *m, int64_t from, int64_t 
     return rc;
 }
 
-int cc_store_summary_from_rows(cc_store *s, const cc_model *m, int64_t day, cc_summary *out,
+static int sq_summary_from_rows(cc_store *store, const cc_model *m, int64_t day, cc_summary *out,
                                cc_error *err)
 {
+    sq_store *s = SQ(store);
     sqlite3_stmt *st;
     size_t want = (size_t)m->m * (size_t)m->k * sizeof(float);
     float *probs = malloc(want);
@@ -853,9 +891,10 @@ int cc_store_summary_from_rows(cc_store *s, const cc_model *m, int64_t day, cc_s
     return rc;
 }
 
-int cc_store_baseline_set(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+static int sq_baseline_set(cc_store *store, const cc_model *m, int64_t from, int64_t to,
                           cc_error *err)
 {
+    sq_store *s = SQ(store);
     sqlite3_stmt *st;
     if (sqlite3_prepare_v2(s->db,
                            "INSERT OR REPLACE INTO baselines(model_id, from_day, to_day, set_at) "
@@ -871,9 +910,10 @@ int cc_store_baseline_set(cc_store *s, const cc_model *m, int64_t from, int64_t 
     return step == SQLITE_DONE ? 0 : db_error(s, err, "setting baseline");
 }
 
-int cc_store_baseline_get(cc_store *s, const cc_model *m, int *has, int64_t *from,
+static int sq_baseline_get(cc_store *store, const cc_model *m, int *has, int64_t *from,
                           int64_t *to, cc_error *err)
 {
+    sq_store *s = SQ(store);
     sqlite3_stmt *st;
     *has = 0;
     if (sqlite3_prepare_v2(s->db,
@@ -890,9 +930,10 @@ int cc_store_baseline_get(cc_store *s, const cc_model *m, int *has, int64_t *fro
     return 0;
 }
 
-int cc_store_reject_add(cc_store *s, const char *kind, const char *source, int64_t line,
+static int sq_reject_add(cc_store *store, const char *kind, const char *source, int64_t line,
                         const char *reason, const char *text, size_t text_len, cc_error *err)
 {
+    sq_store *s = SQ(store);
     sqlite3_stmt *st = stmt(s, ST_REJECT);
     if (text_len > 4096)
         text_len = 4096;
@@ -908,9 +949,10 @@ int cc_store_reject_add(cc_store *s, const char *kind, const char *source, int64
     return 0;
 }
 
-int cc_store_pending_label_add(cc_store *s, const cc_model *m, const char *id, int id_len,
+static int sq_pending_label_add(cc_store *store, const cc_model *m, const char *id, int id_len,
                                int label, int64_t received_at, cc_error *err)
 {
+    sq_store *s = SQ(store);
     sqlite3_stmt *st = stmt(s, ST_PENDING_ADD);
     sqlite3_bind_int64(st, 1, m->id);
     sqlite3_bind_text(st, 2, id, id_len, SQLITE_STATIC);
@@ -921,9 +963,10 @@ int cc_store_pending_label_add(cc_store *s, const cc_model *m, const char *id, i
     return 0;
 }
 
-int cc_store_pending_label_drain(cc_store *s, const cc_model *m, cc_pending_fn fn,
+static int sq_pending_label_drain(cc_store *store, const cc_model *m, cc_pending_fn fn,
                                  void *payload, cc_error *err)
 {
+    sq_store *s = SQ(store);
     sqlite3_stmt *st;
     int rc = 0;
     /* CROSS JOIN keeps pending_labels the outer table: one events_by_id
@@ -956,8 +999,9 @@ int cc_store_pending_label_drain(cc_store *s, const cc_model *m, cc_pending_fn f
     return step == SQLITE_DONE ? 0 : db_error(s, err, "clearing pending labels");
 }
 
-int64_t cc_store_pending_label_count(cc_store *s, const cc_model *m)
+static int64_t sq_pending_label_count(cc_store *store, const cc_model *m)
 {
+    sq_store *s = SQ(store);
     sqlite3_stmt *st;
     int64_t n = 0;
     if (sqlite3_prepare_v2(s->db, "SELECT count(*) FROM pending_labels WHERE model_id = ?1",
@@ -972,7 +1016,7 @@ int64_t cc_store_pending_label_count(cc_store *s, const cc_model *m)
 
 /* Whether a table exists: a reader may open a database of an older schema
  * version that lacks the newer tables. */
-static int has_table(cc_store *s, const char *name)
+static int has_table(sq_store *s, const char *name)
 {
     sqlite3_stmt *st = NULL;
     int yes = 0;
@@ -985,9 +1029,10 @@ static int has_table(cc_store *s, const char *name)
     return yes;
 }
 
-int cc_store_pruned_get(cc_store *s, const cc_model *m, int64_t day, int *found,
+static int sq_pruned_get(cc_store *store, const cc_model *m, int64_t day, int *found,
                         cc_summary *out, cc_error *err)
 {
+    sq_store *s = SQ(store);
     sqlite3_stmt *st = NULL;
     const cc_layout *lay = cc_summary_layout(out);
     *found = 0;
@@ -1017,9 +1062,10 @@ int cc_store_pruned_get(cc_store *s, const cc_model *m, int64_t day, int *found,
     return rc;
 }
 
-int cc_store_prune_day(cc_store *s, const cc_model *m, int64_t day, int64_t now,
+static int sq_prune_day(cc_store *store, const cc_model *m, int64_t day, int64_t now,
                        int64_t *removed, cc_error *err)
 {
+    sq_store *s = SQ(store);
     cc_summary *rows = cc_summary_create(m->m, m->k), *kept = cc_summary_create(m->m, m->k);
     unsigned char *blob = NULL;
     sqlite3_stmt *st = NULL;
@@ -1029,13 +1075,13 @@ int cc_store_prune_day(cc_store *s, const cc_model *m, int64_t day, int64_t now,
         rc = cc_error_set(err, CC_ENOMEM, "out of memory");
         goto done;
     }
-    if ((rc = cc_store_summary_from_rows(s, m, day, rows, err)))
+    if ((rc = sq_summary_from_rows(&s->base, m, day, rows, err)))
         goto done;
     const cc_layout *lay = cc_summary_layout(rows);
     int64_t n = cc_summary_data(rows)[lay->n_events];
     if (n == 0)
         goto done;
-    if ((rc = cc_store_pruned_get(s, m, day, &found, kept, err)))
+    if ((rc = sq_pruned_get(&s->base, m, day, &found, kept, err)))
         goto done;
     cc_summary_merge(kept, rows);
     size_t len;
@@ -1081,9 +1127,10 @@ done:
     return rc;
 }
 
-int cc_store_pruned_range(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+static int sq_pruned_range(cc_store *store, const cc_model *m, int64_t from, int64_t to,
                           cc_pruned_range *out, cc_error *err)
 {
+    sq_store *s = SQ(store);
     sqlite3_stmt *st = NULL;
     memset(out, 0, sizeof *out);
     if (!has_table(s, "pruned_days"))
@@ -1106,8 +1153,9 @@ int cc_store_pruned_range(cc_store *s, const cc_model *m, int64_t from, int64_t 
     return step == SQLITE_ROW ? 0 : db_error(s, err, "reading pruned days");
 }
 
-int cc_store_row_days(cc_store *s, const cc_model *m, int64_t **days, int *n, cc_error *err)
+static int sq_row_days(cc_store *store, const cc_model *m, int64_t **days, int *n, cc_error *err)
 {
+    sq_store *s = SQ(store);
     sqlite3_stmt *st = NULL;
     int rc = 0, step;
     *days = NULL;
@@ -1132,9 +1180,10 @@ int cc_store_row_days(cc_store *s, const cc_model *m, int64_t **days, int *n, cc
     return rc;
 }
 
-int cc_store_class_faults(cc_store *s, const cc_model *m, cc_fault_fn fn, void *ctx,
+static int sq_class_faults(cc_store *store, const cc_model *m, cc_fault_fn fn, void *ctx,
                           int64_t *count, cc_error *err)
 {
+    sq_store *s = SQ(store);
     static const char *const what[] = {"label", "pred", "pending label"};
     static const char *const sql[] = {
         "SELECT id, label FROM events WHERE model_id = ?1 AND label IS NOT NULL "
@@ -1165,9 +1214,10 @@ int cc_store_class_faults(cc_store *s, const cc_model *m, cc_fault_fn fn, void *
     return 0;
 }
 
-int cc_store_integrity(cc_store *s, int (*fn)(void *ctx, const char *line), void *ctx, int *ok,
+static int sq_integrity(cc_store *store, int (*fn)(void *ctx, const char *line), void *ctx, int *ok,
                        cc_error *err)
 {
+    sq_store *s = SQ(store);
     sqlite3_stmt *st = NULL;
     int step;
     *ok = 1;
@@ -1187,8 +1237,9 @@ int cc_store_integrity(cc_store *s, int (*fn)(void *ctx, const char *line), void
     return 0;
 }
 
-int cc_store_backup(cc_store *s, const char *out_path, cc_error *err)
+static int sq_backup(cc_store *store, const char *out_path, cc_error *err)
 {
+    sq_store *s = SQ(store);
     struct stat sb;
     if (lstat(out_path, &sb) == 0)
         return cc_error_set(err, CC_EIO, "%s: exists already; the backup does not overwrite",
@@ -1243,3 +1294,46 @@ int cc_store_backup(cc_store *s, const char *out_path, cc_error *err)
     free(tmp);
     return rc;
 }
+
+/* The helpers above, for the backend's other files (store_sqlite.h). */
+int cc_sq_error(sq_store *s, cc_error *err, const char *what) { return db_error(s, err, what); }
+int cc_sq_exec(sq_store *s, const char *sql, cc_error *err) { return exec(s, sql, err); }
+sqlite3_stmt *cc_sq_stmt(sq_store *s, int which) { return stmt(s, which); }
+int cc_sq_has_table(sq_store *s, const char *name) { return has_table(s, name); }
+
+const cc_store_backend cc_sq_backend = {
+    .version = CC_STORE_BACKEND_VERSION,
+    .size = sizeof(cc_store_backend),
+    .name = "sqlite",
+    .close = sq_close,
+    .readonly = sq_readonly,
+    .take_timed_out = sq_take_timed_out,
+    .snapshot_begin = sq_snapshot_begin,
+    .snapshot_end = sq_snapshot_end,
+    .work_begin = sq_work_begin,
+    .work_commit = sq_work_commit,
+    .work_abort = sq_work_abort,
+    .model_get = sq_model_get,
+    .model_create = sq_model_create,
+    .model_list = sq_model_list,
+    .event_insert = sq_event_insert,
+    .event_get = sq_event_get,
+    .event_set_label = sq_event_set_label,
+    .summary_add = sq_summary_add,
+    .summary_get = sq_summary_get,
+    .summary_days = sq_summary_days,
+    .summary_from_rows = sq_summary_from_rows,
+    .baseline_set = sq_baseline_set,
+    .baseline_get = sq_baseline_get,
+    .reject_add = sq_reject_add,
+    .pending_label_add = sq_pending_label_add,
+    .pending_label_drain = sq_pending_label_drain,
+    .pending_label_count = sq_pending_label_count,
+    .prune_day = sq_prune_day,
+    .pruned_get = sq_pruned_get,
+    .pruned_range = sq_pruned_range,
+    .row_days = sq_row_days,
+    .class_faults = sq_class_faults,
+    .integrity = sq_integrity,
+    .backup = sq_backup,
+};

@@ -15,9 +15,10 @@ build=(build-essential cmake pkg-config libsqlite3-dev libcjson-dev libgsl-dev
 # the test suite: reference libraries (numpy, scipy, scikit-learn, statsmodels),
 # the sqlite3 shell, openssl (signatures, a self-signed certificate), headless
 # Chromium for the page, GNU time for memory bounds, clang and its runtime for
-# the fuzz targets
+# the fuzz targets, ClickHouse (18.16 in Debian 12) and curl for the cluster tests
 test=(sqlite3 openssl python3 python3-numpy python3-scipy python3-sklearn python3-statsmodels
-      chromium fonts-dejavu-core time clang libclang-rt-14-dev)
+      chromium fonts-dejavu-core time clang libclang-rt-14-dev
+      clickhouse-server clickhouse-client curl)
 
 pkgs=("${build[@]}")
 case "${1:-}" in

@@ -5,6 +5,7 @@
  * duplicate notice id queues nothing. */
 #include <math.h>
 #include <sqlite3.h>
+#include "store_sqlite.h" /* temporary: step 2 moves this SQL into the store */
 #include <stdlib.h>
 #include <unistd.h>
 

@@ -1,0 +1,417 @@
+/* ch_store.c — the read-only ClickHouse backend of the store (ch_store.h). */
+#include "ch_store.h"
+
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "ch_client.h"
+#include "fetch.h"
+#include "store_backend.h"
+#include "summary.h"
+
+/* Merged vectors of the days the last summary_days listed, so that a report
+ * reads its range in one query; bounded, beyond it days are read one by one. */
+#define CACHE_MAX_BYTES ((size_t)256 << 20)
+
+typedef struct ch_store {
+    cc_store base;          /* first: what the dispatch sees */
+    char *url;
+    cc_ch *ch;
+    cc_ch_model *models;
+    int n_models;
+    int64_t cache_model;    /* model id the cache holds, 0 for none */
+    int64_t *cache_days;
+    int64_t **cache_vec;    /* layout len counters per day */
+    int n_cache;
+} ch_store;
+
+#define CH(s) ((ch_store *)(s))
+
+static void drop_cache(ch_store *c)
+{
+    for (int i = 0; i < c->n_cache; i++)
+        free(c->cache_vec[i]);
+    free(c->cache_vec);
+    free(c->cache_days);
+    c->cache_vec = NULL;
+    c->cache_days = NULL;
+    c->n_cache = 0;
+    c->cache_model = 0;
+}
+
+static void ch_close(cc_store *s)
+{
+    ch_store *c = CH(s);
+    drop_cache(c);
+    cc_ch_models_free(c->models, c->n_models);
+    cc_ch_close(c->ch);
+    free(c->url);
+    free(c);
+}
+
+static int ch_readonly(const cc_store *s)
+{
+    (void)s;
+    return 1;
+}
+
+static const cc_ch_model *find_model(ch_store *c, const char *name)
+{
+    for (int i = 0; i < c->n_models; i++)
+        if (strcmp(c->models[i].model->name, name) == 0)
+            return &c->models[i];
+    return NULL;
+}
+
+static char **copy_names(char *const *names, int n)
+{
+    char **out = calloc((size_t)n, sizeof *out);
+    for (int i = 0; out && i < n; i++)
+        if (!(out[i] = strdup(names[i]))) {
+            while (i--)
+                free(out[i]);
+            free(out);
+            return NULL;
+        }
+    return out;
+}
+
+static int ch_model_get(cc_store *s, const char *name, cc_model **out, cc_error *err)
+{
+    const cc_ch_model *cm = find_model(CH(s), name);
+    if (!cm)
+        return cc_error_set(err, CC_ENOTFOUND, "%s: no model named '%s'", s->path, name);
+    cc_model *m = calloc(1, sizeof *m);
+    if (m) {
+        m->id = cm->model->id;
+        m->m = cm->model->m;
+        m->k = cm->model->k;
+        m->name = strdup(cm->model->name);
+        m->members = copy_names(cm->model->members, m->m);
+        m->classes = copy_names(cm->model->classes, m->k);
+    }
+    if (!m || !m->name || !m->members || !m->classes) {
+        cc_model_free(m);
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    }
+    *out = m;
+    return 0;
+}
+
+static int ch_model_list(cc_store *s, char ***out, int *n, cc_error *err)
+{
+    ch_store *c = CH(s);
+    *out = calloc((size_t)c->n_models + 1, sizeof **out);
+    *n = 0;
+    if (!*out)
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    for (int i = 0; i < c->n_models; i++)
+        if (((*out)[(*n)++] = strdup(c->models[i].model->name)) == NULL)
+            return cc_error_set(err, CC_ENOMEM, "out of memory");
+    return 0;
+}
+
+static int ch_baseline_get(cc_store *s, const cc_model *m, int *has, int64_t *from, int64_t *to,
+                           cc_error *err)
+{
+    const cc_ch_model *cm = find_model(CH(s), m->name);
+    if (!cm)
+        return cc_error_set(err, CC_ENOTFOUND, "%s: no model named '%s'", s->path, m->name);
+    *has = cm->has_baseline;
+    *from = cm->from;
+    *to = cm->to;
+    return 0;
+}
+
+/* "... WHERE model = 'm' AND layout_version = V AND slice = ''" into b. */
+static void where_model(cc_buf *b, ch_store *c, const char *table, const char *cols,
+                        const cc_model *m)
+{
+    char head[256];
+    snprintf(head, sizeof head, "SELECT %s FROM %s.%s FINAL WHERE model = ", cols,
+             cc_ch_database(c->ch), table);
+    cc_buf_put(b, head, strlen(head));
+    cc_ch_quote(b, m->name);
+}
+
+static int select_rb(ch_store *c, cc_buf *sql, const char *tail, cc_buf *ans, cc_error *err)
+{
+    cc_buf_put(sql, tail, strlen(tail) + 1);
+    if (sql->oom) {
+        cc_buf_free(sql);
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    }
+    int rc = cc_ch_query(c->ch, (const char *)sql->p, NULL, ans, err);
+    cc_buf_free(sql);
+    return rc;
+}
+
+/* The model's days in [from, to] with events, one row per day: cols
+ * selected from the merged summaries, in day order. */
+static int days_select(ch_store *c, const cc_model *m, const char *cols, int64_t from,
+                       int64_t to, cc_layout *l, cc_buf *ans, cc_error *err)
+{
+    if (cc_layout_init(l, m->m, m->k))
+        return cc_error_set(err, CC_EIO, "%s: model '%s' has a shape out of range", c->base.path,
+                            m->name);
+    cc_buf sql = CC_BUF_INIT;
+    char tail[256];
+    where_model(&sql, c, "summaries", cols, m);
+    snprintf(tail, sizeof tail,
+             " AND layout_version = %d AND slice = '' AND day >= %lld AND day <= %lld "
+             "GROUP BY day HAVING sum(events) > 0 ORDER BY day FORMAT RowBinary",
+             CC_SUMMARY_VERSION, (long long)from, (long long)to);
+    return select_rb(c, &sql, tail, ans, err);
+}
+
+/* Reads (day, counters) rows into the cache, or into one vector when
+ * one_day is set. */
+static int read_vectors(ch_store *c, const cc_model *m, int64_t from, int64_t to, int64_t *one,
+                        int *found, cc_error *err)
+{
+    cc_layout l;
+    cc_buf ans = CC_BUF_INIT;
+    int rc = days_select(c, m, "day, sumForEach(counters)", from, to, &l, &ans, err);
+    cc_rb rb = {ans.p, ans.p + ans.len};
+    while (!rc && rb.p < rb.end) {
+        int64_t day;
+        uint64_t n;
+        if (cc_rb_i64(&rb, &day) || cc_rb_varint(&rb, &n) || n != l.len) {
+            rc = cc_error_set(err, CC_EIO, "%s: model '%s': a malformed summary row (layout %d "
+                                           "has %zu counters)", c->base.path, m->name,
+                              CC_SUMMARY_VERSION, l.len);
+            break;
+        }
+        int64_t *v = one;
+        if (!one) {
+            int64_t *days = realloc(c->cache_days, (size_t)(c->n_cache + 1) * sizeof *days);
+            int64_t **vecs = realloc(c->cache_vec, (size_t)(c->n_cache + 1) * sizeof *vecs);
+            if (days)
+                c->cache_days = days;
+            if (vecs)
+                c->cache_vec = vecs;
+            if (!days || !vecs || !(v = malloc(l.len * sizeof *v))) {
+                rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+                break;
+            }
+            c->cache_days[c->n_cache] = day;
+            c->cache_vec[c->n_cache++] = v;
+        }
+        for (size_t i = 0; i < l.len && !rc; i++)
+            if (cc_rb_i64(&rb, &v[i]))
+                rc = cc_error_set(err, CC_EIO, "%s: a truncated summary row", c->base.path);
+        if (found)
+            *found = 1;
+    }
+    cc_buf_free(&ans);
+    return rc;
+}
+
+static int ch_summary_days(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+                           int64_t **days, int *n, cc_error *err)
+{
+    ch_store *c = CH(s);
+    cc_layout l;
+    *days = NULL;
+    *n = 0;
+    drop_cache(c);
+    cc_buf ans = CC_BUF_INIT;
+    int rc = days_select(c, m, "day", from, to, &l, &ans, err);
+    size_t count = rc ? 0 : ans.len / 8;
+    if (!rc && count && !(*days = malloc(count * sizeof **days)))
+        rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+    cc_rb rb = {ans.p, ans.p + ans.len};
+    for (size_t i = 0; !rc && i < count; i++)
+        cc_rb_i64(&rb, &(*days)[i]);
+    cc_buf_free(&ans);
+    if (rc) {
+        free(*days);
+        *days = NULL;
+        return rc;
+    }
+    *n = (int)count;
+    /* the range's vectors in one read, when they fit the bound */
+    if (count && count * l.len * sizeof(int64_t) <= CACHE_MAX_BYTES) {
+        rc = read_vectors(c, m, (*days)[0], (*days)[count - 1], NULL, NULL, err);
+        if (rc)
+            drop_cache(c);
+        else
+            c->cache_model = m->id;
+    }
+    if (rc) {
+        free(*days);
+        *days = NULL;
+        *n = 0;
+    }
+    return rc;
+}
+
+static int ch_summary_get(cc_store *s, const cc_model *m, int64_t day, cc_summary *out,
+                          cc_error *err)
+{
+    ch_store *c = CH(s);
+    const cc_layout *l = cc_summary_layout(out);
+    int64_t *v = cc_summary_data_mut(out);
+    if (c->cache_model == m->id)
+        for (int i = 0; i < c->n_cache; i++)
+            if (c->cache_days[i] == day) {
+                memcpy(v, c->cache_vec[i], l->len * sizeof *v);
+                return 0;
+            }
+    cc_summary_clear(out);
+    int found = 0;
+    return read_vectors(c, m, day, day, v, &found, err);
+}
+
+static int ch_labeled_day_last(cc_store *s, const cc_model *m, int64_t day, int *found,
+                               int64_t *out, cc_error *err)
+{
+    ch_store *c = CH(s);
+    cc_layout l;
+    *found = 0;
+    if (cc_layout_init(&l, m->m, m->k))
+        return cc_error_set(err, CC_EIO, "%s: model '%s' has a shape out of range", s->path,
+                            m->name);
+    cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
+    char tail[320];
+    where_model(&sql, c, "summaries", "day", m);
+    /* ClickHouse arrays count from 1 */
+    snprintf(tail, sizeof tail,
+             " AND layout_version = %d AND slice = '' AND day <= %lld GROUP BY day "
+             "HAVING sum(counters[%zu]) > 0 ORDER BY day DESC LIMIT 1 FORMAT RowBinary",
+             CC_SUMMARY_VERSION, (long long)day, l.n_labeled + 1);
+    int rc = select_rb(c, &sql, tail, &ans, err);
+    cc_rb rb = {ans.p, ans.p + ans.len};
+    if (!rc && ans.len >= 8 && !cc_rb_i64(&rb, out))
+        *found = 1;
+    cc_buf_free(&ans);
+    return rc;
+}
+
+/* Event rows: SELECT ts, has_segment, segment, label, label_at, probs [, id]. */
+typedef struct event_row {
+    const char *id, *segment;
+    size_t id_n, segment_n;
+    int64_t ts, label_at;
+    uint8_t has_segment;
+    int32_t label;
+} event_row;
+
+static int read_event(cc_rb *rb, const cc_model *m, int with_id, event_row *e, float *probs)
+{
+    uint64_t n;
+    if ((with_id && cc_rb_string(rb, &e->id, &e->id_n)) || cc_rb_i64(rb, &e->ts) ||
+        cc_rb_u8(rb, &e->has_segment) || cc_rb_string(rb, &e->segment, &e->segment_n) ||
+        cc_rb_i32(rb, &e->label) || cc_rb_i64(rb, &e->label_at) || cc_rb_varint(rb, &n) ||
+        n != (uint64_t)m->m * (uint64_t)m->k)
+        return -1;
+    for (uint64_t i = 0; i < n; i++)
+        if (cc_rb_f32(rb, &probs[i]))
+            return -1;
+    return 0;
+}
+
+static int ch_events_scan(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+                          const char *segment, cc_event_scan_fn fn, void *ctx, cc_error *err)
+{
+    ch_store *c = CH(s);
+    cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
+    char tail[256];
+    where_model(&sql, c, "events", "id, ts, has_segment, segment, label, label_at, probs", m);
+    if (segment) {
+        cc_buf_put(&sql, " AND has_segment = 1 AND segment = ", 35);
+        cc_ch_quote(&sql, segment);
+    }
+    snprintf(tail, sizeof tail, " AND ts >= %lld AND ts <= %lld ORDER BY day, ts, id "
+                                "FORMAT RowBinary", (long long)from, (long long)to);
+    int rc = select_rb(c, &sql, tail, &ans, err);
+    float *probs = rc ? NULL : malloc((size_t)m->m * (size_t)m->k * sizeof *probs);
+    if (!rc && !probs)
+        rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+    cc_rb rb = {ans.p, ans.p + ans.len};
+    while (!rc && rb.p < rb.end) {
+        event_row e;
+        char *id;
+        if (read_event(&rb, m, 1, &e, probs)) {
+            rc = cc_error_set(err, CC_EIO, "%s: a malformed event row", s->path);
+            break;
+        }
+        if (!(id = strndup(e.id, e.id_n))) {
+            rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+            break;
+        }
+        rc = fn(ctx, id, e.ts, e.label, probs);
+        free(id);
+    }
+    free(probs);
+    cc_buf_free(&ans);
+    return rc;
+}
+
+static int ch_event_read(cc_store *s, const cc_model *m, const char *id, int *found,
+                         cc_event_rec *out, float *probs, cc_error *err)
+{
+    ch_store *c = CH(s);
+    cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
+    *found = 0;
+    where_model(&sql, c, "events", "ts, has_segment, segment, label, label_at, probs", m);
+    cc_buf_put(&sql, " AND id = ", 10);
+    cc_ch_quote(&sql, id);
+    int rc = select_rb(c, &sql, " LIMIT 1 FORMAT RowBinary", &ans, err);
+    cc_rb rb = {ans.p, ans.p + ans.len};
+    if (!rc && ans.len) {
+        event_row e;
+        if (read_event(&rb, m, 0, &e, probs)) {
+            rc = cc_error_set(err, CC_EIO, "%s: a malformed event row", s->path);
+        } else {
+            out->ts = e.ts;
+            out->label = e.label;
+            out->label_at = e.label_at;
+            out->segment = e.has_segment ? strndup(e.segment, e.segment_n) : NULL;
+            if (e.has_segment && !out->segment)
+                rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+            else
+                *found = 1;
+        }
+    }
+    cc_buf_free(&ans);
+    return rc;
+}
+
+static const cc_store_backend ch_backend = {
+    .version = CC_STORE_BACKEND_VERSION,
+    .size = sizeof(cc_store_backend),
+    .name = "clickhouse",
+    .close = ch_close,
+    .readonly = ch_readonly,
+    .model_get = ch_model_get,
+    .model_list = ch_model_list,
+    .summary_get = ch_summary_get,
+    .summary_days = ch_summary_days,
+    .baseline_get = ch_baseline_get,
+    .events_scan = ch_events_scan,
+    .event_read = ch_event_read,
+    .labeled_day_last = ch_labeled_day_last,
+};
+
+int cc_ch_store_open(cc_store **out, const char *url, cc_error *err)
+{
+    ch_store *c = calloc(1, sizeof *c);
+    *out = NULL;
+    if (!c || !(c->url = strdup(url))) {
+        free(c);
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    }
+    c->base.be = &ch_backend;
+    c->base.path = c->url;
+    int rc = cc_ch_open(&c->ch, url, err);
+    if (!rc)
+        rc = cc_ch_models_load(c->ch, NULL, &c->models, &c->n_models, err);
+    if (rc) {
+        ch_close(&c->base);
+        return rc;
+    }
+    *out = &c->base;
+    return 0;
+}

@@ -1,0 +1,436 @@
+/* publish.c — one publish run of a local store to the cluster (publish.h). */
+#include "publish.h"
+
+#include <cjson/cJSON.h>
+#include <errno.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <time.h>
+
+#include "ch_schema.h"
+#include "ingest.h"
+#include "summary.h"
+
+typedef struct models_cache {
+    cc_model **m;
+    int n;
+} models_cache;
+
+typedef struct run {
+    cc_store *store;
+    cc_ch *ch;
+    const cc_publish_opts *o;
+    cc_publish_stats *st;
+    cc_error *err;
+    models_cache models;
+    cc_buf body;
+    const char *table;          /* where body goes */
+    int64_t rows;
+    cc_summary *sum;
+} run;
+
+int cc_publish_source_ok(const char *name)
+{
+    size_t n = strlen(name);
+    if (n < 1 || n > 64)
+        return 0;
+    for (const char *p = name; *p; p++)
+        if (!((*p >= 'a' && *p <= 'z') || (*p >= 'A' && *p <= 'Z') || (*p >= '0' && *p <= '9') ||
+              *p == '_' || *p == '-' || *p == '.'))
+            return 0;
+    return 1;
+}
+
+static void sleep_ms(int ms)
+{
+    struct timespec ts = {ms / 1000, (long)(ms % 1000) * 1000000L};
+    while (nanosleep(&ts, &ts) != 0 && errno == EINTR)
+        ;
+}
+
+static int64_t mono_ms(void)
+{
+    struct timespec ts;
+    clock_gettime(CLOCK_MONOTONIC, &ts);
+    return (int64_t)ts.tv_sec * 1000 + ts.tv_nsec / 1000000;
+}
+
+/* A query retried with a growing pause (0.5 s doubling to 30 s) until it
+ * succeeds or retry_for_s has passed. Safe because every statement sent by
+ * a publish is idempotent. */
+static int query_retrying(run *r, const char *what, const char *sql, const cc_buf *body,
+                          cc_buf *out)
+{
+    int64_t give_up = mono_ms() + (int64_t)r->o->retry_for_s * 1000;
+    int pause = 500;
+    for (int attempt = 1;; attempt++) {
+        cc_error e = CC_ERROR_INIT;
+        int rc = cc_ch_query(r->ch, sql, body, out, &e);
+        if (!rc) {
+            if (body)
+                r->st->bytes += (int64_t)body->len;
+            return 0;
+        }
+        if (rc == -CC_ENOMEM || mono_ms() + pause > give_up) {
+            return cc_error_set(r->err, e.code, "%s (gave up after %d attempt%s): %s", what,
+                                attempt, attempt == 1 ? "" : "s", e.msg);
+        }
+        if (r->o->on_retry)
+            r->o->on_retry(r->o->ctx, what, attempt, pause, &e);
+        r->st->retries++;
+        sleep_ms(pause);
+        pause = pause >= 15000 ? 30000 : pause * 2;
+    }
+}
+
+static int model_of(run *r, const char *name, cc_model **out)
+{
+    for (int i = 0; i < r->models.n; i++)
+        if (strcmp(r->models.m[i]->name, name) == 0) {
+            *out = r->models.m[i];
+            return 0;
+        }
+    cc_model **grown = realloc(r->models.m, (size_t)(r->models.n + 1) * sizeof *grown);
+    if (!grown)
+        return cc_error_set(r->err, CC_ENOMEM, "out of memory");
+    r->models.m = grown;
+    int rc = cc_store_model_get(r->store, name, out, r->err);
+    if (!rc)
+        r->models.m[r->models.n++] = *out;
+    return rc;
+}
+
+static int flush(run *r)
+{
+    if (r->body.oom)
+        return cc_error_set(r->err, CC_ENOMEM, "out of memory building an insert");
+    if (!r->rows)
+        return 0;
+    char sql[256], what[128];
+    snprintf(sql, sizeof sql, "INSERT INTO %s.%s FORMAT RowBinary", cc_ch_database(r->ch),
+             r->table);
+    snprintf(what, sizeof what, "inserting %lld row%s into %s", (long long)r->rows,
+             r->rows == 1 ? "" : "s", r->table);
+    int rc = query_retrying(r, what, sql, &r->body, NULL);
+    r->body.len = 0;
+    r->rows = 0;
+    return rc;
+}
+
+static int row_done(run *r)
+{
+    r->rows++;
+    return r->body.len >= r->o->chunk_bytes ? flush(r) : r->body.oom ? flush(r) : 0;
+}
+
+/* ---- labels ---- */
+
+static int put_pending(void *ctx, const char *model, const char *id, int id_len, int label,
+                       int64_t received_at)
+{
+    run *r = ctx;
+    cc_buf_string(&r->body, model, strlen(model));
+    cc_buf_string(&r->body, id, (size_t)id_len);
+    cc_buf_i32(&r->body, label);
+    cc_buf_i64(&r->body, received_at);
+    cc_buf_string(&r->body, r->o->source, strlen(r->o->source));
+    cc_buf_u64(&r->body, (uint64_t)r->st->seq);
+    r->st->labels_sent++;
+    return row_done(r);
+}
+
+/* Applies one group of labels (same arrival time) through the ingest path,
+ * exactly as if they had arrived here at that time. */
+static int apply_labels(run *r, const char *lines, size_t len, int64_t at)
+{
+    cc_ingest_opts io = CC_INGEST_OPTS_INIT;
+    cc_ingest *ing = NULL;
+    io.now = at;
+    FILE *f = fmemopen((void *)lines, len, "r");
+    if (!f)
+        return cc_error_set(r->err, CC_ENOMEM, "out of memory (labels from the cluster)");
+    int rc = cc_ingest_create(&ing, r->store, &io, r->err);
+    if (!rc)
+        rc = cc_ingest_stream(ing, f, "labels from the cluster", 1, CC_RECORD_LABELS, r->err);
+    if (!rc)
+        rc = cc_ingest_finish(ing, r->err);
+    if (!rc)
+        r->st->labels_applied += cc_ingest_get_stats(ing)->labels_set;
+    cc_ingest_free(ing);
+    fclose(f);
+    return rc;
+}
+
+/* The same label as the event's, sent by another host, that arrived before
+ * the one applied here: had one store read both, the later would have
+ * changed nothing, so the label's arrival time is the earlier one. The
+ * label-age counters of the event's day follow. */
+static int move_arrival_back(run *r, const cc_model *m, const char *id, int id_len,
+                             const cc_stored_event *ev, const float *probs, int64_t at)
+{
+    (void)probs;
+    cc_summary *d = cc_summary_create(m->m, m->k);
+    if (!d)
+        return cc_error_set(r->err, CC_ENOMEM, "out of memory");
+    cc_summary_add_label_delay(d, ev->label_at - ev->ts, -1);
+    cc_summary_add_label_delay(d, at - ev->ts, 1);
+    int rc = cc_store_begin(r->store, r->err);
+    if (!rc) {
+        if ((rc = cc_store_summary_add(r->store, m, ev->day, d, r->err)) ||
+            (rc = cc_store_event_set_label(r->store, m, id, id_len, ev->label, at, r->err)) ||
+            (rc = cc_store_commit(r->store, r->err)))
+            cc_store_rollback(r->store);
+    }
+    cc_summary_free(d);
+    if (!rc)
+        r->st->labels_applied++;
+    return rc;
+}
+
+/* Other sources' labels for events stored here whose label is older. They
+ * come ordered by arrival time, so the newest is applied last, as a single
+ * store reading every label would. */
+static int pull_labels(run *r)
+{
+    cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT, lines = CC_BUF_INIT;
+    char head[256];
+    snprintf(head, sizeof head,
+             "SELECT model, id, label, received_at FROM %s.labels FINAL WHERE source != ",
+             cc_ch_database(r->ch));
+    cc_buf_put(&sql, head, strlen(head));
+    cc_ch_quote(&sql, r->o->source);
+    const char *tail = " ORDER BY received_at, source, model, id FORMAT RowBinary";
+    cc_buf_put(&sql, tail, strlen(tail) + 1);
+    if (sql.oom)
+        return cc_error_set(r->err, CC_ENOMEM, "out of memory");
+    int rc = query_retrying(r, "reading labels sent by other hosts", (const char *)sql.p, NULL,
+                            &ans);
+    cc_buf_free(&sql);
+    cc_rb rb = {ans.p, ans.p + ans.len};
+    int64_t group_at = INT64_MIN;
+    float *probs = NULL;
+    while (!rc && rb.p < rb.end) {
+        const char *model, *id;
+        size_t model_n, id_n;
+        int32_t label;
+        int64_t at;
+        if (cc_rb_string(&rb, &model, &model_n) || cc_rb_string(&rb, &id, &id_n) ||
+            cc_rb_i32(&rb, &label) || cc_rb_i64(&rb, &at)) {
+            rc = cc_error_set(r->err, CC_EIO, "ClickHouse %s: labels: a truncated answer",
+                              cc_ch_where(r->ch));
+            break;
+        }
+        /* the previous arrival time's labels first: the event's state read
+         * below must include them */
+        if (at != group_at && lines.len) {
+            rc = apply_labels(r, (const char *)lines.p, lines.len, group_at);
+            lines.len = 0;
+            if (rc)
+                break;
+        }
+        char *name = strndup(model, model_n);
+        cc_model *m = NULL;
+        cc_error miss = CC_ERROR_INIT;
+        if (!name) {
+            rc = cc_error_set(r->err, CC_ENOMEM, "out of memory");
+            break;
+        }
+        /* a model this host never saw: the label is not for us */
+        cc_store_model_get(r->store, name, &m, &miss);
+        free(name);
+        if (!m)
+            continue;
+        cc_stored_event ev;
+        int found = 0;
+        free(probs);
+        probs = malloc((size_t)m->m * (size_t)m->k * sizeof *probs);
+        if (!probs)
+            rc = cc_error_set(r->err, CC_ENOMEM, "out of memory");
+        else
+            rc = cc_store_event_get(r->store, m, id, (int)id_n, &found, &ev, probs, r->err);
+        if (!rc && found && at < ev.label_at && label == ev.label)
+            rc = move_arrival_back(r, m, id, (int)id_n, &ev, probs, at);
+        if (!rc && found && at > ev.label_at && label >= 0 && label < m->k) {
+            group_at = at;
+            cJSON *o = cJSON_CreateObject();
+            char *idz = strndup(id, id_n);
+            cJSON_AddStringToObject(o, "model", m->name);
+            cJSON_AddStringToObject(o, "id", idz ? idz : "");
+            cJSON_AddNumberToObject(o, "label", label);
+            char *text = cJSON_PrintUnformatted(o);
+            if (!text || !idz)
+                rc = cc_error_set(r->err, CC_ENOMEM, "out of memory");
+            else {
+                cc_buf_put(&lines, text, strlen(text));
+                cc_buf_put(&lines, "\n", 1);
+            }
+            free(text);
+            free(idz);
+            cJSON_Delete(o);
+        }
+        cc_model_free(m);
+    }
+    if (!rc && lines.len)
+        rc = apply_labels(r, (const char *)lines.p, lines.len, group_at);
+    if (!rc && lines.oom)
+        rc = cc_error_set(r->err, CC_ENOMEM, "out of memory");
+    free(probs);
+    cc_buf_free(&ans);
+    cc_buf_free(&lines);
+    return rc;
+}
+
+/* ---- summaries, models, events ---- */
+
+static int put_day(void *ctx, const char *model, int64_t day)
+{
+    run *r = ctx;
+    cc_model *m;
+    int rc = model_of(r, model, &m);
+    if (rc)
+        return rc;
+    cc_summary_free(r->sum);
+    if (!(r->sum = cc_summary_create(m->m, m->k)))
+        return cc_error_set(r->err, CC_ENOMEM, "out of memory");
+    if ((rc = cc_store_summary_get(r->store, m, day, r->sum, r->err)))
+        return rc;
+    const cc_layout *l = cc_summary_layout(r->sum);
+    const int64_t *v = cc_summary_data(r->sum);
+    cc_buf_string(&r->body, model, strlen(model));
+    cc_buf_i64(&r->body, day);
+    cc_buf_u32(&r->body, CC_SUMMARY_VERSION);
+    cc_buf_string(&r->body, "", 0);  /* slice: the whole model */
+    cc_buf_string(&r->body, r->o->source, strlen(r->o->source));
+    cc_buf_u64(&r->body, (uint64_t)r->st->seq);
+    cc_buf_i64(&r->body, v[l->n_events]);
+    cc_buf_varint(&r->body, l->len);
+    for (size_t i = 0; i < l->len; i++)
+        cc_buf_i64(&r->body, v[i]);
+    r->st->days++;
+    return row_done(r);
+}
+
+static void put_names(cc_buf *b, char *const *names, int n)
+{
+    cc_buf_varint(b, (uint64_t)n);
+    for (int i = 0; i < n; i++)
+        cc_buf_string(b, names[i], strlen(names[i]));
+}
+
+static int put_models(run *r)
+{
+    char **names = NULL;
+    int n = 0, rc = cc_store_model_list(r->store, &names, &n, r->err);
+    for (int i = 0; !rc && i < n; i++) {
+        cc_model *m;
+        int has = 0;
+        int64_t from = 0, to = 0;
+        if ((rc = model_of(r, names[i], &m)) ||
+            (rc = cc_store_baseline_get(r->store, m, &has, &from, &to, r->err)))
+            break;
+        cc_buf_string(&r->body, m->name, strlen(m->name));
+        cc_buf_string(&r->body, r->o->source, strlen(r->o->source));
+        cc_buf_u64(&r->body, (uint64_t)r->st->seq);
+        put_names(&r->body, m->members, m->m);
+        put_names(&r->body, m->classes, m->k);
+        cc_buf_u8(&r->body, (uint8_t)(has != 0));
+        cc_buf_i64(&r->body, has ? from : 0);
+        cc_buf_i64(&r->body, has ? to : 0);
+        rc = row_done(r);
+    }
+    for (int i = 0; i < n; i++)
+        free(names[i]);
+    free(names);
+    return rc;
+}
+
+static int put_event(void *ctx, const cc_published_event *e)
+{
+    run *r = ctx;
+    cc_buf_string(&r->body, e->model, strlen(e->model));
+    cc_buf_string(&r->body, e->id, (size_t)e->id_len);
+    cc_buf_i64(&r->body, e->day);
+    cc_buf_i64(&r->body, e->ts);
+    cc_buf_u8(&r->body, e->segment != NULL);
+    cc_buf_string(&r->body, e->segment ? e->segment : "", e->segment ? (size_t)e->segment_len : 0);
+    cc_buf_i32(&r->body, e->pred);
+    cc_buf_i32(&r->body, e->label);
+    cc_buf_i64(&r->body, e->label_at);
+    cc_buf_varint(&r->body, (uint64_t)e->n_probs);
+    cc_buf_put(&r->body, e->probs, (size_t)e->n_probs * sizeof(float)); /* little-endian hosts */
+    cc_buf_string(&r->body, r->o->source, strlen(r->o->source));
+    cc_buf_u64(&r->body, (uint64_t)r->st->seq);
+    r->st->events++;
+    return row_done(r);
+}
+
+static int next_seq(run *r)
+{
+    int64_t seq;
+    int rc = cc_store_begin(r->store, r->err);
+    if (rc)
+        return rc;
+    if ((rc = cc_store_publish_state_get(r->store, "seq", &seq, r->err)) ||
+        (rc = cc_store_publish_state_set(r->store, "seq", seq + 1, r->err)) ||
+        (rc = cc_store_commit(r->store, r->err))) {
+        cc_store_rollback(r->store);
+        return rc;
+    }
+    r->st->seq = seq + 1;
+    return 0;
+}
+
+int cc_publish_run(cc_store *store, cc_ch *c, const cc_publish_opts *o, cc_publish_stats *st,
+                   cc_error *err)
+{
+    run r = {store, c, o, st, err, {NULL, 0}, CC_BUF_INIT, NULL, 0, NULL};
+    memset(st, 0, sizeof *st);
+    if (!o->source || !cc_publish_source_ok(o->source))
+        return cc_error_set(err, CC_EUSAGE,
+                            "source name '%s': use 1 to 64 letters, digits, '_', '-' or '.'",
+                            o->source ? o->source : "");
+    int rc = cc_ch_schema_create(c, err);
+    if (rc)
+        return rc;
+    if ((rc = next_seq(&r)))
+        return rc;
+    /* 1. labels: ours out, theirs in (applying them marks days and rows) */
+    r.table = "labels";
+    if ((rc = cc_store_pending_label_list(store, put_pending, &r, err)) || (rc = flush(&r)) ||
+        (rc = pull_labels(&r)))
+        goto done;
+    /* 2-3. one snapshot of the store: what changed, and its marks */
+    int64_t day_mark = 0, relabel_mark = 0, after = 0, max_rowid = 0;
+    if ((rc = cc_store_snapshot_begin(store, err)))
+        goto done;
+    r.table = "models";
+    if (!(rc = put_models(&r)) && !(rc = flush(&r))) {
+        r.table = "summaries";
+        if (!(rc = cc_store_publish_days(store, &day_mark, put_day, &r, err)) &&
+            !(rc = flush(&r)) &&
+            !(rc = cc_store_publish_state_get(store, "event_rowid", &after, err))) {
+            r.table = "events";
+            if (!(rc = cc_store_publish_events(store, after, &max_rowid, &relabel_mark,
+                                               put_event, &r, err)))
+                rc = flush(&r);
+        }
+    }
+    cc_store_snapshot_end(store);
+    if (rc)
+        goto done;
+    /* 4. everything is in the cluster: forget the marks */
+    if ((rc = cc_store_begin(store, err)))
+        goto done;
+    if ((rc = cc_store_publish_state_set(store, "event_rowid", max_rowid, err)) ||
+        (rc = cc_store_publish_clear(store, day_mark, relabel_mark, err)) ||
+        (rc = cc_store_commit(store, err)))
+        cc_store_rollback(store);
+done:
+    for (int i = 0; i < r.models.n; i++)
+        cc_model_free(r.models.m[i]);
+    free(r.models.m);
+    cc_summary_free(r.sum);
+    cc_buf_free(&r.body);
+    return rc;
+}

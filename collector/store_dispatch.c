@@ -1,0 +1,223 @@
+/* store_dispatch.c — the public cc_store_* calls of store.h, each handed to
+ * the store's backend (store_backend.h); an op the backend does not have
+ * gives a clear error instead of a crash. */
+#include <stddef.h>
+
+#include "store_backend.h"
+
+/* The op exists in the backend's table (its size covers it) and is set. */
+#define HAS(s, op)                                                                             \
+    ((s)->be->size >= offsetof(cc_store_backend, op) + sizeof((s)->be->op) && (s)->be->op)
+
+/* A write op that a backend lacks makes its store read-only for that op. */
+static int missing(const cc_store *s, const char *what, int writes, cc_error *err)
+{
+    if (writes)
+        return cc_error_set(err, CC_EIO, "%s: this store (%s) is read-only: it cannot %s",
+                            s->path ? s->path : "?", s->be->name, what);
+    return cc_error_set(err, CC_EIO, "%s: this store (%s) does not support %s",
+                        s->path ? s->path : "?", s->be->name, what);
+}
+
+#define CALL(s, op, what, writes, ...)                                                         \
+    (HAS(s, op) ? (s)->be->op((s), __VA_ARGS__) : missing((s), (what), (writes), err))
+
+void cc_store_close(cc_store *s)
+{
+    if (s)
+        s->be->close(s);
+}
+
+int cc_store_readonly(const cc_store *s)
+{
+    if (HAS(s, readonly))
+        return s->be->readonly(s);
+    return !HAS(s, work_begin);
+}
+
+int cc_store_take_timed_out(cc_store *s)
+{
+    return HAS(s, take_timed_out) ? s->be->take_timed_out(s) : 0;
+}
+
+const char *cc_store_path(const cc_store *s) { return s->path; }
+const char *cc_store_backend_name(const cc_store *s) { return s->be->name; }
+
+int cc_store_snapshot_begin(cc_store *s, cc_error *err)
+{
+    return HAS(s, snapshot_begin) ? s->be->snapshot_begin(s, err) : 0;
+}
+
+void cc_store_snapshot_end(cc_store *s)
+{
+    if (HAS(s, snapshot_end))
+        s->be->snapshot_end(s);
+}
+
+int cc_store_begin(cc_store *s, cc_error *err)
+{
+    return CALL(s, work_begin, "begin a write", 1, err);
+}
+
+int cc_store_commit(cc_store *s, cc_error *err)
+{
+    return CALL(s, work_commit, "commit a write", 1, err);
+}
+
+void cc_store_rollback(cc_store *s)
+{
+    if (HAS(s, work_abort))
+        s->be->work_abort(s);
+}
+
+int cc_store_model_get(cc_store *s, const char *name, cc_model **out, cc_error *err)
+{
+    *out = NULL;
+    return CALL(s, model_get, "read models", 0, name, out, err);
+}
+
+int cc_store_model_create(cc_store *s, const char *name, int m, int k, char *const *classes,
+                          char *const *members, cc_model **out, cc_error *err)
+{
+    *out = NULL;
+    return CALL(s, model_create, "create a model", 1, name, m, k, classes, members, out, err);
+}
+
+int cc_store_model_list(cc_store *s, char ***out, int *n, cc_error *err)
+{
+    *out = NULL;
+    *n = 0;
+    return CALL(s, model_list, "list models", 0, out, n, err);
+}
+
+int cc_store_event_insert(cc_store *s, const cc_model *m, const char *id, int id_len,
+                          int64_t ts, const char *segment, int segment_len, int pred,
+                          int label, const float *probs, int *inserted, cc_error *err)
+{
+    *inserted = 0;
+    return CALL(s, event_insert, "store events", 1, m, id, id_len, ts, segment, segment_len,
+                pred, label, probs, inserted, err);
+}
+
+int cc_store_event_get(cc_store *s, const cc_model *m, const char *id, int id_len, int *found,
+                       cc_stored_event *out, float *probs, cc_error *err)
+{
+    *found = 0;
+    return CALL(s, event_get, "read events", 0, m, id, id_len, found, out, probs, err);
+}
+
+int cc_store_event_set_label(cc_store *s, const cc_model *m, const char *id, int id_len,
+                             int label, int64_t label_at, cc_error *err)
+{
+    return CALL(s, event_set_label, "set labels", 1, m, id, id_len, label, label_at, err);
+}
+
+int cc_store_summary_add(cc_store *s, const cc_model *m, int64_t day, const cc_summary *delta,
+                         cc_error *err)
+{
+    return CALL(s, summary_add, "add to summaries", 1, m, day, delta, err);
+}
+
+int cc_store_summary_get(cc_store *s, const cc_model *m, int64_t day, cc_summary *out,
+                         cc_error *err)
+{
+    return CALL(s, summary_get, "read summaries", 0, m, day, out, err);
+}
+
+int cc_store_summary_days(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+                          int64_t **days, int *n, cc_error *err)
+{
+    *days = NULL;
+    *n = 0;
+    return CALL(s, summary_days, "list days", 0, m, from, to, days, n, err);
+}
+
+int cc_store_summary_from_rows(cc_store *s, const cc_model *m, int64_t day, cc_summary *out,
+                               cc_error *err)
+{
+    return CALL(s, summary_from_rows, "rebuild summaries from rows", 0, m, day, out, err);
+}
+
+int cc_store_baseline_set(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+                          cc_error *err)
+{
+    return CALL(s, baseline_set, "set a baseline", 1, m, from, to, err);
+}
+
+int cc_store_baseline_get(cc_store *s, const cc_model *m, int *has, int64_t *from,
+                          int64_t *to, cc_error *err)
+{
+    *has = 0;
+    return CALL(s, baseline_get, "read baselines", 0, m, has, from, to, err);
+}
+
+int cc_store_reject_add(cc_store *s, const char *kind, const char *source, int64_t line,
+                        const char *reason, const char *text, size_t text_len, cc_error *err)
+{
+    return CALL(s, reject_add, "record rejected lines", 1, kind, source, line, reason, text,
+                text_len, err);
+}
+
+int cc_store_pending_label_add(cc_store *s, const cc_model *m, const char *id, int id_len,
+                               int label, int64_t received_at, cc_error *err)
+{
+    return CALL(s, pending_label_add, "keep waiting labels", 1, m, id, id_len, label,
+                received_at, err);
+}
+
+int cc_store_pending_label_drain(cc_store *s, const cc_model *m, cc_pending_fn fn,
+                                 void *payload, cc_error *err)
+{
+    return CALL(s, pending_label_drain, "apply waiting labels", 1, m, fn, payload, err);
+}
+
+int64_t cc_store_pending_label_count(cc_store *s, const cc_model *m)
+{
+    return HAS(s, pending_label_count) ? s->be->pending_label_count(s, m) : 0;
+}
+
+int cc_store_prune_day(cc_store *s, const cc_model *m, int64_t day, int64_t now,
+                       int64_t *removed, cc_error *err)
+{
+    *removed = 0;
+    return CALL(s, prune_day, "prune", 1, m, day, now, removed, err);
+}
+
+int cc_store_pruned_get(cc_store *s, const cc_model *m, int64_t day, int *found,
+                        cc_summary *out, cc_error *err)
+{
+    *found = 0;
+    return CALL(s, pruned_get, "read pruned days", 0, m, day, found, out, err);
+}
+
+int cc_store_pruned_range(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+                          cc_pruned_range *out, cc_error *err)
+{
+    return CALL(s, pruned_range, "read pruned days", 0, m, from, to, out, err);
+}
+
+int cc_store_row_days(cc_store *s, const cc_model *m, int64_t **days, int *n, cc_error *err)
+{
+    *days = NULL;
+    *n = 0;
+    return CALL(s, row_days, "list days with events", 0, m, days, n, err);
+}
+
+int cc_store_class_faults(cc_store *s, const cc_model *m, cc_fault_fn fn, void *ctx,
+                          int64_t *count, cc_error *err)
+{
+    *count = 0;
+    return CALL(s, class_faults, "check class indexes", 0, m, fn, ctx, count, err);
+}
+
+int cc_store_integrity(cc_store *s, int (*fn)(void *ctx, const char *line), void *ctx, int *ok,
+                       cc_error *err)
+{
+    *ok = 1;
+    return CALL(s, integrity, "check its integrity", 0, fn, ctx, ok, err);
+}
+
+int cc_store_backup(cc_store *s, const char *out_path, cc_error *err)
+{
+    return CALL(s, backup, "make a backup", 0, out_path, err);
+}

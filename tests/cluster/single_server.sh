@@ -1,0 +1,129 @@
+#!/usr/bin/env bash
+# single_server.sh — one ClickHouse server (a one-shard cluster): the
+# end-to-end suite's log (tests/reference/e2e_*) and the demo's 28 days are
+# ingested and labelled into SQLite, published, and every report read back
+# through --store equals the one read with --db (counts exactly, real values
+# within 1e-9 relative, json_same.py); review and show too. Then publishing
+# again, twice, changes nothing in the cluster, and --store sqlite:PATH is
+# --db PATH.
+# The store backend's row reads that no command uses yet are compared with
+# the SQLite file's rows through ch_store_probe.
+# Usage: single_server.sh CONCORD SOURCE_DIR [CH_STORE_PROBE]
+set -euo pipefail
+C=$1
+SRC=$2
+PROBE=${3:-}
+HERE=$SRC/tests/cluster
+export CONCORD_NOW=1790000000
+T=$(mktemp -d "${TMPDIR:-/tmp}/concord-ch1.XXXXXX")
+. "$HERE/ch_fixture.sh"
+ch_setup "$T/ch" 1
+ch_start 1
+trap 'ch_stop_all; rm -rf "$T"' EXIT
+U=$CH_URL_1
+fails=0
+fail() { echo "FAIL: $*" >&2; fails=$((fails + 1)); }
+same() { /usr/bin/python3 "$HERE/json_same.py" "$1" "$2" "$3" || fail "$3"; }
+
+# the e2e log: model ref, with relabels among the delayed labels
+REF=$SRC/tests/reference
+classes=$(/usr/bin/python3 "$SRC/tests/e2e/e2e_compare.py" classes "$REF/e2e_expected.json")
+"$C" ingest --db "$T/h.db" --model ref --classes "$classes" --quiet "$REF/e2e_events.jsonl"
+"$C" label --db "$T/h.db" --model ref "$REF/e2e_labels.jsonl" > /dev/null
+# the demo: model packhouse, a baseline, 28 days
+"$C" demo --dir "$T/d" --per-day 120 > /dev/null
+"$C" ingest --db "$T/h.db" --model packhouse --classes premium,extra,class-1,class-2,juice,cull \
+  --quiet "$T/d/events.jsonl"
+"$C" label --db "$T/h.db" --model packhouse "$T/d/labels.jsonl" > /dev/null
+"$C" baseline --db "$T/h.db" --model packhouse --from 2026-10-05 --to 2026-10-11 > /dev/null
+
+"$C" publish --db "$T/h.db" --store "$U" --source host-1 > "$T/pub1.out" \
+  || fail "publish: $(cat "$T/pub1.out")"
+grep -q "summary vector" "$T/pub1.out" || fail "publish said: $(cat "$T/pub1.out")"
+
+compare_all() { # TAG
+  for model in ref packhouse; do
+    for by in day week all; do
+      "$C" report --db "$T/h.db" --model $model --by $by --format json > "$T/$1-sq-$model-$by.json"
+      "$C" report --store "$U" --model $model --by $by --format json > "$T/$1-ch-$model-$by.json" \
+        || fail "$1: report --store $model --by $by"
+      same "$T/$1-sq-$model-$by.json" "$T/$1-ch-$model-$by.json" "$1: report $model --by $by"
+    done
+  done
+  "$C" review --db "$T/h.db" --model ref --from 2026-03-01 --to 2026-03-31 --where all \
+    --format json > "$T/$1-sq-review.json"
+  "$C" review --store "$U" --model ref --from 2026-03-01 --to 2026-03-31 --where all \
+    --format json > "$T/$1-ch-review.json" || fail "$1: review --store"
+  same "$T/$1-sq-review.json" "$T/$1-ch-review.json" "$1: review ref --where all"
+  for id in d1-000 d2-076 d3-056; do
+    "$C" show --db "$T/h.db" --model ref --format json "$id" > "$T/$1-sq-show.json"
+    "$C" show --store "$U" --model ref --format json "$id" > "$T/$1-ch-show.json" \
+      || fail "$1: show --store $id"
+    same "$T/$1-sq-show.json" "$T/$1-ch-show.json" "$1: show $id"
+  done
+}
+compare_all first
+[ "$(grep -c . "$T/first-ch-ref-day.json")" -gt 0 ] || fail "empty report from the cluster"
+
+# the backend's row reads (ch_store_probe) against the SQLite rows
+if [ -n "$PROBE" ]; then
+  from=$(date -u -d 2026-03-01 +%s); to=$(date -u -d 2026-03-31T23:59:59 +%s)
+  "$PROBE" "$U" ref scan "$from" "$to" | sort > "$T/scan-ch.txt" || fail "probe scan"
+  sqlite3 -separator ' ' "$T/h.db" "SELECT e.id, e.ts, coalesce(e.label, -1) FROM events e JOIN models m ON m.model_id = e.model_id WHERE m.name = 'ref' AND e.ts BETWEEN $from AND $to" | sort > "$T/scan-sq.txt"
+  [ -s "$T/scan-sq.txt" ] && cmp -s "$T/scan-ch.txt" "$T/scan-sq.txt" || fail "events_scan differs from the SQLite rows"
+  for id in d1-000 d2-076 d3-208 nosuch; do
+    got=$("$PROBE" "$U" ref read "$id")
+    want=$(sqlite3 -separator ' ' "$T/h.db" "SELECT e.ts, coalesce(e.label, -1), coalesce(e.label_at, -1), coalesce(e.segment, '-') FROM events e JOIN models m ON m.model_id = e.model_id WHERE m.name = 'ref' AND e.id = '$id'")
+    [ "$got" = "${want:-absent}" ] || fail "event_read $id: '$got', expected '${want:-absent}'"
+  done
+  for d in 20500 20521 20523 20530 20600; do
+    got=$("$PROBE" "$U" ref lastlabeled "$d")
+    want=$(sqlite3 "$T/h.db" "SELECT coalesce(max(e.day), 'none') FROM events e JOIN models m ON m.model_id = e.model_id WHERE m.name = 'ref' AND e.label IS NOT NULL AND e.day <= $d")
+    [ "$got" = "$want" ] || fail "labeled_day_last $d: $got, expected $want"
+  done
+fi
+
+# republishing: nothing new is sent; a forced resend of everything (the
+# marks of a fresh copy of the store) leaves the cluster's answers the same
+count() { ch_query 1 "SELECT count() FROM concord.$1 FINAL"; }
+before="$(count summaries) $(count events)"
+"$C" publish --db "$T/h.db" --store "$U" --source host-1 > "$T/pub2.out"
+grep -q " 0 summary vectors, 0 event rows" "$T/pub2.out" || fail "second publish sent: $(cat "$T/pub2.out")"
+sqlite3 "$T/h.db" "DELETE FROM publish_state; INSERT OR IGNORE INTO publish_days(model_id, day) SELECT model_id, day FROM summaries;"
+"$C" publish --db "$T/h.db" --store "$U" --source host-1 > /dev/null
+"$C" publish --db "$T/h.db" --store "$U" --source host-1 > /dev/null
+after="$(count summaries) $(count events)"
+[ "$before" = "$after" ] || fail "republishing changed the row counts: $before -> $after"
+compare_all again
+
+# ingest --publish and label --publish: committed, then published
+head -n 300 "$T/d/events.jsonl" > "$T/part.jsonl"
+"$C" ingest --db "$T/h2.db" --model pk2 --classes premium,extra,class-1,class-2,juice,cull \
+  --quiet --publish "$U" --source host-2 "$T/part.jsonl" > "$T/ip.out" 2> /dev/null \
+  || fail "ingest --publish: $(cat "$T/ip.out")"
+"$C" label --db "$T/h2.db" --model pk2 --publish "$U" --source host-2 "$T/d/labels.jsonl" \
+  > "$T/lp.out" 2> /dev/null || fail "label --publish: $(cat "$T/lp.out")"
+"$C" report --db "$T/h2.db" --model pk2 --by all --format json > "$T/pk2-sq.json"
+"$C" report --store "$U" --model pk2 --by all --format json > "$T/pk2-ch.json" || fail "report pk2"
+same "$T/pk2-sq.json" "$T/pk2-ch.json" "ingest --publish, label --publish: report pk2"
+rc=0; "$C" ingest --db "$T/h3.db" --publish "http://x" "$T/part.jsonl" 2> /dev/null || rc=$?
+[ $rc = 2 ] || fail "ingest --publish http://x: exit $rc, expected 2"
+
+# sqlite:PATH is --db PATH; --db with --store is refused; a bad URL names the forms
+"$C" report --store "sqlite:$T/h.db" --model ref --format json > "$T/sqlite-url.json"
+cmp -s "$T/sqlite-url.json" "$T/first-sq-ref-day.json" || fail "--store sqlite:PATH differs from --db"
+rc=0; "$C" report --db "$T/h.db" --store "$U" --model ref 2> "$T/both.err" > /dev/null || rc=$?
+[ $rc = 2 ] || fail "--db with --store: exit $rc, expected 2"
+rc=0; "$C" report --store "mysql://x/y" --model ref 2> "$T/bad.err" > /dev/null || rc=$?
+[ $rc = 2 ] && grep -q "sqlite:PATH or clickhouse://HOST:PORT/DATABASE" "$T/bad.err" \
+  || fail "bad --store URL: exit $rc, $(cat "$T/bad.err")"
+# an unknown model on the cluster is exit 4, as with --db
+rc=0; "$C" report --store "$U" --model nosuch > /dev/null 2>&1 || rc=$?
+[ $rc = 4 ] || fail "unknown model on the cluster: exit $rc, expected 4"
+# a server error comes back as "HTTP status: Code N: message" (exit 3)
+rc=0; "$C" report --store "${U%/concord}/nosuchdb" --model ref > /dev/null 2> "$T/nodb.err" || rc=$?
+[ $rc = 3 ] && grep -Eq "HTTP 404: Code 81: Database nosuchdb doesn't exist" "$T/nodb.err" \
+  || fail "missing database: exit $rc, $(cat "$T/nodb.err")"
+
+if [ "$fails" -gt 0 ]; then echo "$fails check(s) failed" >&2; exit 1; fi
+echo "single_server: all checks passed"

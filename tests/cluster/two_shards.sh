@@ -1,0 +1,139 @@
+#!/usr/bin/env bash
+# two_shards.sh — two ClickHouse servers as the two shards of cluster
+# "concord" (Distributed tables over both), two collector "hosts" (two SQLite
+# files) each holding half of a log, delayed labels and their corrections
+# arriving at either host (a correction always at the other host than the
+# label before it, so labels often reach a host that never saw the event).
+# After publishing, the merged report, review and show equal those of one
+# SQLite store that read the whole log (counts exactly, reals within 1e-9
+# relative). Then a shard is stopped during a publish: the publisher retries
+# with backoff and says so, a report meanwhile fails with the server's error
+# instead of answering with half the data, and once the shard is back the
+# merged report again equals the single store's: nothing lost or doubled.
+# Usage: two_shards.sh CONCORD SOURCE_DIR
+set -euo pipefail
+C=$1
+SRC=$2
+HERE=$SRC/tests/cluster
+T=$(mktemp -d "${TMPDIR:-/tmp}/concord-ch2.XXXXXX")
+. "$HERE/ch_fixture.sh"
+ch_setup "$T/ch" 2
+ch_start 1
+ch_start 2
+PUB=()
+cleanup() {
+  for p in "${PUB[@]}"; do kill "$p" 2> /dev/null || true; done
+  ch_stop_all
+  rm -rf "$T"
+}
+trap cleanup EXIT
+fails=0
+fail() { echo "FAIL: $*" >&2; fails=$((fails + 1)); }
+same() { /usr/bin/python3 "$HERE/json_same.py" "$1" "$2" "$3" || fail "$3"; }
+for i in 1 2; do "$C" publish --init --store "$(eval echo \$CH_URL_$i)" > /dev/null; done
+
+REF=$SRC/tests/reference
+classes=$(/usr/bin/python3 "$SRC/tests/e2e/e2e_compare.py" classes "$REF/e2e_expected.json")
+awk 'NR % 2 == 1' "$REF/e2e_events.jsonl" > "$T/ev-a.jsonl"
+awk 'NR % 2 == 0' "$REF/e2e_events.jsonl" > "$T/ev-b.jsonl"
+mkdir "$T/lab"
+rounds=$(/usr/bin/python3 "$HERE/split_labels.py" "$REF/e2e_labels.jsonl" "$T/ev-a.jsonl" "$T/lab")
+[ "$rounds" -ge 2 ] || fail "the label log has no corrections to test ($rounds rounds)"
+
+# one store reading everything; label round k arrives at time 1790000000 + k hours
+export CONCORD_NOW=1790000000
+"$C" ingest --db "$T/one.db" --model ref --classes "$classes" --quiet "$REF/e2e_events.jsonl"
+for host in a b; do
+  "$C" ingest --db "$T/$host.db" --model ref --classes "$classes" --quiet "$T/ev-$host.jsonl"
+done
+for k in $(seq 1 "$rounds"); do
+  export CONCORD_NOW=$((1790000000 + 3600 * k))
+  "$C" label --db "$T/one.db" --model ref "$T/lab/$k.jsonl" > /dev/null
+  for host in a b; do
+    [ -s "$T/lab/$k-$host.jsonl" ] && "$C" label --db "$T/$host.db" --model ref "$T/lab/$k-$host.jsonl" > /dev/null
+  done
+done
+echo "labels waiting for an event at a: $(sqlite3 "$T/a.db" 'SELECT count(*) FROM pending_labels'), at b: $(sqlite3 "$T/b.db" 'SELECT count(*) FROM pending_labels')"
+[ "$(sqlite3 "$T/a.db" 'SELECT count(*) FROM pending_labels')" -gt 0 ] || fail "no label reached a host without its event"
+
+# each host publishes through "its" server; twice round, so labels sent by one
+# host are applied by the other
+for r in 1 2; do
+  "$C" publish --db "$T/a.db" --store "$CH_URL_1" --source host-a > "$T/pa$r.out"
+  "$C" publish --db "$T/b.db" --store "$CH_URL_2" --source host-b > "$T/pb$r.out"
+done
+cat "$T"/pa1.out "$T"/pb1.out "$T"/pa2.out "$T"/pb2.out
+# both shards hold part of the summaries and of the events
+for t in summaries events; do
+  for i in 1 2; do
+    n=$(ch_query $i "SELECT count() FROM concord.${t}_local")
+    [ "$n" -gt 0 ] || fail "shard $i holds no $t"
+  done
+done
+
+compare_all() { # TAG URL
+  for by in day week all; do
+    "$C" report --db "$T/one.db" --model ref --by $by --format json > "$T/sq-$by.json"
+    "$C" report --store "$2" --model ref --by $by --format json > "$T/ch-$by.json" \
+      || fail "$1: report --store --by $by"
+    same "$T/sq-$by.json" "$T/ch-$by.json" "$1: merged report --by $by"
+  done
+  "$C" review --db "$T/one.db" --model ref --from 2026-03-01 --to 2026-03-31 --where all \
+    --format json > "$T/sq-review.json"
+  "$C" review --store "$2" --model ref --from 2026-03-01 --to 2026-03-31 --where all \
+    --format json > "$T/ch-review.json" || fail "$1: review --store"
+  same "$T/sq-review.json" "$T/ch-review.json" "$1: merged review --where all"
+  # show: every id that got more than one label, and a few others
+  for id in $(cut -d'"' -f4 "$T/lab/2.jsonl" | head -n 20) d1-000 d3-002; do
+    "$C" show --db "$T/one.db" --model ref --format json "$id" > "$T/sq-show.json"
+    "$C" show --store "$2" --model ref --format json "$id" > "$T/ch-show.json" \
+      || fail "$1: show --store $id"
+    same "$T/sq-show.json" "$T/ch-show.json" "$1: show $id"
+  done
+}
+compare_all "two hosts" "$CH_URL_1"
+"$C" report --store "$CH_URL_2" --model ref --by all --format json > "$T/via2.json"
+same "$T/sq-all.json" "$T/via2.json" "the same merged report through the other server"
+
+# --- a shard stopped during publishing -------------------------------------
+export CONCORD_NOW=1790100000
+"$C" demo --dir "$T/d" --per-day 100 > /dev/null
+awk 'NR % 2 == 1' "$T/d/events.jsonl" > "$T/dev-a.jsonl"
+awk 'NR % 2 == 0' "$T/d/events.jsonl" > "$T/dev-b.jsonl"
+DC=premium,extra,class-1,class-2,juice,cull
+"$C" ingest --db "$T/one.db" --model packhouse --classes $DC --quiet "$T/d/events.jsonl"
+"$C" ingest --db "$T/a.db" --model packhouse --classes $DC --quiet "$T/dev-a.jsonl"
+"$C" ingest --db "$T/b.db" --model packhouse --classes $DC --quiet "$T/dev-b.jsonl"
+"$C" publish --db "$T/a.db" --store "$CH_URL_1" --source host-a > /dev/null
+ch_stop 2
+rc=0
+"$C" report --store "$CH_URL_1" --model packhouse --by all --format json > "$T/down.json" \
+  2> "$T/down.err" || rc=$?
+[ $rc = 3 ] || fail "report with a shard down: exit $rc, expected 3"
+grep -Eq "ClickHouse 127.0.0.1:[0-9]+: HTTP [0-9]+: Code [0-9]+: " "$T/down.err" \
+  || fail "report with a shard down said: $(cat "$T/down.err")"
+[ ! -s "$T/down.json" ] || fail "report with a shard down printed a report"
+echo "report with shard 2 down: $(head -c 300 "$T/down.err")"
+"$C" publish --db "$T/b.db" --store "$CH_URL_1" --source host-b --retry-for 900 \
+  > "$T/retry.out" 2> "$T/retry.err" &
+PUB+=($!)
+until=$(( $(date +%s) + 300 ))
+until grep -q "retrying in" "$T/retry.err"; do
+  [ "$(date +%s)" -lt "$until" ] || { fail "HANG: publish never said it was retrying"; break; }
+  kill -0 "${PUB[0]}" 2> /dev/null || { fail "publish ended while a shard was down: $(cat "$T/retry.err")"; break; }
+  sleep 0.2
+done
+echo "publish while shard 2 is down said: $(head -n 1 "$T/retry.err")"
+ch_start 2
+wait "${PUB[0]}" || fail "publish after the shard came back: exit $?, $(cat "$T/retry.err")"
+PUB=()
+cat "$T/retry.out"
+"$C" report --db "$T/one.db" --model packhouse --by day --format json > "$T/sq-pk.json"
+"$C" report --store "$CH_URL_1" --model packhouse --by day --format json > "$T/ch-pk.json" \
+  || fail "report after the shard came back"
+same "$T/sq-pk.json" "$T/ch-pk.json" "after a shard outage during publish: packhouse report"
+# and the first model is unchanged by all this
+compare_all "after the outage" "$CH_URL_2"
+
+if [ "$fails" -gt 0 ]; then echo "$fails check(s) failed" >&2; exit 1; fi
+echo "two_shards: all checks passed"
