@@ -6,7 +6,7 @@
 
 #include <errno.h>
 #include <sqlite3.h>
-#include "store_sqlite.h" /* temporary: step 2 moves this SQL into the store */
+#include "store_sqlite.h" /* cc_store_db: inspects the SQLite file directly */
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>

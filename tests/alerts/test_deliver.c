@@ -5,7 +5,7 @@
  * duplicate notice id queues nothing. */
 #include <math.h>
 #include <sqlite3.h>
-#include "store_sqlite.h" /* temporary: step 2 moves this SQL into the store */
+#include "store_sqlite.h" /* cc_store_db: inspects the SQLite file directly */
 #include <stdlib.h>
 #include <unistd.h>
 

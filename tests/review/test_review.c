@@ -5,7 +5,7 @@
  * uses the (model, day, ts) index and the event lookup events_by_id. */
 #include <math.h>
 #include <sqlite3.h>
-#include "store_sqlite.h" /* temporary: step 2 moves this SQL into the store */
+#include "store_sqlite.h" /* cc_store_db: inspects the SQLite file directly */
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
