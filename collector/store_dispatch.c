@@ -54,21 +54,10 @@ void cc_store_snapshot_end(cc_store *s)
         s->be->snapshot_end(s);
 }
 
-int cc_store_begin(cc_store *s, cc_error *err)
-{
-    return CALL(s, work_begin, "begin a write", 1, err);
-}
-
-int cc_store_commit(cc_store *s, cc_error *err)
-{
-    return CALL(s, work_commit, "commit a write", 1, err);
-}
-
-void cc_store_rollback(cc_store *s)
-{
-    if (HAS(s, work_abort))
-        s->be->work_abort(s);
-}
+/* The earlier names of the unit of work. */
+int cc_store_begin(cc_store *s, cc_error *err) { return cc_store_work_begin(s, err); }
+int cc_store_commit(cc_store *s, cc_error *err) { return cc_store_work_commit(s, err); }
+void cc_store_rollback(cc_store *s) { cc_store_work_abort(s); }
 
 int cc_store_model_get(cc_store *s, const char *name, cc_model **out, cc_error *err)
 {
