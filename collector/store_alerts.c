@@ -93,7 +93,8 @@ int cc_sq_rule_states(cc_store *store, const char *model, const char *rule, cons
         if (fn(ctx, &r))
             break;
     }
-    rc = step == SQLITE_ROW || step == SQLITE_DONE ? 0 : cc_sq_error(s, err, "reading rule_state");
+    if (step != SQLITE_ROW && step != SQLITE_DONE)
+        rc = cc_sq_error(s, err, "reading rule_state");
     sqlite3_finalize(st);
     return rc;
 }
@@ -239,8 +240,8 @@ int cc_sq_notices(cc_store *store, const char *model, const char *delivery, int 
         if (fn(ctx, &r))
             break;
     }
-    rc = step == SQLITE_ROW || step == SQLITE_DONE ? 0
-                                                   : cc_sq_error(s, err, "reading the alert tables");
+    if (step != SQLITE_ROW && step != SQLITE_DONE)
+        rc = cc_sq_error(s, err, "reading the alert tables");
     sqlite3_finalize(st);
     return rc;
 }

@@ -2,9 +2,9 @@
  * public calls that dispatch to it (round trips of rule states,
  * notifications and the outbox, follow offsets, the review's scan and read
  * by id, the newest labelled day), a unit of work kept or discarded whole,
- * the upgrade of a version 3 file whose alert tables were made outside the
- * schema, and a backend without write ops (or built against a shorter
- * table) giving clear errors instead of crashing. */
+ * nested snapshots, the upgrade of a version 3 file whose alert tables were
+ * made outside the schema, and a backend without write ops (or built against
+ * a shorter table) giving clear errors instead of crashing. */
 #include <math.h>
 #include <stddef.h>
 #include <stdio.h>
@@ -535,6 +535,15 @@ int main(void)
     CHECK(cc_store_work_begin(s, &err) == 0 &&
           cc_store_model_create(s, "m1", 2, 2, NULL, NULL, &m, &err) == 0 &&
           cc_store_work_commit(s, &err) == 0);
+
+    /* snapshots nest: only the outermost end releases the read transaction */
+    CHECK(cc_store_snapshot_begin(s, &err) == 0 && !sqlite3_get_autocommit(cc_store_db(s)));
+    CHECK(cc_store_snapshot_begin(s, &err) == 0);
+    cc_store_snapshot_end(s);
+    CHECK(!sqlite3_get_autocommit(cc_store_db(s)));
+    cc_store_snapshot_end(s);
+    CHECK(sqlite3_get_autocommit(cc_store_db(s)));
+    cc_store_snapshot_end(s); /* one too many: harmless */
 
     rule_states(s);
     outbox(s);
