@@ -102,7 +102,7 @@ static int check_model(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o
     /* a dry run (a replay, `report --rules`, `rules validate`) only reads:
      * one snapshot, no write lock, so it works on a read-only store */
     if (!rc)
-        rc = o->dry_run ? cc_store_snapshot_begin(s, err) : cc_store_begin(s, err);
+        rc = o->dry_run ? cc_store_snapshot_begin(s, err) : cc_store_work_begin(s, err);
     if (rc) {
         free(states);
         cc_eval_free(ev);
@@ -165,10 +165,10 @@ static int check_model(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o
         return rc;
     }
     if (rc) {
-        cc_store_rollback(s);
+        cc_store_work_abort(s);
         return rc;
     }
-    return cc_store_commit(s, err);
+    return cc_store_work_commit(s, err);
 }
 
 int cc_check_run(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o,

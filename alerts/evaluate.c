@@ -4,8 +4,6 @@
 
 #include <math.h>
 #include <stdarg.h>
-#include <sqlite3.h>
-#include "store_sqlite.h" /* temporary: step 2 moves this SQL into the store */
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -120,23 +118,12 @@ int cc_eval_report(cc_evaluator *ev, int64_t day, const cc_report **out, cc_erro
 /* Days from the newest day up to `day` with labelled events; NAN if none. */
 static int label_age(cc_evaluator *ev, int64_t day, double *out, cc_error *err)
 {
-    sqlite3 *db = cc_store_db(ev->store);
-    sqlite3_stmt *st = NULL;
-    if (sqlite3_prepare_v2(db, "SELECT max(day) FROM summaries WHERE model_id = ?1 AND "
-                               "day <= ?2 AND labeled > 0", -1, &st, NULL) != SQLITE_OK)
-        return cc_error_set(err, CC_EIO, "%s: label age: %s", cc_store_path(ev->store),
-                            sqlite3_errmsg(db));
-    sqlite3_bind_int64(st, 1, ev->model_id);
-    sqlite3_bind_int64(st, 2, day);
-    int rc = sqlite3_step(st);
-    *out = NAN;
-    if (rc == SQLITE_ROW && sqlite3_column_type(st, 0) != SQLITE_NULL)
-        *out = (double)(day - sqlite3_column_int64(st, 0));
-    sqlite3_finalize(st);
-    if (rc != SQLITE_ROW)
-        return cc_error_set(err, CC_EIO, "%s: label age: %s", cc_store_path(ev->store),
-                            sqlite3_errmsg(db));
-    return 0;
+    cc_model m = {.id = ev->model_id, .name = ev->model};
+    int64_t last = 0;
+    int found = 0;
+    int rc = cc_store_labeled_day_last(ev->store, &m, day, &found, &last, err);
+    *out = found ? (double)(day - last) : NAN;
+    return rc;
 }
 
 static void skip(cc_eval_result *out, const char *fmt, ...) __attribute__((format(printf, 2, 3)));

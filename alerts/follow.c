@@ -4,8 +4,6 @@
 
 #include <errno.h>
 #include <fcntl.h>
-#include <sqlite3.h>
-#include "store_sqlite.h" /* temporary: step 2 moves this SQL into the store */
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -55,60 +53,18 @@ static void note(follower *f, const char *path, const char *what)
 
 static void sleep_ms(int ms);
 
-static int prepare(cc_store *s, cc_error *err)
-{
-    char *msg = NULL;
-    if (sqlite3_exec(cc_store_db(s),
-                     "CREATE TABLE IF NOT EXISTS follow_offsets(path TEXT PRIMARY KEY, "
-                     "dev INTEGER NOT NULL, ino INTEGER NOT NULL, offset INTEGER NOT NULL, "
-                     "line INTEGER NOT NULL, updated_at INTEGER NOT NULL)",
-                     NULL, NULL, &msg) != SQLITE_OK) {
-        int rc = cc_error_set(err, CC_EIO, "%s: follow_offsets: %s", cc_store_path(s),
-                              msg ? msg : "?");
-        sqlite3_free(msg);
-        return rc;
-    }
-    return 0;
-}
-
-static int save_offset(follower *f, const tail *t, cc_error *err)
-{
-    sqlite3_stmt *st = NULL;
-    sqlite3 *db = cc_store_db(f->store);
-    if (sqlite3_prepare_v2(db, "INSERT OR REPLACE INTO follow_offsets(path, dev, ino, offset, "
-                               "line, updated_at) VALUES (?1, ?2, ?3, ?4, ?5, ?6)",
-                           -1, &st, NULL) != SQLITE_OK)
-        return cc_error_set(err, CC_EIO, "%s: follow_offsets: %s", cc_store_path(f->store),
-                            sqlite3_errmsg(db));
-    sqlite3_bind_text(st, 1, t->path, -1, SQLITE_STATIC);
-    sqlite3_bind_int64(st, 2, (sqlite3_int64)t->dev);
-    sqlite3_bind_int64(st, 3, (sqlite3_int64)t->ino);
-    sqlite3_bind_int64(st, 4, (sqlite3_int64)t->consumed);
-    sqlite3_bind_int64(st, 5, t->line);
-    sqlite3_bind_int64(st, 6, (sqlite3_int64)time(NULL));
-    int rc = sqlite3_step(st);
-    sqlite3_finalize(st);
-    return rc == SQLITE_DONE ? 0
-                             : cc_error_set(err, CC_EIO, "%s: follow_offsets: %s",
-                                            cc_store_path(f->store), sqlite3_errmsg(db));
-}
-
 /* Where an earlier run stopped in this very file (same device and inode). */
 static void load_offset(follower *f, tail *t, off_t size)
 {
-    sqlite3_stmt *st = NULL;
-    if (sqlite3_prepare_v2(cc_store_db(f->store),
-                           "SELECT dev, ino, offset, line FROM follow_offsets WHERE path = ?1",
-                           -1, &st, NULL) != SQLITE_OK)
+    cc_follow_offset o;
+    int found = 0;
+    if (cc_store_follow_offset_get(f->store, t->path, &found, &o, NULL) || !found)
         return;
-    sqlite3_bind_text(st, 1, t->path, -1, SQLITE_STATIC);
-    if (sqlite3_step(st) == SQLITE_ROW && (dev_t)sqlite3_column_int64(st, 0) == t->dev &&
-        (ino_t)sqlite3_column_int64(st, 1) == t->ino && sqlite3_column_int64(st, 2) <= size &&
-        lseek(t->fd, (off_t)sqlite3_column_int64(st, 2), SEEK_SET) >= 0) {
-        t->pos = t->consumed = (off_t)sqlite3_column_int64(st, 2);
-        t->line = sqlite3_column_int64(st, 3);
+    if ((dev_t)o.dev == t->dev && (ino_t)o.ino == t->ino && o.offset <= size &&
+        lseek(t->fd, (off_t)o.offset, SEEK_SET) >= 0) {
+        t->pos = t->consumed = (off_t)o.offset;
+        t->line = o.line;
     }
-    sqlite3_finalize(st);
 }
 
 static void on_reject(void *payload, const char *source, int64_t line, const char *reason)
@@ -127,7 +83,8 @@ static int open_chunk(follower *f, cc_error *err)
 }
 
 /* Ingests the lines gathered so far, with the file's new offset, in one
- * transaction. */
+ * unit of work (the chunk fits one ingest batch, and cc_ingest_finish
+ * commits the offset with the rows). */
 static int flush_chunk(follower *f, cc_error *err)
 {
     tail *t = f->chunk_tail;
@@ -148,8 +105,11 @@ static int flush_chunk(follower *f, cc_error *err)
     int rc = cc_ingest_create(&ing, f->store, &io, err);
     if (!rc)
         rc = cc_ingest_stream(ing, in, t->path, f->chunk_first, t->kind, err);
-    if (!rc)
-        rc = save_offset(f, t, err);
+    if (!rc) {
+        cc_follow_offset off = {(uint64_t)t->dev, (uint64_t)t->ino, (int64_t)t->consumed,
+                                t->line};
+        rc = cc_ingest_source_offset(ing, t->path, &off, err);
+    }
     if (!rc)
         rc = cc_ingest_finish(ing, err);
     if (!rc) {
@@ -373,12 +333,14 @@ static int busy_backoff(follower *f, int *tries, cc_error *err)
     return 1;
 }
 
+/* The store's schema holds follow_offsets and the alert tables; a store
+ * that cannot write them is refused here rather than after the first read. */
 static int setup(follower *f, cc_error *err)
 {
-    int rc = prepare(f->store, err);
-    if (!rc && f->o->rules)
-        rc = cc_state_prepare(f->store, err);
-    return rc;
+    if (cc_store_readonly(f->store))
+        return cc_error_set(err, CC_EIO, "%s: follow needs a store it can write",
+                            cc_store_path(f->store));
+    return 0;
 }
 
 int cc_follow_run(cc_store *s, const cc_follow_opts *o, cc_follow_stats *stats, cc_error *err)

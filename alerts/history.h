@@ -1,6 +1,7 @@
 /* history.h — reading the alert tables back for `concord alerts`: each
  * rule's state, and the notifications with their delivery per receiver
- * (sent, pending with its next attempt, or dead letter). Read-only. */
+ * (sent, pending with its next attempt, or dead letter), through the store.
+ * Read-only. */
 #ifndef CC_ALERTS_HISTORY_H
 #define CC_ALERTS_HISTORY_H
 
@@ -16,22 +17,12 @@ typedef struct cc_state_row {
     double last_value, last_bound;            /* NAN when undefined */
 } cc_state_row;
 
-typedef struct cc_history_row {
-    int64_t id;
-    const char *notice_id, *model, *rule, *kind, *urgency, *body;
-    int64_t day, window_day, created_at;
-    double value, bound;
-    const char *receiver;       /* NULL: no receiver was configured */
-    const char *status;         /* pending, sent, dead; NULL without receiver */
-    int attempts;
-    int64_t next_at, sent_at;   /* -1 when unset */
-    long last_status;           /* HTTP status of the last attempt, 0 none */
-    const char *last_error;
-} cc_history_row;
+/* A notification with one of its outbox rows (see store.h). */
+typedef cc_notice_row cc_history_row;
 
 /* Rows are valid during the callback only; a nonzero return stops. */
 typedef int (*cc_state_row_fn)(void *ctx, const cc_state_row *r);
-typedef int (*cc_history_row_fn)(void *ctx, const cc_history_row *r);
+typedef cc_notice_row_fn cc_history_row_fn;
 
 /* 1 when alert rules have been checked for the model (the alert tables
  * exist and hold its rules), else 0. Writes nothing. */

@@ -1,10 +1,10 @@
 /* state.h — each (model, rule)'s alert state, quiet -> building -> raised ->
  * cleared, and not-evaluated while days cannot be judged, as a pure step
- * function, and its SQLite tables: rule_state,
- * notifications (one row per transition, with the JSON body) and outbox (one
- * row per notification and receiver, drained by deliver.c). The caller wraps
- * a model's state changes and the notifications they cause in one
- * transaction (cc_store_begin / cc_store_commit), so a transition is never
+ * function, and what it records through the store: rule states,
+ * notifications (one per transition, with the JSON body) and outbox rows (one
+ * per notification and receiver, drained by deliver.c). The caller wraps a
+ * model's state changes and the notifications they cause in one unit of work
+ * (cc_store_work_begin / cc_store_work_commit), so a transition is never
  * recorded without its notification, nor the reverse. */
 #ifndef CC_ALERTS_STATE_H
 #define CC_ALERTS_STATE_H
@@ -42,7 +42,8 @@ typedef struct cc_rule_state {
     int64_t last_notified_day;  /* fired or last reminder; -1 none */
 } cc_rule_state;
 
-/* Creates the tables when missing. */
+/* Kept for callers: the store's schema (version 4) holds the tables, so
+ * this does nothing and returns 0. */
 int cc_state_prepare(cc_store *s, cc_error *err);
 
 int cc_state_load(cc_store *s, const char *model, const char *rule, cc_rule_state *out,
@@ -56,14 +57,9 @@ cc_transition cc_state_step(cc_rule_state *st, const cc_rule *rule, int64_t day,
 int cc_state_save(cc_store *s, const char *model, const cc_rule *rule, const cc_rule_state *st,
                   const cc_eval_result *ev, int64_t now, cc_error *err);
 
-typedef struct cc_notification {
-    const char *notice_id;
-    const char *model, *rule, *kind, *urgency;
-    int64_t day, window_day;
-    double value, bound;
-    const char *body;
-    int64_t created_at;
-} cc_notification;
+/* A notification as the store records it (notice_id, model, rule, kind,
+ * urgency, day, window_day, value, bound, body, created_at). */
+typedef cc_notice_rec cc_notification;
 
 /* Records the notification and an outbox row per receiver. *queued = 0 when
  * the notice id was already recorded (nothing is added). */

@@ -6,7 +6,6 @@
 
 #include <errno.h>
 #include <sqlite3.h>
-#include "store_sqlite.h" /* temporary: step 2 moves this SQL into the store */
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -27,6 +26,7 @@
 #include "report.h"
 #include "review.h"
 #include "store.h"
+#include "store_sqlite.h" /* cc_store_db: inspects the SQLite file directly */
 #include "summary.h"
 #include "synth.h"
 

@@ -49,10 +49,11 @@ int cmd_baseline(int argc, char **argv)
         fprintf(stderr, "concord baseline: model '%s' has no events from %s to %s\n", model, fv,
                 tv);
         rc = EXIT_NOTFOUND;
-    } else if (cc_store_begin(store, &err) || cc_store_baseline_set(store, m, from, to, &err) ||
-               cc_store_commit(store, &err)) {
-        /* an explicit transaction: a waiting writer raises its flag (store.h) */
-        cc_store_rollback(store);
+    } else if (cc_store_work_begin(store, &err) ||
+               cc_store_baseline_set(store, m, from, to, &err) ||
+               cc_store_work_commit(store, &err)) {
+        /* an explicit unit of work: a waiting writer raises its flag (store.h) */
+        cc_store_work_abort(store);
         rc = cli_fail(&err);
     } else {
         fprintf(stderr, "baseline of '%s': %s..%s (%d days with events)\n", model, fv, tv,

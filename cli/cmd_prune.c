@@ -64,10 +64,10 @@ int cmd_prune(int argc, char **argv)
             done_days++;
             continue;
         }
-        if (cc_store_begin(store, &err) ||
+        if (cc_store_work_begin(store, &err) ||
             cc_store_prune_day(store, m, days[i], now, &removed, &err) ||
-            cc_store_commit(store, &err)) {
-            cc_store_rollback(store);
+            cc_store_work_commit(store, &err)) {
+            cc_store_work_abort(store);
             rc = cli_fail(&err);
             break;
         }

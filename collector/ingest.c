@@ -73,7 +73,7 @@ static void model_state_clear(model_state *ms)
 
 static int begin(cc_ingest *ing, cc_error *err)
 {
-    int rc = cc_store_begin(ing->store, err);
+    int rc = cc_store_work_begin(ing->store, err);
     ing->in_tx = rc == 0;
     return rc;
 }
@@ -320,7 +320,7 @@ static int commit_batch(cc_ingest *ing, cc_error *err)
     int rc = flush(ing, err);
     if (!rc) {
         cc_testpoint("ingest-batch-written");
-        rc = cc_store_commit(ing->store, err);
+        rc = cc_store_work_commit(ing->store, err);
     }
     ing->in_tx = 0;
     if (rc)
@@ -585,11 +585,11 @@ int cc_ingest_finish(cc_ingest *ing, cc_error *err)
 {
     int rc = 0;
     if (ing->opts.strict && ing->stats.rejected > 0) {
-        cc_store_rollback(ing->store);
+        cc_store_work_abort(ing->store);
         ing->in_tx = 0;
         discard_deltas(ing);
         /* the rejects themselves are still worth keeping */
-        if ((rc = cc_store_begin(ing->store, err)))
+        if ((rc = cc_store_work_begin(ing->store, err)))
             return rc;
         for (size_t i = 0; !rc && i < ing->n_held; i++) {
             strict_reject *h = &ing->held[i];
@@ -597,9 +597,9 @@ int cc_ingest_finish(cc_ingest *ing, cc_error *err)
                                      h->text, h->text_len, err);
         }
         if (!rc)
-            rc = cc_store_commit(ing->store, err);
+            rc = cc_store_work_commit(ing->store, err);
         else
-            cc_store_rollback(ing->store);
+            cc_store_work_abort(ing->store);
         return rc;
     }
     if (!ing->in_tx && (rc = begin(ing, err)))
@@ -618,7 +618,7 @@ int cc_ingest_finish(cc_ingest *ing, cc_error *err)
     if (!rc)
         rc = flush(ing, err);
     if (!rc)
-        rc = cc_store_commit(ing->store, err);
+        rc = cc_store_work_commit(ing->store, err);
     ing->in_tx = 0;
     if (!rc)
         ing->stats.committed = 1;
@@ -630,7 +630,7 @@ void cc_ingest_free(cc_ingest *ing)
     if (!ing)
         return;
     if (ing->in_tx)
-        cc_store_rollback(ing->store);
+        cc_store_work_abort(ing->store);
     for (int i = 0; i < ing->n_models; i++)
         model_state_clear(&ing->models[i]);
     free(ing->models);
@@ -642,4 +642,13 @@ void cc_ingest_free(cc_ingest *ing)
     free(ing->held);
     cc_parser_free(ing->parser);
     free(ing);
+}
+
+int cc_ingest_source_offset(cc_ingest *ing, const char *path, const cc_follow_offset *o,
+                            cc_error *err)
+{
+    int rc = 0;
+    if (!ing->in_tx && (rc = begin(ing, err)))
+        return rc;
+    return cc_store_follow_offset_set(ing->store, path, o, (int64_t)time(NULL), err);
 }

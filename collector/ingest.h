@@ -76,6 +76,12 @@ int cc_ingest_stream(cc_ingest *ing, FILE *f, const char *source, int64_t first_
  * with rejected lines, rolls everything back). */
 int cc_ingest_finish(cc_ingest *ing, cc_error *err);
 
+/* Records that the source `path` was read up to *o, in the run's open unit
+ * of work: cc_ingest_finish commits the offset together with the rows it
+ * covers (or neither). For follow mode, whose chunk is one batch. */
+int cc_ingest_source_offset(cc_ingest *ing, const char *path, const cc_follow_offset *o,
+                            cc_error *err);
+
 const cc_ingest_stats *cc_ingest_get_stats(const cc_ingest *ing);
 
 /* 1 when the last error came from an input file (it could not be opened or

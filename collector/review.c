@@ -4,8 +4,6 @@
 #include "review.h"
 
 #include <math.h>
-#include <sqlite3.h>
-#include "store_sqlite.h" /* temporary: step 2 moves this SQL into the store */
 #include <stdlib.h>
 #include <string.h>
 
@@ -139,8 +137,7 @@ struct cc_review {
     heap kept[CC_REVIEW_KINDS];
     cc_store *store;
     const cc_model *model;
-    sqlite3_stmt *fetch;
-    int own_txn;
+    int in_snapshot;        /* deferred: the review's snapshot is still open */
 };
 
 static int wants(const cc_review_opts *o, cc_review_where w) { return (o->lists >> w) & 1u; }
@@ -179,9 +176,8 @@ void cc_review_free(cc_review *rv)
         free(rv->lists[w].events);
         heap_clear(&rv->kept[w]);
     }
-    sqlite3_finalize(rv->fetch);
-    if (rv->own_txn && !sqlite3_get_autocommit(cc_store_db(rv->store)))
-        sqlite3_exec(cc_store_db(rv->store), "COMMIT", NULL, NULL, NULL);
+    if (rv->in_snapshot)
+        cc_store_snapshot_end(rv->store);
     free(rv->segment);
     free(rv);
 }
@@ -204,41 +200,22 @@ const cc_review_event *cc_review_get_list(const cc_review *rv, cc_review_where w
     return rv->opts.deferred ? NULL : rv->lists[w].events;
 }
 
-static int db_fail(cc_store *s, cc_error *err, const char *what)
-{
-    return cc_error_set(err, CC_EIO, "%s: %s: %s", cc_store_path(s), what,
-                        sqlite3_errmsg(cc_store_db(s)));
-}
-
-static const char fetch_sql[] =
-    "SELECT ts, segment, label, probs, label_at FROM events WHERE model_id = ?1 AND id = ?2";
-
-/* Reads one row by (model, id) into e (id already set). *found = 0 when absent. */
-static int fetch(sqlite3_stmt *st, cc_store *s, const cc_model *m, cc_review_event *e,
-                 int *found, cc_error *err)
+/* Reads one event by (model, id) into e (id already set). *found = 0 when absent. */
+static int fetch(cc_store *s, const cc_model *m, cc_review_event *e, int *found, cc_error *err)
 {
     size_t want = (size_t)m->m * (size_t)m->k * sizeof(float);
-    sqlite3_reset(st);
-    sqlite3_bind_int64(st, 1, m->id);
-    sqlite3_bind_text(st, 2, e->id, -1, SQLITE_STATIC);
-    int step = sqlite3_step(st);
+    cc_event_rec rec;
     *found = 0;
-    if (step == SQLITE_DONE)
-        return 0;
-    if (step != SQLITE_ROW)
-        return db_fail(s, err, "reading an event");
-    if ((size_t)sqlite3_column_bytes(st, 3) != want)
-        return cc_error_set(err, CC_EIO, "%s: event '%s' has a damaged probability blob",
-                            cc_store_path(s), e->id);
-    e->ts = sqlite3_column_int64(st, 0);
-    e->label = sqlite3_column_type(st, 2) == SQLITE_NULL ? -1 : sqlite3_column_int(st, 2);
-    e->label_at = sqlite3_column_type(st, 4) == SQLITE_NULL ? -1 : sqlite3_column_int64(st, 4);
-    if (sqlite3_column_type(st, 1) != SQLITE_NULL &&
-        !(e->segment = strdup((const char *)sqlite3_column_text(st, 1))))
-        return cc_error_set(err, CC_ENOMEM, "out of memory");
     if (!(e->probs = malloc(want)))
         return cc_error_set(err, CC_ENOMEM, "out of memory");
-    memcpy(e->probs, sqlite3_column_blob(st, 3), want);
+    int rc = cc_store_event_read(s, m, e->id, found, &rec, e->probs, err);
+    if (rc || !*found)
+        return rc;
+    e->ts = rec.ts;
+    e->label = rec.label;
+    e->label_at = rec.label_at;
+    e->segment = rec.segment;
+    *found = 0;
     if (e->label >= m->k || cc_event_view_compute(&e->view, e->probs, m->m, m->k, e->label))
         return cc_error_set(err, CC_EIO, "%s: event '%s' has a label out of range",
                             cc_store_path(s), e->id);
@@ -250,7 +227,6 @@ static int fetch(sqlite3_stmt *st, cc_store *s, const cc_model *m, cc_review_eve
 int cc_review_event_get(cc_store *s, const cc_model *m, const char *id, cc_review_event **out,
                         cc_error *err)
 {
-    sqlite3_stmt *st = NULL;
     cc_review_event *e = calloc(1, sizeof *e);
     int found = 0, rc;
     *out = NULL;
@@ -258,12 +234,9 @@ int cc_review_event_get(cc_store *s, const cc_model *m, const char *id, cc_revie
         free(e);
         return cc_error_set(err, CC_ENOMEM, "out of memory");
     }
-    if (sqlite3_prepare_v2(cc_store_db(s), fetch_sql, -1, &st, NULL) != SQLITE_OK)
-        rc = db_fail(s, err, "preparing the event query");
-    else if (!(rc = fetch(st, s, m, e, &found, err)) && !found)
+    if (!(rc = fetch(s, m, e, &found, err)) && !found)
         rc = cc_error_set(err, CC_ENOTFOUND, "%s: model '%s' has no event with id '%s'",
                           cc_store_path(s), m->name, id);
-    sqlite3_finalize(st);
     if (rc) {
         cc_review_event_free(e);
         return rc;
@@ -289,13 +262,12 @@ int cc_review_each(cc_review *rv, cc_review_where w, cc_review_event_fn fn, void
         int found;
         memset(&e, 0, sizeof e);
         e.id = rv->kept[w].v[i].id;
-        rc = fetch(rv->fetch, rv->store, rv->model, &e, &found, err);
+        rc = fetch(rv->store, rv->model, &e, &found, err);
         if (!rc && found && fn(payload, ++rank, &e))
             rc = cc_error_set(err, CC_EIO, "review: the event writer stopped");
         e.id = NULL; /* still the candidate's */
         event_clear(&e);
     }
-    sqlite3_reset(rv->fetch);
     return rc;
 }
 
@@ -363,89 +335,75 @@ static int is_pair(const cc_event_view *v, int a, int b)
     return (v->ens == a && v->second == b) || (v->ens == b && v->second == a);
 }
 
-/* The scan: every event of the range through events_by_time. */
-static const char scan_sql[] =
-    "SELECT id, ts, label, probs FROM events "
-    "WHERE model_id = ?1 AND day BETWEEN ?2 AND ?3 AND ts BETWEEN ?4 AND ?5 "
-    "AND (?6 IS NULL OR segment = ?6)";
-
 typedef struct scan_state {
     heap plain[CC_REVIEW_KINDS];   /* lists that do not depend on the best member */
     heap *helped, *hurt;           /* one heap per member, the best chosen at the end */
 } scan_state;
 
+typedef struct scan_ctx {
+    cc_review *rv;
+    cc_store *s;
+    const cc_model *m;
+    scan_state *st;
+    cc_error *err;
+    int rc;
+} scan_ctx;
+
+/* One event of the range: its counts, and an offer to each list's heap. */
+static int scan_one(void *ctx, const char *id, int64_t ts, int label, const float *probs)
+{
+    scan_ctx *c = ctx;
+    cc_review *rv = c->rv;
+    const cc_review_opts *o = &rv->opts;
+    const cc_model *m = c->m;
+    scan_state *st = c->st;
+    cc_event_view v;
+    if (cc_event_view_compute(&v, probs, m->m, m->k, label)) {
+        c->rc = cc_error_set(c->err, CC_EIO, "%s: event '%s' has a label out of range",
+                             cc_store_path(c->s), id);
+        return 1;
+    }
+    count_event(rv, &v);
+    if (wants(o, CC_REVIEW_TOP_MI))
+        cc_event_view_uncertainty(&v, probs);
+    double dis = isnan(v.disagreement) ? 0.0 : v.disagreement;
+    int oom = 0;
+    if (label >= 0 && !v.ens_right)
+        oom |= heap_offer(&st->plain[CC_REVIEW_WRONG], v.margin, 0, ts, id);
+    if (wants(o, CC_REVIEW_TOP_MI))
+        oom |= heap_offer(&st->plain[CC_REVIEW_TOP_MI], v.mutual_information, 0, ts, id);
+    oom |= heap_offer(&st->plain[CC_REVIEW_TOP_DISAGREEMENT], dis, -v.margin, ts, id);
+    if (wants(o, CC_REVIEW_PAIR) && is_pair(&v, o->pair_a, o->pair_b)) {
+        rv->sum.pair_events++;
+        oom |= heap_offer(&st->plain[CC_REVIEW_PAIR], -v.margin, 0, ts, id);
+    }
+    if (label < 0)
+        oom |= heap_offer(&st->plain[CC_REVIEW_LOW_MARGIN], -v.margin, 0, ts, id);
+    for (int i = 0; label >= 0 && (st->helped || st->hurt) && i < m->m; i++) {
+        if (st->helped && v.ens_right && !v.member_right[i])
+            oom |= heap_offer(&st->helped[i], v.margin, 0, ts, id);
+        if (st->hurt && !v.ens_right && v.member_right[i])
+            oom |= heap_offer(&st->hurt[i], v.margin, 0, ts, id);
+    }
+    if (oom) {
+        c->rc = cc_error_set(c->err, CC_ENOMEM, "out of memory");
+        return 1;
+    }
+    return 0;
+}
+
+/* The scan: every event of the range, once, in the store's time order. */
 static int scan(cc_review *rv, cc_store *s, const cc_model *m, scan_state *st, cc_error *err)
 {
     const cc_review_opts *o = &rv->opts;
-    sqlite3_stmt *q = NULL;
-    size_t want = (size_t)m->m * (size_t)m->k * sizeof(float);
-    float *probs = malloc(want);
-    int rc = 0, step;
-    if (!probs)
-        return cc_error_set(err, CC_ENOMEM, "out of memory");
-    if (sqlite3_prepare_v2(cc_store_db(s), scan_sql, -1, &q, NULL) != SQLITE_OK) {
-        free(probs);
-        return db_fail(s, err, "preparing the review query");
-    }
-    sqlite3_bind_int64(q, 1, m->id);
-    sqlite3_bind_int64(q, 2, cc_day_of_unix(o->from));
-    sqlite3_bind_int64(q, 3, cc_day_of_unix(o->to));
-    sqlite3_bind_int64(q, 4, o->from);
-    sqlite3_bind_int64(q, 5, o->to);
-    if (o->segment)
-        sqlite3_bind_text(q, 6, o->segment, -1, SQLITE_STATIC);
-    const int need_mi = wants(o, CC_REVIEW_TOP_MI);
-    cc_event_view v;
-    while (!rc && (step = sqlite3_step(q)) == SQLITE_ROW) {
-        const char *id = (const char *)sqlite3_column_text(q, 0);
-        int64_t ts = sqlite3_column_int64(q, 1);
-        int label = sqlite3_column_type(q, 2) == SQLITE_NULL ? -1 : sqlite3_column_int(q, 2);
-        if ((size_t)sqlite3_column_bytes(q, 3) != want) {
-            rc = cc_error_set(err, CC_EIO, "%s: event '%s' has a damaged probability blob",
-                              cc_store_path(s), id);
-            break;
-        }
-        memcpy(probs, sqlite3_column_blob(q, 3), want);
-        if (cc_event_view_compute(&v, probs, m->m, m->k, label)) {
-            rc = cc_error_set(err, CC_EIO, "%s: event '%s' has a label out of range",
-                              cc_store_path(s), id);
-            break;
-        }
-        count_event(rv, &v);
-        if (need_mi)
-            cc_event_view_uncertainty(&v, probs);
-        double dis = isnan(v.disagreement) ? 0.0 : v.disagreement;
-        int oom = 0;
-        if (label >= 0 && !v.ens_right)
-            oom |= heap_offer(&st->plain[CC_REVIEW_WRONG], v.margin, 0, ts, id);
-        if (need_mi)
-            oom |= heap_offer(&st->plain[CC_REVIEW_TOP_MI], v.mutual_information, 0, ts, id);
-        oom |= heap_offer(&st->plain[CC_REVIEW_TOP_DISAGREEMENT], dis, -v.margin, ts, id);
-        if (wants(o, CC_REVIEW_PAIR) && is_pair(&v, o->pair_a, o->pair_b)) {
-            rv->sum.pair_events++;
-            oom |= heap_offer(&st->plain[CC_REVIEW_PAIR], -v.margin, 0, ts, id);
-        }
-        if (label < 0)
-            oom |= heap_offer(&st->plain[CC_REVIEW_LOW_MARGIN], -v.margin, 0, ts, id);
-        for (int i = 0; label >= 0 && (st->helped || st->hurt) && i < m->m; i++) {
-            if (st->helped && v.ens_right && !v.member_right[i])
-                oom |= heap_offer(&st->helped[i], v.margin, 0, ts, id);
-            if (st->hurt && !v.ens_right && v.member_right[i])
-                oom |= heap_offer(&st->hurt[i], v.margin, 0, ts, id);
-        }
-        if (oom)
-            rc = cc_error_set(err, CC_ENOMEM, "out of memory");
-    }
-    if (!rc && step != SQLITE_DONE)
-        rc = db_fail(s, err, "reading events");
-    sqlite3_finalize(q);
-    free(probs);
-    return rc;
+    scan_ctx c = {rv, s, m, st, err, 0};
+    int rc = cc_store_events_scan(s, m, o->from, o->to, o->segment, scan_one, &c, err);
+    return c.rc ? c.rc : rc;
 }
 
 /* Turns a heap's candidates into the list's events, best first. */
-static int materialize(cc_review *rv, cc_review_where w, heap *h, sqlite3_stmt *fq,
-                       cc_store *s, const cc_model *m, cc_error *err)
+static int materialize(cc_review *rv, cc_review_where w, heap *h, cc_store *s,
+                       const cc_model *m, cc_error *err)
 {
     list *l = &rv->lists[w];
     qsort(h->v, (size_t)h->n, sizeof *h->v, cand_cmp);
@@ -456,7 +414,7 @@ static int materialize(cc_review *rv, cc_review_where w, heap *h, sqlite3_stmt *
         int found, rc;
         e->id = h->v[i].id;
         h->v[i].id = NULL;
-        if ((rc = fetch(fq, s, m, e, &found, err))) {
+        if ((rc = fetch(s, m, e, &found, err))) {
             l->n++;
             return rc;
         }
@@ -544,17 +502,14 @@ int cc_review_run(cc_review **out, cc_store *s, const cc_model *m, const cc_revi
     if (rc)
         rc = cc_error_set(err, CC_ENOMEM, "out of memory");
 
-    sqlite3 *db = cc_store_db(s);
-    int own_txn = sqlite3_get_autocommit(db);
-    sqlite3_stmt *fq = NULL;
-    if (!rc && own_txn && sqlite3_exec(db, "BEGIN", NULL, NULL, NULL) != SQLITE_OK)
-        rc = db_fail(s, err, "starting a read transaction");
+    /* the scan and the reads by id see one snapshot */
+    int in_snapshot = 0;
+    if (!rc && !(rc = cc_store_snapshot_begin(s, err)))
+        in_snapshot = 1;
     if (!rc)
         rc = scan(rv, s, m, &st, err);
     if (!rc && finish_summary(rv))
         rc = cc_error_set(err, CC_ENOMEM, "out of memory");
-    if (!rc && sqlite3_prepare_v2(db, fetch_sql, -1, &fq, NULL) != SQLITE_OK)
-        rc = db_fail(s, err, "preparing the event query");
     const cc_review_summary *sum = &rv->sum;
     rv->lists[CC_REVIEW_WRONG].matched = sum->wrong;
     rv->lists[CC_REVIEW_HELPED].matched = sum->helped;
@@ -575,18 +530,15 @@ int cc_review_run(cc_review **out, cc_store *s, const cc_model *m, const cc_revi
             rv->kept[w] = *h;
             memset(h, 0, sizeof *h);
         } else if (h && h->cap) {
-            rc = materialize(rv, (cc_review_where)w, h, fq, s, m, err);
+            rc = materialize(rv, (cc_review_where)w, h, s, m, err);
         }
     }
     if (!rc && o->deferred) {
-        rv->fetch = fq;
         rv->store = s;
         rv->model = m;
-        rv->own_txn = own_txn;
-    } else {
-        sqlite3_finalize(fq);
-        if (own_txn && !sqlite3_get_autocommit(db))
-            sqlite3_exec(db, rc ? "ROLLBACK" : "COMMIT", NULL, NULL, NULL);
+        rv->in_snapshot = in_snapshot;
+    } else if (in_snapshot) {
+        cc_store_snapshot_end(s);
     }
 
     for (int w = 0; w < CC_REVIEW_KINDS; w++)

@@ -22,8 +22,11 @@ static void sq_work_abort(cc_store *store);
 static void sq_snapshot_end(cc_store *store);
 
 /* 1: the first layout; 2: pruned_days; 3: events in arrival order (a rowid
- * table) with a unique index on (model_id, id); 4: what changed since the
- * last publish to a cluster (upgrade_publish_marks). */
+ * table) with a unique index on (model_id, id); 4, in steps called from
+ * bring_up_to_date: the alert tables (rule_state, notifications, outbox) and
+ * follow_offsets join the versioned schema (earlier, alerts/ and follow
+ * created them on their own; upgrade_v4_alert_tables), and what changed
+ * since the last publish to a cluster (upgrade_publish_marks). */
 #define SCHEMA_VERSION 4
 
 
@@ -91,7 +94,54 @@ static const char schema_sql[] =
     "CREATE TABLE IF NOT EXISTS pruned_days("
     "  model_id INTEGER NOT NULL, day INTEGER NOT NULL, version INTEGER NOT NULL,"
     "  events INTEGER NOT NULL, counters BLOB NOT NULL, pruned_at INTEGER NOT NULL,"
-    "  PRIMARY KEY(model_id, day)) WITHOUT ROWID;";
+    "  PRIMARY KEY(model_id, day)) WITHOUT ROWID;"
+    /* version 4: each (model, rule)'s alert state, one row per notification
+     * (with its JSON body), one outbox row per notification and receiver */
+    "CREATE TABLE IF NOT EXISTS rule_state("
+    "  model TEXT NOT NULL, rule TEXT NOT NULL, state TEXT NOT NULL,"
+    "  breach_run INTEGER NOT NULL, clear_run INTEGER NOT NULL,"
+    "  last_day INTEGER NOT NULL, since_day INTEGER NOT NULL,"
+    "  fired_day INTEGER, last_notified_day INTEGER,"
+    "  metric TEXT NOT NULL, urgency TEXT NOT NULL, last_value REAL, last_bound REAL,"
+    "  updated_at INTEGER NOT NULL,"
+    "  PRIMARY KEY(model, rule)) WITHOUT ROWID;"
+    "CREATE TABLE IF NOT EXISTS notifications("
+    "  notification_id INTEGER PRIMARY KEY, notice_id TEXT NOT NULL UNIQUE,"
+    "  model TEXT NOT NULL, rule TEXT NOT NULL, kind TEXT NOT NULL, urgency TEXT NOT NULL,"
+    "  day INTEGER NOT NULL, window_day INTEGER NOT NULL, value REAL, bound REAL,"
+    "  body TEXT NOT NULL, created_at INTEGER NOT NULL);"
+    "CREATE TABLE IF NOT EXISTS outbox("
+    "  outbox_id INTEGER PRIMARY KEY,"
+    "  notification_id INTEGER NOT NULL REFERENCES notifications(notification_id),"
+    "  receiver TEXT NOT NULL, secret_env TEXT,"
+    "  connect_timeout_ms INTEGER NOT NULL, timeout_ms INTEGER NOT NULL,"
+    "  max_attempts INTEGER NOT NULL, backoff_s INTEGER NOT NULL, max_backoff_s INTEGER NOT NULL,"
+    "  status TEXT NOT NULL CHECK (status IN ('pending', 'sent', 'dead')),"
+    "  attempts INTEGER NOT NULL DEFAULT 0, next_at INTEGER NOT NULL,"
+    "  last_status INTEGER, last_error TEXT, sent_at INTEGER,"
+    "  UNIQUE(notification_id, receiver));"
+    "CREATE INDEX IF NOT EXISTS outbox_due ON outbox(status, next_at);"
+    /* version 4: where follow mode read each file up to */
+    "CREATE TABLE IF NOT EXISTS follow_offsets(path TEXT PRIMARY KEY,"
+    "  dev INTEGER NOT NULL, ino INTEGER NOT NULL, offset INTEGER NOT NULL,"
+    "  line INTEGER NOT NULL, updated_at INTEGER NOT NULL);";
+
+/* Alert tables written before the vocabulary change (states ok/pending/
+ * firing/resolved, urgency called severity with critical/warning/info,
+ * notification kinds fired/resolved, dedupe_key): renamed and mapped in
+ * place. */
+static const char alert_vocabulary_sql[] =
+    "ALTER TABLE rule_state RENAME COLUMN severity TO urgency;"
+    "UPDATE rule_state SET state = CASE state WHEN 'ok' THEN 'quiet' WHEN 'pending' THEN"
+    "  'building' WHEN 'firing' THEN 'raised' WHEN 'resolved' THEN 'cleared' ELSE state END,"
+    "  urgency = CASE urgency WHEN 'critical' THEN 'high' WHEN 'warning' THEN 'medium'"
+    "  WHEN 'info' THEN 'low' ELSE urgency END;"
+    "ALTER TABLE notifications RENAME COLUMN severity TO urgency;"
+    "ALTER TABLE notifications RENAME COLUMN dedupe_key TO notice_id;"
+    "UPDATE notifications SET kind = CASE kind WHEN 'fired' THEN 'raised' WHEN 'resolved'"
+    "  THEN 'cleared' ELSE kind END,"
+    "  urgency = CASE urgency WHEN 'critical' THEN 'high' WHEN 'warning' THEN 'medium'"
+    "  WHEN 'info' THEN 'low' ELSE urgency END;";
 
 /* Version 4, publishing (cluster/publish.c): triggers note every summary
  * written and every label changed; INSERT OR REPLACE gives a re-noted row a
@@ -292,6 +342,26 @@ static int check_version(sq_store *s, int64_t version, cc_error *err)
     return 0;
 }
 
+/* Step 3 -> 4, inside the upgrade's transaction. A version 3 file may hold
+ * alert tables and follow_offsets made outside the schema by earlier
+ * releases: they are kept with their rows (schema_sql then creates only
+ * what is missing), and alert tables of the older vocabulary are converted
+ * in place. */
+static int upgrade_v4_alert_tables(sq_store *s, cc_error *err)
+{
+    sqlite3_stmt *st = NULL;
+    int old = 0;
+    if (sqlite3_prepare_v2(s->db, "SELECT 1 FROM pragma_table_info('rule_state') "
+                                  "WHERE name = 'severity'",
+                           -1, &st, NULL) != SQLITE_OK)
+        return db_error(s, err, "reading the alert tables");
+    old = sqlite3_step(st) == SQLITE_ROW;
+    sqlite3_finalize(st);
+    if (!old)
+        return 0;
+    return exec(s, alert_vocabulary_sql, err);
+}
+
 /* Creates or upgrades the schema in one write transaction, unless it is
  * current already (then nothing is written). */
 static int bring_up_to_date(sq_store *s, cc_error *err)
@@ -309,6 +379,7 @@ static int bring_up_to_date(sq_store *s, cc_error *err)
     /* another writer may have done it meanwhile */
     if ((rc = read_version(s, &version, err)) || (rc = check_version(s, version, err)) ||
         (version >= 1 && version < 3 && (rc = exec(s, events_v3_sql, err))) ||
+        (version >= 1 && version < 4 && (rc = upgrade_v4_alert_tables(s, err))) ||
         (rc = exec(s, schema_sql, err)) || (rc = upgrade_publish_marks(s, version, err))) {
         sq_work_abort(&s->base);
         return rc;
@@ -1336,4 +1407,17 @@ const cc_store_backend cc_sq_backend = {
     .class_faults = sq_class_faults,
     .integrity = sq_integrity,
     .backup = sq_backup,
+    .events_scan = cc_sq_events_scan,
+    .event_read = cc_sq_event_read,
+    .labeled_day_last = cc_sq_labeled_day_last,
+    .rule_states = cc_sq_rule_states,
+    .rule_state_put = cc_sq_rule_state_put,
+    .notice_add = cc_sq_notice_add,
+    .notices = cc_sq_notices,
+    .outbox_claim = cc_sq_outbox_claim,
+    .outbox_mark = cc_sq_outbox_mark,
+    .outbox_count = cc_sq_outbox_count,
+    .outbox_requeue_dead = cc_sq_outbox_requeue_dead,
+    .follow_offset_get = cc_sq_follow_offset_get,
+    .follow_offset_set = cc_sq_follow_offset_set,
 };

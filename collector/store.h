@@ -3,9 +3,9 @@
  * talks to a database: each call goes to the store's backend
  * (store_backend.h; SQLite in store.c).
  *
- * Every write happens inside a transaction the caller opens with
- * cc_store_begin and ends with cc_store_commit/cc_store_rollback, so event
- * rows and the summaries derived from them always change together. */
+ * Every write happens inside a unit of work the caller opens with
+ * cc_store_work_begin and ends with cc_store_work_commit/cc_store_work_abort,
+ * so event rows and the summaries derived from them always change together. */
 #ifndef CC_COLLECTOR_STORE_H
 #define CC_COLLECTOR_STORE_H
 
@@ -37,7 +37,7 @@ enum {
 /* Concurrency: readers open with CC_STORE_READONLY; they write nothing and
  * read one consistent snapshot (a read transaction from open to close), so
  * writers never block them. Writers take the write lock per transaction
- * (cc_store_begin); one that finds it taken waits up to wait_ms (< 0: no
+ * (cc_store_work_begin); one that finds it taken waits up to wait_ms (< 0: no
  * bound), calling on_wait once per store when it first has to wait. A
  * writer that commits while another is waiting lets that one in before it
  * can begin again. */

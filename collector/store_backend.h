@@ -138,8 +138,10 @@ typedef struct cc_store_backend {
 } cc_store_backend;
 
 /* The part of every store that the dispatch reads. A backend's own struct
- * has it as its first member and hands out a pointer to it; its ops cast
- * back. path names the store in messages (owned by the backend). */
+ * has it as its first member; the backend's open function allocates that
+ * struct, sets be and path, and hands out a pointer to this member (as
+ * cc_store_open_with does for SQLite); its ops cast back. path names the
+ * store in messages (owned by the backend, valid until close). */
 struct cc_store {
     const cc_store_backend *be;
     const char *path;

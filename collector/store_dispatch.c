@@ -54,21 +54,10 @@ void cc_store_snapshot_end(cc_store *s)
         s->be->snapshot_end(s);
 }
 
-int cc_store_begin(cc_store *s, cc_error *err)
-{
-    return CALL(s, work_begin, "begin a write", 1, err);
-}
-
-int cc_store_commit(cc_store *s, cc_error *err)
-{
-    return CALL(s, work_commit, "commit a write", 1, err);
-}
-
-void cc_store_rollback(cc_store *s)
-{
-    if (HAS(s, work_abort))
-        s->be->work_abort(s);
-}
+/* The earlier names of the unit of work. */
+int cc_store_begin(cc_store *s, cc_error *err) { return cc_store_work_begin(s, err); }
+int cc_store_commit(cc_store *s, cc_error *err) { return cc_store_work_commit(s, err); }
+void cc_store_rollback(cc_store *s) { cc_store_work_abort(s); }
 
 int cc_store_model_get(cc_store *s, const char *name, cc_model **out, cc_error *err)
 {
@@ -220,4 +209,106 @@ int cc_store_integrity(cc_store *s, int (*fn)(void *ctx, const char *line), void
 int cc_store_backup(cc_store *s, const char *out_path, cc_error *err)
 {
     return CALL(s, backup, "make a backup", 0, out_path, err);
+}
+
+int cc_store_work_begin(cc_store *s, cc_error *err)
+{
+    return CALL(s, work_begin, "begin a unit of work", 1, err);
+}
+
+int cc_store_work_commit(cc_store *s, cc_error *err)
+{
+    return CALL(s, work_commit, "commit a unit of work", 1, err);
+}
+
+void cc_store_work_abort(cc_store *s)
+{
+    if (HAS(s, work_abort))
+        s->be->work_abort(s);
+}
+
+int cc_store_events_scan(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+                         const char *segment, cc_event_scan_fn fn, void *ctx, cc_error *err)
+{
+    return CALL(s, events_scan, "scan events", 0, m, from, to, segment, fn, ctx, err);
+}
+
+int cc_store_event_read(cc_store *s, const cc_model *m, const char *id, int *found,
+                        cc_event_rec *out, float *probs, cc_error *err)
+{
+    *found = 0;
+    out->segment = NULL;
+    return CALL(s, event_read, "read events", 0, m, id, found, out, probs, err);
+}
+
+int cc_store_labeled_day_last(cc_store *s, const cc_model *m, int64_t day, int *found,
+                              int64_t *out, cc_error *err)
+{
+    *found = 0;
+    return CALL(s, labeled_day_last, "find labelled days", 0, m, day, found, out, err);
+}
+
+int cc_store_rule_states(cc_store *s, const char *model, const char *rule, const char *state,
+                         cc_rule_state_fn fn, void *ctx, cc_error *err)
+{
+    return CALL(s, rule_states, "read rule states", 0, model, rule, state, fn, ctx, err);
+}
+
+int cc_store_rule_state_put(cc_store *s, const cc_rule_state_rec *r, cc_error *err)
+{
+    return CALL(s, rule_state_put, "write rule states", 1, r, err);
+}
+
+int cc_store_notice_add(cc_store *s, const cc_notice_rec *n, const cc_outbox_target *targets,
+                        int n_targets, int *added, cc_error *err)
+{
+    *added = 0;
+    return CALL(s, notice_add, "record notifications", 1, n, targets, n_targets, added, err);
+}
+
+int cc_store_notices(cc_store *s, const char *model, const char *delivery, int limit,
+                     cc_notice_row_fn fn, void *ctx, cc_error *err)
+{
+    return CALL(s, notices, "read notifications", 0, model, delivery, limit, fn, ctx, err);
+}
+
+int cc_store_outbox_claim(cc_store *s, int64_t after, int64_t now, int ignore_due,
+                          int lease_margin_s, cc_outbox_skip_fn skip, void *ctx,
+                          cc_outbox_row *out, int *found, int *skipped, cc_error *err)
+{
+    *found = 0;
+    return CALL(s, outbox_claim, "claim outbox rows", 1, after, now, ignore_due,
+                lease_margin_s, skip, ctx, out, found, skipped, err);
+}
+
+int cc_store_outbox_mark(cc_store *s, int64_t id, const char *status, long http_status,
+                         const char *error, int64_t next_at, int64_t sent_at, cc_error *err)
+{
+    return CALL(s, outbox_mark, "update the outbox", 1, id, status, http_status, error,
+                next_at, sent_at, err);
+}
+
+int cc_store_outbox_count(cc_store *s, const char *status, int64_t *out, cc_error *err)
+{
+    *out = 0;
+    return CALL(s, outbox_count, "read the outbox", 0, status, out, err);
+}
+
+int cc_store_outbox_requeue_dead(cc_store *s, int64_t now, int *n, cc_error *err)
+{
+    *n = 0;
+    return CALL(s, outbox_requeue_dead, "update the outbox", 1, now, n, err);
+}
+
+int cc_store_follow_offset_get(cc_store *s, const char *path, int *found,
+                               cc_follow_offset *out, cc_error *err)
+{
+    *found = 0;
+    return CALL(s, follow_offset_get, "read follow offsets", 0, path, found, out, err);
+}
+
+int cc_store_follow_offset_set(cc_store *s, const char *path, const cc_follow_offset *o,
+                               int64_t now, cc_error *err)
+{
+    return CALL(s, follow_offset_set, "write follow offsets", 1, path, o, now, err);
 }

@@ -2,8 +2,10 @@
 # old_alert_tables.sh — a database whose alert tables were written before the
 # vocabulary change (states ok/pending/firing/resolved, "severity" with
 # critical/warning/info, "dedupe_key", kinds fired/resolved) is upgraded in
-# place by the first writer: a rule that was firing stays raised (no second
-# notification for the same episode) and the history reads in the new words.
+# place by the first writer (the store's upgrade of a version 3 file to
+# version 4): a rule that was firing stays raised (no second notification
+# for the same episode), no row is lost, and the history reads in the new
+# words.
 # Usage: old_alert_tables.sh CONCORD TESTDIR
 set -euo pipefail
 C=$1
@@ -15,8 +17,15 @@ fail() { echo "FAIL: $*" >&2; fails=$((fails + 1)); }
 
 python3 "$SRC/gen_days.py" "$T/e.jsonl" --start 2026-03-01 --pattern split,split --prefix s
 "$C" ingest --db "$T/a.db" --model m "$T/e.jsonl" 2> /dev/null
-# the tables and rows as the earlier release wrote them
+# the tables and rows as the earlier release wrote them: a version 3 file
+# (before the alert tables joined the versioned schema), alert tables made
+# outside the schema in the old vocabulary
 sqlite3 "$T/a.db" <<'SQL'
+DROP TABLE outbox;
+DROP TABLE notifications;
+DROP TABLE rule_state;
+DROP TABLE follow_offsets;
+UPDATE meta SET value = '3' WHERE key = 'schema_version';
 CREATE TABLE rule_state(
   model TEXT NOT NULL, rule TEXT NOT NULL, state TEXT NOT NULL,
   breach_run INTEGER NOT NULL, clear_run INTEGER NOT NULL,
@@ -65,6 +74,10 @@ PY
 [ "$(sqlite3 "$T/a.db" "SELECT notice_id || ' ' || kind || ' ' || urgency FROM notifications WHERE notification_id = 1")" = "m/split/fired/2026-03-01 raised high" ] ||
   fail "notifications after the upgrade: $(sqlite3 "$T/a.db" "SELECT * FROM notifications")"
 [ "$(sqlite3 "$T/a.db" "SELECT count(*) FROM notifications")" = 1 ] || fail "a second notification was queued for the same episode"
+[ "$(sqlite3 "$T/a.db" "SELECT value FROM meta WHERE key = 'schema_version'")" = 4 ] ||
+  fail "schema version after the upgrade: $(sqlite3 "$T/a.db" "SELECT value FROM meta WHERE key = 'schema_version'")"
+[ "$(sqlite3 "$T/a.db" "SELECT count(*) FROM sqlite_master WHERE name IN ('follow_offsets', 'outbox_due')")" = 2 ] ||
+  fail "the upgrade did not create follow_offsets and the outbox index"
 "$C" alerts --db "$T/a.db" --format json > "$T/alerts.json" || fail "alerts after the upgrade"
 grep -q '"raised"' "$T/alerts.json" || fail "alerts does not show the rule raised: $(cat "$T/alerts.json")"
 [ $fails -eq 0 ] || { echo "old_alert_tables: $fails failure(s)" >&2; exit 1; }

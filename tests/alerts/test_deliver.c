@@ -5,12 +5,12 @@
  * duplicate notice id queues nothing. */
 #include <math.h>
 #include <sqlite3.h>
-#include "store_sqlite.h" /* temporary: step 2 moves this SQL into the store */
 #include <stdlib.h>
 #include <unistd.h>
 
 #include "deliver.h"
 #include "state.h"
+#include "store_sqlite.h" /* cc_store_db: inspects the SQLite file directly */
 #include "tcheck.h"
 
 typedef struct fake {

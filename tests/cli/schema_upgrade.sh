@@ -1,8 +1,9 @@
 #!/usr/bin/env bash
 # schema_upgrade.sh — a database of schema version 2 (events WITHOUT ROWID,
 # keyed by (model_id, id)) is read as it is by the reading commands and
-# converted by the first writing command: afterwards it is version 4 (a rowid
-# table with the unique index events_by_id), verify --deep passes, the report
+# converted by the first writing command: afterwards it has the events table
+# of version 3 (a rowid table with the unique index events_by_id; the file is
+# then at the current version, 4), verify --deep passes, the report
 # equals the one read before the conversion, duplicates are still skipped,
 # labels waiting for events are applied, and the result equals the same work
 # done on a database that was version 3 from the start.
@@ -64,7 +65,7 @@ sum_before=$(sha256sum < "$OLD")
 # the first writer converts: the same file again, every line a duplicate
 "$C" ingest --db "$OLD" --model g "$T/first.jsonl" 2> "$T/err" || fail "ingest into version 2: $(cat "$T/err")"
 grep -q " 0 events stored, $rows duplicates skipped" "$T/err" || fail "duplicates after the conversion: $(cat "$T/err")"
-[ "$(q "$OLD" "SELECT value FROM meta WHERE key = 'schema_version'")" = 4 ] || fail "schema version not 4"
+[ "$(q "$OLD" "SELECT value FROM meta WHERE key = 'schema_version'")" = 4 ] || fail "schema version not 4 (the current one)"
 layout "$OLD" | grep -q 'WITHOUT ROWID' && fail "events is still WITHOUT ROWID"
 [ "$(q "$OLD" "SELECT count(*) FROM sqlite_master WHERE type = 'index' AND name IN ('events_by_id', 'events_by_time')")" = 2 ] ||
   fail "indexes after the conversion: $(q "$OLD" "SELECT group_concat(name) FROM sqlite_master WHERE type = 'index'")"

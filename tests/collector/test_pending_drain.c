@@ -5,7 +5,6 @@
  * read with SQLite's EXPLAIN QUERY PLAN while the drain runs, so the check
  * follows the statement store.c really uses). */
 #include <sqlite3.h>
-#include "store_sqlite.h" /* temporary: step 2 moves this SQL into the store */
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -13,6 +12,7 @@
 
 #include "check.h"
 #include "store.h"
+#include "store_sqlite.h" /* cc_store_db: inspects the SQLite file directly */
 
 typedef struct drained {
     sqlite3 *db;

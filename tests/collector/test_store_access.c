@@ -5,7 +5,6 @@
  * of the deleted rows; the backup is a complete, owner-only copy; the
  * class-index and integrity checks behind `verify`. */
 #include <sqlite3.h>
-#include "store_sqlite.h" /* temporary: step 2 moves this SQL into the store */
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -14,6 +13,7 @@
 
 #include "check.h"
 #include "store.h"
+#include "store_sqlite.h" /* cc_store_db: inspects the SQLite file directly */
 #include "summary.h"
 
 static int waits;

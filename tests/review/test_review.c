@@ -5,7 +5,6 @@
  * uses the (model, day, ts) index and the event lookup events_by_id. */
 #include <math.h>
 #include <sqlite3.h>
-#include "store_sqlite.h" /* temporary: step 2 moves this SQL into the store */
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -14,6 +13,7 @@
 #include "checks.h"
 #include "date.h"
 #include "review.h"
+#include "store_sqlite.h" /* cc_store_db: inspects the SQLite file directly */
 
 static const char *SRC = "hand-computed (comments in test_review.c)";
 
