@@ -1243,3 +1243,48 @@ int cc_store_backup(cc_store *s, const char *out_path, cc_error *err)
     free(tmp);
     return rc;
 }
+
+int cc_store_events_between(cc_store *s, const cc_model *m, int64_t ts_from, int64_t ts_to,
+                            cc_event_row_fn fn, void *payload, cc_error *err)
+{
+    sqlite3_stmt *st = NULL;
+    size_t want = (size_t)m->m * (size_t)m->k * sizeof(float);
+    float *probs = malloc(want);
+    int rc = 0, step;
+    if (!probs)
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    if (ts_to <= ts_from)
+        goto done;
+    /* the day bounds let SQLite walk events_by_time (model_id, day, ts) */
+    if (sqlite3_prepare_v2(s->db,
+                           "SELECT ts, label, label_at, probs FROM events "
+                           "WHERE model_id = ?1 AND day BETWEEN ?2 AND ?3 "
+                           "AND ts >= ?4 AND ts < ?5 ORDER BY day, ts",
+                           -1, &st, NULL) != SQLITE_OK) {
+        rc = db_error(s, err, "reading events by time");
+        goto done;
+    }
+    sqlite3_bind_int64(st, 1, m->id);
+    sqlite3_bind_int64(st, 2, cc_day_of_unix(ts_from));
+    sqlite3_bind_int64(st, 3, cc_day_of_unix(ts_to - 1));
+    sqlite3_bind_int64(st, 4, ts_from);
+    sqlite3_bind_int64(st, 5, ts_to);
+    while ((step = sqlite3_step(st)) == SQLITE_ROW) {
+        if ((size_t)sqlite3_column_bytes(st, 3) != want) {
+            rc = cc_error_set(err, CC_EIO, "%s: damaged probability blob", s->path);
+            break;
+        }
+        memcpy(probs, sqlite3_column_blob(st, 3), want);
+        int label = sqlite3_column_type(st, 1) == SQLITE_NULL ? -1 : sqlite3_column_int(st, 1);
+        int64_t label_at =
+            sqlite3_column_type(st, 2) == SQLITE_NULL ? -1 : sqlite3_column_int64(st, 2);
+        if ((rc = fn(payload, sqlite3_column_int64(st, 0), label, label_at, probs)) != 0)
+            break;
+    }
+    if (!rc && step != SQLITE_DONE)
+        rc = db_error(s, err, "reading events by time");
+done:
+    sqlite3_finalize(st);
+    free(probs);
+    return rc;
+}

@@ -13,17 +13,23 @@
 #include "store.h"
 #include "window.h"
 
-typedef enum cc_grouping { CC_BY_DAY, CC_BY_WEEK, CC_BY_ALL } cc_grouping;
+/* CC_BY_HOUR windows are UTC hours built from the stored event rows (never
+ * stored themselves); the others merge stored per-day summaries. */
+typedef enum cc_grouping { CC_BY_DAY, CC_BY_WEEK, CC_BY_ALL, CC_BY_HOUR } cc_grouping;
 
 typedef struct cc_report_opts {
     const char *model;
     int has_from, has_to;
     int64_t from, to;           /* UTC day numbers, inclusive */
     cc_grouping by;
+    int64_t ts_from, ts_to;     /* CC_BY_HOUR only: Unix seconds, [ts_from, ts_to); from
+                                   and to (days) are ignored then */
 } cc_report_opts;
 
 typedef struct cc_report_window {
     int64_t from, to;           /* days */
+    int64_t ts_from, ts_to;     /* CC_BY_HOUR: the hour, [ts_from, ts_to) in Unix
+                                   seconds; 0 and 0 for the other groupings */
     cc_summary *summary;        /* merged days; only while a cc_report_stream callback
                                    runs (NULL in a built report, see cc_report.range) */
     int64_t *counts;            /* (2 + k)k: predicted-class counts (metrics.class_counts
@@ -68,7 +74,14 @@ typedef int (*cc_report_window_fn)(void *payload, const cc_report *r, cc_report_
 
 /* The same windows as cc_report_build, handed to fn one at a time, so a
  * caller that renders each window and lets it go needs memory for one
- * window whatever the number of days. *out is the head, with no windows. */
+ * window whatever the number of days. *out is the head, with no windows.
+ *
+ * CC_BY_HOUR: the hours of [opts->ts_from, opts->ts_to) that hold events,
+ * each summed from its event rows with the per-event summary code
+ * (metrics/summary.c) into a fresh summary, one hour in memory at a time.
+ * A range that touches a pruned day is -CC_ENOTFOUND, the message naming
+ * the pruned days. z-scores compare each hour with the baseline days'
+ * spread; there is no EWMA. */
 int cc_report_stream(cc_report **out, cc_store *store, const cc_report_opts *opts,
                      cc_report_window_fn fn, void *payload, cc_error *err);
 

@@ -142,6 +142,76 @@ static int finish_window(cc_report *r, cc_report_window *w, cc_summary *sum, dou
     return rc;
 }
 
+/* The walk over one range's event rows for CC_BY_HOUR windows. */
+typedef struct hour_walk {
+    cc_report *r;
+    cc_report_window *w;
+    cc_summary *sum;            /* the current hour's, rebuilt from its rows */
+    double *level;
+    cc_report_window_fn fn;
+    void *payload;
+    cc_error *err;
+    int have;
+} hour_walk;
+
+static int64_t hour_of(int64_t ts)
+{
+    return ts >= 0 ? ts / 3600 : -((-ts + 3599) / 3600);
+}
+
+/* One row: closes the previous hour's window when the hour changes, then
+ * adds the row as cc_store_summary_from_rows does for a day. */
+static int hour_row(void *payload, int64_t ts, int label, int64_t label_at, const float *probs)
+{
+    hour_walk *h = payload;
+    int64_t start = hour_of(ts) * 3600;
+    int rc;
+    if (h->have && start != h->w->ts_from) {
+        if ((rc = finish_window(h->r, h->w, h->sum, h->level, h->fn, h->payload, h->err)))
+            return rc;
+        cc_report_window_free(h->w);
+        h->have = 0;
+    }
+    if (!h->have) {
+        h->have = 1;
+        cc_summary_clear(h->sum);
+        h->w->ts_from = start;
+        h->w->ts_to = start + 3600;
+        h->w->from = h->w->to = cc_day_of_unix(start);
+    }
+    cc_summary_add_unlabeled(h->sum, probs, 1);
+    if (label >= 0)
+        cc_summary_add_labeled(h->sum, probs, label, 1);
+    if (label_at >= 0)
+        cc_summary_add_label_delay(h->sum, label_at - ts, 1);
+    return 0;
+}
+
+/* A pruned day in [ts_from, ts_to) makes the hours incomplete: refused. */
+static int check_rows_kept(cc_store *store, const cc_model *m, int64_t ts_from, int64_t ts_to,
+                           cc_error *err)
+{
+    cc_pruned_range pr;
+    int rc = cc_store_pruned_range(store, m, cc_day_of_unix(ts_from), cc_day_of_unix(ts_to - 1),
+                                   &pr, err);
+    if (rc || pr.days == 0)
+        return rc;
+    char first[11], last[11];
+    cc_format_date(pr.first, first);
+    cc_format_date(pr.last, last);
+    if (pr.days == 1)
+        return cc_error_set(err, CC_ENOTFOUND,
+                            "model '%s': the day %s was pruned (its event rows are gone), so "
+                            "hours cannot be computed for it; choose a range without it or "
+                            "report that day with --by day",
+                            m->name, first);
+    return cc_error_set(err, CC_ENOTFOUND,
+                        "model '%s': %d days from %s to %s were pruned (their event rows are "
+                        "gone), so hours cannot be computed for them; choose a range without "
+                        "them or report those days with --by day",
+                        m->name, pr.days, first, last);
+}
+
 /* Fills r (zeroed) and hands each window to fn; see cc_report_stream. */
 static int stream(cc_report *r, cc_store *store, const cc_report_opts *opts,
                   cc_report_window_fn fn, void *payload, cc_error *err)
@@ -171,6 +241,21 @@ static int stream(cc_report *r, cc_store *store, const cc_report_opts *opts,
     for (int t = 0; t < cc_tracked_slots(m->m, m->k); t++)
         level[t] = r->stats ? r->stats[t].mean : NAN;
 
+    if (opts->by == CC_BY_HOUR) {
+        if ((rc = check_rows_kept(store, m, opts->ts_from, opts->ts_to, err)))
+            goto done;
+        if ((rc = fn(payload, r, NULL)) != 0) {
+            rc = rc > 0 ? cc_error_set(err, CC_ENOMEM, "out of memory") : rc;
+            goto done;
+        }
+        hour_walk h = {r, &w, win_sum, level, fn, payload, err, 0};
+        if ((rc = cc_store_events_between(store, m, opts->ts_from, opts->ts_to, hour_row, &h,
+                                          err)))
+            goto done;
+        if (h.have && (rc = finish_window(r, &w, win_sum, level, fn, payload, err)))
+            goto done;
+        goto done;
+    }
     int64_t from = opts->has_from ? opts->from : INT64_MIN / 4;
     int64_t to = opts->has_to ? opts->to : INT64_MAX / 4;
     if ((rc = cc_store_summary_days(store, m, from, to, &days, &n_days, err)))

@@ -7,6 +7,7 @@
 
 #include "date.h"
 #include "report.h"
+#include "review_render.h"
 #include "figures.h"
 #include "tracked.h"
 
@@ -206,6 +207,14 @@ static cJSON *window_json(const cc_report_window *w, int m, int k)
     cJSON *o = cJSON_CreateObject();
     cJSON_AddItemToObject(o, "from", date(w->from));
     cJSON_AddItemToObject(o, "to", date(w->to));
+    if (w->ts_to > w->ts_from) {
+        /* an hour window (report --by hour): its UTC hour, end excluded */
+        char t[21];
+        cc_review_format_time(w->ts_from, t);
+        cJSON_AddStringToObject(o, "start", t);
+        cc_review_format_time(w->ts_to, t);
+        cJSON_AddStringToObject(o, "end", t);
+    }
     cJSON_AddNumberToObject(o, "events", (double)x->events);
     cJSON_AddNumberToObject(o, "labeled", (double)x->labeled);
     cJSON_AddItemToObject(o, "class_counts", counts(x->class_counts, k));

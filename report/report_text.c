@@ -24,7 +24,10 @@ static void window_name(const cc_report_window *w, char out[24])
     char a[11], b[11];
     cc_format_date(w->from, a);
     cc_format_date(w->to, b);
-    if (w->from == w->to)
+    if (w->ts_to > w->ts_from) /* an hour: "2026-11-03 14:00-15:00" (UTC) */
+        snprintf(out, 24, "%s %02d:00-%02d:00", a, (int)((w->ts_from - w->from * 86400) / 3600),
+                 (int)((w->ts_from - w->from * 86400) / 3600 + 1));
+    else if (w->from == w->to)
         snprintf(out, 24, "%s", a);
     else if (memcmp(a, b, 4) == 0)
         snprintf(out, 24, "%s..%s", a, b + 5);
