@@ -14,11 +14,13 @@
 #include <unistd.h>
 
 #include "date.h"
+#include "store_slices.h"
 #include "summary_codec.h"
 
 /* 1: the first layout; 2: pruned_days; 3: events in arrival order (a rowid
- * table) with a unique index on (model_id, id). */
-#define SCHEMA_VERSION 3
+ * table) with a unique index on (model_id, id); 4: per-segment summaries
+ * (slices, store_slices.h). */
+#define SCHEMA_VERSION 4
 
 enum {
     ST_EVENT_INSERT,
@@ -109,6 +111,23 @@ static const char schema_sql[] =
     "  model_id INTEGER NOT NULL, day INTEGER NOT NULL, version INTEGER NOT NULL,"
     "  events INTEGER NOT NULL, counters BLOB NOT NULL, pruned_at INTEGER NOT NULL,"
     "  PRIMARY KEY(model_id, day)) WITHOUT ROWID;";
+
+/* Version 4: slices (store_slices.h). A slice's summary rows sit beside the
+ * model's (model, day) rows, which stay as they were and equal their sum. */
+static const char slices_schema_sql[] =
+    "CREATE TABLE IF NOT EXISTS slices("
+    "  slice_id INTEGER PRIMARY KEY, model_id INTEGER NOT NULL, kind INTEGER NOT NULL,"
+    "  segment TEXT NOT NULL, created_at INTEGER NOT NULL, UNIQUE(model_id, kind, segment));"
+    "CREATE TABLE IF NOT EXISTS slice_limits("
+    "  model_id INTEGER PRIMARY KEY, max_slices INTEGER NOT NULL);"
+    "CREATE TABLE IF NOT EXISTS slice_summaries("
+    "  model_id INTEGER NOT NULL, day INTEGER NOT NULL, slice_id INTEGER NOT NULL,"
+    "  version INTEGER NOT NULL, events INTEGER NOT NULL, labeled INTEGER NOT NULL,"
+    "  counters BLOB NOT NULL, PRIMARY KEY(model_id, day, slice_id)) WITHOUT ROWID;"
+    "CREATE TABLE IF NOT EXISTS slice_pruned("
+    "  model_id INTEGER NOT NULL, day INTEGER NOT NULL, slice_id INTEGER NOT NULL,"
+    "  version INTEGER NOT NULL, events INTEGER NOT NULL, counters BLOB NOT NULL,"
+    "  pruned_at INTEGER NOT NULL, PRIMARY KEY(model_id, day, slice_id)) WITHOUT ROWID;";
 
 static int64_t now_ms(void)
 {
@@ -275,6 +294,17 @@ static int check_version(cc_store *s, int64_t version, cc_error *err)
     return 0;
 }
 
+/* The step from schema 3 (and older, already brought to 3's tables) to 4:
+ * the slice tables, filled from the stored rows and pruned parts. Runs
+ * inside the upgrade's transaction, so a failure leaves the file at 3. */
+static int upgrade_to_v4_slices(cc_store *s, cc_error *err)
+{
+    int rc = exec(s, slices_schema_sql, err);
+    if (!rc)
+        rc = cc_store_slice_rebuild(s, s->o.on_progress, s->o.progress_ctx, err);
+    return rc;
+}
+
 /* Creates or upgrades the schema in one write transaction, unless it is
  * current already (then nothing is written). */
 static int bring_up_to_date(cc_store *s, cc_error *err)
@@ -292,7 +322,8 @@ static int bring_up_to_date(cc_store *s, cc_error *err)
     /* another writer may have done it meanwhile */
     if ((rc = read_version(s, &version, err)) || (rc = check_version(s, version, err)) ||
         (version >= 1 && version < 3 && (rc = exec(s, events_v3_sql, err))) ||
-        (rc = exec(s, schema_sql, err))) {
+        (rc = exec(s, schema_sql, err)) || (rc = exec(s, slices_schema_sql, err)) ||
+        (version >= 1 && version < 4 && (rc = upgrade_to_v4_slices(s, err)))) {
         cc_store_rollback(s);
         return rc;
     }
@@ -1061,6 +1092,8 @@ int cc_store_prune_day(cc_store *s, const cc_model *m, int64_t day, int64_t now,
     }
     sqlite3_finalize(st);
     st = NULL;
+    if ((rc = cc_store_slice_prune_day(s, m, day, now, err)))
+        goto done;
     if (sqlite3_prepare_v2(s->db, "DELETE FROM events WHERE model_id = ?1 AND day = ?2", -1,
                            &st, NULL) != SQLITE_OK) {
         rc = db_error(s, err, "deleting event rows");

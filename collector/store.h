@@ -44,10 +44,14 @@ typedef struct cc_store_opts {
     int wait_ms;
     void (*on_wait)(void *ctx, const char *path);
     void *ctx;
+    /* a long schema upgrade's progress (about every two seconds), or NULL */
+    void (*on_progress)(void *ctx, const char *path, const char *model, int64_t done_days,
+                        int64_t total_days);
+    void *progress_ctx;
 } cc_store_opts;
 
 #define CC_STORE_WAIT_DEFAULT_MS 60000
-#define CC_STORE_OPTS_INIT {0, CC_STORE_WAIT_DEFAULT_MS, NULL, NULL}
+#define CC_STORE_OPTS_INIT {0, CC_STORE_WAIT_DEFAULT_MS, NULL, NULL, NULL, NULL}
 
 /* Opens the database at path. A writer (no CC_STORE_READONLY) creates or
  * upgrades the schema when needed, in WAL mode; a newer schema version is
