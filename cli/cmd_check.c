@@ -107,7 +107,11 @@ static void print_json(const cc_check_result *r, int dry_run, const cc_deliver_s
         cJSON *e = cJSON_CreateObject();
         cJSON_AddItemToObject(e, "day", jdate(it->day));
         cJSON_AddStringToObject(e, "model", it->model);
-        cJSON_AddStringToObject(e, "rule", it->rule->name);
+        cJSON_AddStringToObject(e, "rule", cc_rule_display_name(it->rule));
+        if (it->rule->slice) {
+            cJSON_AddStringToObject(e, "slice", it->rule->slice);
+            cJSON_AddStringToObject(e, "state_key", it->rule->name);
+        }
         cJSON_AddStringToObject(e, "metric", it->rule->metric);
         cJSON_AddStringToObject(e, "urgency", cc_rules_urgency_name(it->rule->urgency));
         cJSON_AddStringToObject(e, "condition", cc_rules_condition_name(it->rule->cond));
