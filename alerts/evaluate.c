@@ -37,7 +37,7 @@ void cc_eval_set_day(cc_evaluator *ev, int64_t day) { ev->day = day; }
 static int baseline_report(cc_evaluator *ev, const cc_report **out, cc_error *err)
 {
     if (!ev->base) {
-        cc_report_opts ro = {ev->model, 1, 1, 1, 0, CC_BY_DAY};   /* an empty range */
+        cc_report_opts ro = {ev->model, 1, 1, 1, 0, CC_BY_DAY, NULL, 0};   /* an empty range */
         int rc = cc_report_build(&ev->base, ev->store, &ro, err);
         if (rc)
             return rc;
@@ -92,7 +92,7 @@ static int get_cached(cc_evaluator *ev, int64_t day, cached **out, cc_error *err
         memmove(ev->cache, ev->cache + 1, sizeof *ev->cache * (CACHE_MAX - 1));
         ev->n_cache--;
     }
-    cc_report_opts ro = {ev->model, 1, 1, day, day, CC_BY_DAY};
+    cc_report_opts ro = {ev->model, 1, 1, day, day, CC_BY_DAY, NULL, 0};
     cc_report *r = NULL;
     int rc = cc_report_build(&r, ev->store, &ro, err);
     if (rc)
