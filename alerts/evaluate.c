@@ -51,7 +51,7 @@ static void report_opts(cc_report_opts *ro, const char *model, const char *slice
     ro->from = from;
     ro->to = to;
     ro->by = CC_BY_DAY;
-    (void)slice;
+    ro->segment = slice;
 }
 
 void cc_eval_set_day(cc_evaluator *ev, int64_t day) { ev->day = day; }

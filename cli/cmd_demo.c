@@ -115,7 +115,7 @@ int cmd_demo(int argc, char **argv)
         goto done;
     }
     const cc_ingest_stats *s = cc_ingest_get_stats(ing);
-    cc_report_opts ro = {io.model, 0, 0, 0, 0, CC_BY_DAY, 0, 0};
+    cc_report_opts ro = {io.model, 0, 0, 0, 0, CC_BY_DAY, NULL, 0, 0, 0};
     if (cc_report_build(&rep, store, &ro, &err)) {
         rc = cli_fail(&err);
         goto done;

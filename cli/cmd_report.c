@@ -13,7 +13,7 @@
 const char help_report[] =
     "usage: concord report --db FILE --model NAME [--from DATE] [--to DATE]\n"
     "                      [--by day|week|all] [--format text|json|html] [--no-review]\n"
-    "                      [--rules FILE] [-o FILE]\n"
+    "                      [--rules FILE] [--segment S | --by-segment] [-o FILE]\n"
     "       concord report --db FILE --model NAME --by hour --from TIME --to TIME\n"
     "                      [--format text|json|html] [--no-review] [--rules FILE] [-o FILE]\n\n"
     "Diversity of the members (disagreement, Cohen's and Fleiss' kappa), uncertainty of\n"
@@ -36,9 +36,18 @@ const char help_report[] =
     "                     (from a fresh state, recording and sending nothing) and add the\n"
     "                     alert timeline; the HTML page's status line always comes from\n"
     "                     such a replay, of the default rules when --rules is not given\n"
+    "  --segment S        the report of one slice (the events whose segment is S): its\n"
+    "                     windows against its own baseline days; '(none)' is the\n"
+    "                     events without a segment, '(overflow)' the segments past the\n"
+    "                     model's slice limit (see 'concord models')\n"
+    "  --by-segment       adds one row per slice to every window: events, disagreement,\n"
+    "                     mutual information, accuracy, class-mix and KS drift against\n"
+    "                     the slice's own baseline days, and its class mix against the\n"
+    "                     whole model's in the same window (JSON: a \"segments\" array\n"
+    "                     in each window)\n"
     "  -o FILE            write there instead of standard output\n\n"
-    "exit: 0 ok, 2 usage, 3 file or database error, 4 unknown model (or, with --by hour,\n"
-    "      a range that touches pruned days)\n";
+    "exit: 0 ok, 2 usage, 3 file or database error, 4 unknown model or segment (or, with\n"
+    "      --by hour, a range that touches pruned days)\n";
 
 /* The alert timeline over the report's days (NULL rules_path: the default
  * rules); t stays empty when the report has no windows. */
@@ -129,8 +138,9 @@ int cmd_report(int argc, char **argv)
     cli_opt opts[] = {{"db", 0, 1, NULL},  {"model", 0, 1, NULL},  {"from", 0, 1, NULL},
                       {"to", 0, 1, NULL},  {"by", 0, 1, NULL},     {"format", 0, 1, NULL},
                       {"output", 'o', 1, NULL}, {"no-review", 0, 0, NULL},
-                      {"rules", 0, 1, NULL}};
-    int n_opts = 9, n_pos, help;
+                      {"rules", 0, 1, NULL}, {"segment", 0, 1, NULL},
+                      {"by-segment", 0, 0, NULL}};
+    int n_opts = 11, n_pos, help;
     char *pos[64];
     if (argc > 64 || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, "report"))
         return EXIT_USAGE;
@@ -183,6 +193,13 @@ int cmd_report(int argc, char **argv)
     int html = format && strcmp(format, "html") == 0;
     if (format && !json && !html && strcmp(format, "text") != 0)
         return cli_usage("report", "--format must be text, json or html, not '%s'", format);
+    ro.segment = cli_get(opts, n_opts, "segment");
+    ro.by_segment = cli_get(opts, n_opts, "by-segment") != NULL;
+    if (ro.segment && ro.by_segment)
+        return cli_usage("report", "--segment and --by-segment do not go together");
+    if ((ro.segment || ro.by_segment) && (html || cli_get(opts, n_opts, "rules")))
+        return cli_usage("report", "--segment and --by-segment give text or JSON, without "
+                                   "--rules");
 
     cc_error err = CC_ERROR_INIT;
     cc_store *store = NULL;

@@ -11,6 +11,7 @@
 #include "control.h"
 #include "error.h"
 #include "store.h"
+#include "store_slices.h"
 #include "window.h"
 
 /* CC_BY_HOUR windows are UTC hours built from the stored event rows (never
@@ -22,6 +23,8 @@ typedef struct cc_report_opts {
     int has_from, has_to;
     int64_t from, to;           /* UTC day numbers, inclusive */
     cc_grouping by;
+    const char *segment;        /* one slice's report (cc_slice_find names), or NULL */
+    int by_segment;             /* also one row per slice in each window */
     int64_t ts_from, ts_to;     /* CC_BY_HOUR only: Unix seconds, [ts_from, ts_to); from
                                    and to (days) are ignored then */
 } cc_report_opts;
@@ -40,6 +43,14 @@ typedef struct cc_report_window {
     cc_comparison cmp;          /* against the baseline (has_baseline = 0 without one) */
     double *z;                  /* cc_tracked_slots(m, k): z-score against the baseline days */
     double *ewma;               /* the same figures' EWMA over day windows; NULL otherwise */
+    /* --by-segment: the window's slices with events, in slice order; each
+     * is a window of that slice alone (cmp against the slice's own baseline
+     * days; z and ewma NULL), with vs_model its class mix and score
+     * distributions against the whole model's in the same window */
+    struct cc_report_window *segments;
+    int n_segments;
+    int slice;                  /* a segment row: index in cc_report.slices; -1 otherwise */
+    cc_comparison vs_model;
 } cc_report_window;
 
 typedef struct cc_report {
@@ -53,7 +64,16 @@ typedef struct cc_report {
     cc_report_window *windows;  /* cc_report_build only; none when streamed */
     int n_windows, cap_windows;
     cc_summary *range;          /* cc_report_build only: all windows merged */
+    /* slices (empty for a schema-3 file read as it is) */
+    cc_slice *slices;
+    int n_slices, slice_limit;
+    int slice;                  /* --segment: index in slices of the one reported; -1 */
+    int by_segment;
+    cc_summary **slice_baselines; /* by_segment: n_slices merged baselines (NULL entries: none) */
 } cc_report;
+
+/* The events of the model's overflow slice (0 when it has none). */
+int64_t cc_report_overflow_events(const cc_report *r);
 
 /* Builds the report with every window's figures kept (summaries are not:
  * each window's is merged into r->range and dropped); *out is NULL on error.
