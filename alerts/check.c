@@ -94,7 +94,12 @@ static int rule_block(cc_store *s, const cc_ruleset *rs, const char *model,
     int *lens = realloc(res->block_len, (size_t)(res->n_blocks + 1) * sizeof *lens);
     if (lens)
         res->block_len = lens;
-    cc_rule *b = calloc((size_t)n_rules * (size_t)(n_slices + 1) + 1, sizeof *b);
+    /* one slice is the whole model again: slice copies only from two slices on */
+    int n_live = 0;
+    for (int j = 0; j < n_slices; j++)
+        n_live += slices[j].kind != CC_SLICE_PRUNED;
+    int n_use = n_live < 2 ? 0 : n_slices;
+    cc_rule *b = calloc((size_t)n_rules * (size_t)(n_use + 1) + 1, sizeof *b);
     if (!blocks || !lens || !b) {
         free(b);
         rc = cc_error_set(err, CC_ENOMEM, "out of memory");
@@ -107,7 +112,7 @@ static int rule_block(cc_store *s, const cc_ruleset *rs, const char *model,
         if (!r->each_slice && cc_rules_applies(r, model))
             b[n++] = *r;
     }
-    for (int j = 0; j < n_slices; j++) {
+    for (int j = 0; j < n_use; j++) {
         if (slices[j].kind == CC_SLICE_PRUNED)
             continue;
         for (int i = 0; i < n_rules; i++) {

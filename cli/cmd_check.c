@@ -270,7 +270,9 @@ int cli_replay_run(cc_store *store, const char *rules_path, const char *model, i
                              it->rule->metric,
                              it->ev.value,
                              it->ev.bound,
-                             it->fired_day};
+                             it->fired_day,
+                             it->rule->slice,
+                             it->rule->rule_name};
         if (it->outcome == CC_OUT_RAISED || it->outcome == CC_OUT_CLEARED ||
             it->outcome == CC_OUT_REMINDER) {
             a.kind = cc_check_outcome_name(it->outcome);

@@ -119,6 +119,9 @@ typedef struct cc_report_alert {
     const char *metric;
     double value, bound;
     int64_t since;              /* raised_at_end: the day it was raised */
+    const char *slice;          /* an each-slice rule's slice; NULL for the whole model */
+    const char *rule_name;      /* with slice: the rule's own name (rule is then its state
+                                   key, "<rule>@<slice>"); NULL otherwise */
 } cc_report_alert;
 
 typedef struct cc_report_timeline {

@@ -334,7 +334,9 @@ static cJSON *alert_json(const cc_report_alert *a)
 {
     cJSON *e = cJSON_CreateObject();
     cJSON_AddItemToObject(e, "day", date(a->day));
-    cJSON_AddStringToObject(e, "rule", a->rule);
+    cJSON_AddStringToObject(e, "rule", a->rule_name ? a->rule_name : a->rule);
+    if (a->slice)
+        cJSON_AddStringToObject(e, "slice", a->slice);
     cJSON_AddStringToObject(e, "kind", a->kind);
     cJSON_AddStringToObject(e, "urgency", a->urgency);
     if (a->subject && a->subject[0])
