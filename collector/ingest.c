@@ -13,6 +13,7 @@
 #include "event_parse.h"
 #include "event_view.h"
 #include "line_reader.h"
+#include "names_text.h"
 #include "store_slices.h"
 #include "testpoint.h"
 #include "summary.h"
@@ -155,7 +156,15 @@ static model_state *model_for(cc_ingest *ing, const char *name, int m, int k, ch
     int rc = cc_store_model_get(ing->store, name, &model, &local);
     if (rc == -CC_ENOTFOUND) {
         if (m <= 0) {
-            snprintf(why, why_len, "field 'model': no model '%s' in the database", name);
+            char **names = NULL, list[128];
+            int n = 0;
+            cc_store_model_list(ing->store, &names, &n, NULL);
+            cc_names_text(list, sizeof list, (const char *const *)names, n);
+            for (int i = 0; i < n; i++)
+                free(names[i]);
+            free(names);
+            snprintf(why, why_len, "field 'model': no model '%s' in the database; models: %s",
+                     name, list);
             return NULL;
         }
         const cc_ingest_opts *o = &ing->opts;
@@ -496,8 +505,11 @@ static int resolve_label(const cc_model *model, int label, const char *name, int
     if (name) {
         *out = cc_model_class_index(model, name, (int)strlen(name));
         if (*out < 0) {
-            snprintf(why, why_len, "field 'label': unknown class name '%.64s' for model '%s'",
-                     name, model->name);
+            char list[96];
+            cc_names_text(list, sizeof list, (const char *const *)model->classes, model->k);
+            snprintf(why, why_len,
+                     "field 'label': unknown class name '%.64s' for model '%s'; classes: %s",
+                     name, model->name, list);
             return -1;
         }
         return 0;

@@ -14,6 +14,7 @@
 #include <unistd.h>
 
 #include "date.h"
+#include "names_text.h"
 #include "store_slices.h"
 #include "summary_codec.h"
 
@@ -612,7 +613,15 @@ int cc_store_model_get(cc_store *s, const char *name, cc_model **out, cc_error *
     sqlite3_bind_text(st, 1, name, -1, SQLITE_TRANSIENT);
     int step = sqlite3_step(st);
     if (step == SQLITE_DONE) {
-        rc = cc_error_set(err, CC_ENOTFOUND, "%s: no model named '%s'", s->path, name);
+        char **names = NULL, list[320];
+        int n = 0;
+        cc_store_model_list(s, &names, &n, NULL);
+        cc_names_text(list, sizeof list, (const char *const *)names, n);
+        rc = cc_error_set(err, CC_ENOTFOUND, "%s: no model named '%s'; models: %s", s->path,
+                          name, list);
+        for (int i = 0; i < n; i++)
+            free(names[i]);
+        free(names);
     } else if (step != SQLITE_ROW) {
         rc = db_error(s, err, "reading models");
     } else {
