@@ -346,15 +346,40 @@ oom:
 
 static void mark_dirty(model_state *ms) { ms->days[ms->last].dirty = 1; }
 
+/* Adds every held delta to the store: each slice's to its row, and the
+ * slices of one day merged first, so the model's row of a day is read and
+ * written once per flush however many slices the day has. */
 static int flush(cc_ingest *ing, cc_error *err)
 {
     for (int i = 0; i < ing->n_models; i++) {
         model_state *ms = &ing->models[i];
-        for (int j = 0; j < ms->n_days; j++) {
-            int rc = delta_flush(ing, ms, &ms->days[j], err);
-            if (rc)
-                return rc;
+        cc_summary *day_sum = NULL;
+        int rc = 0;
+        for (int j = 0; j < ms->n_days && !rc; j++) {
+            if (!ms->days[j].dirty)
+                continue;
+            if (!day_sum && !(day_sum = cc_summary_create(ms->model->m, ms->model->k))) {
+                rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+                break;
+            }
+            cc_summary_clear(day_sum);
+            int64_t day = ms->days[j].day;
+            for (int k = j; k < ms->n_days && !rc; k++) {
+                day_delta *dd = &ms->days[k];
+                if (!dd->dirty || dd->day != day)
+                    continue;
+                rc = cc_store_slice_summary_add(ing->store, ms->model, day, dd->slice, dd->delta,
+                                                err);
+                cc_summary_merge(day_sum, dd->delta);
+                cc_summary_clear(dd->delta);
+                dd->dirty = 0;
+            }
+            if (!rc)
+                rc = cc_store_summary_add(ing->store, ms->model, day, day_sum, err);
         }
+        cc_summary_free(day_sum);
+        if (rc)
+            return rc;
     }
     return 0;
 }
