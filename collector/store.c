@@ -128,7 +128,10 @@ static const char slices_schema_sql[] =
     "CREATE TABLE IF NOT EXISTS slice_pruned("
     "  model_id INTEGER NOT NULL, day INTEGER NOT NULL, slice_id INTEGER NOT NULL,"
     "  version INTEGER NOT NULL, events INTEGER NOT NULL, counters BLOB NOT NULL,"
-    "  pruned_at INTEGER NOT NULL, PRIMARY KEY(model_id, day, slice_id)) WITHOUT ROWID;";
+    "  pruned_at INTEGER NOT NULL, PRIMARY KEY(model_id, day, slice_id)) WITHOUT ROWID;"
+    /* one slice's days and totals without walking the other slices' rows */
+    "CREATE INDEX IF NOT EXISTS slice_summaries_by_slice ON slice_summaries("
+    "  model_id, slice_id, day, events, labeled);";
 
 static int64_t now_ms(void)
 {
