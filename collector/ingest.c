@@ -13,6 +13,7 @@
 #include "event_parse.h"
 #include "event_view.h"
 #include "line_reader.h"
+#include "names_text.h"
 #include "store_slices.h"
 #include "testpoint.h"
 #include "summary.h"
@@ -155,7 +156,15 @@ static model_state *model_for(cc_ingest *ing, const char *name, int m, int k, ch
     int rc = cc_store_model_get(ing->store, name, &model, &local);
     if (rc == -CC_ENOTFOUND) {
         if (m <= 0) {
-            snprintf(why, why_len, "field 'model': no model '%s' in the database", name);
+            char **names = NULL, list[128];
+            int n = 0;
+            cc_store_model_list(ing->store, &names, &n, NULL);
+            cc_names_text(list, sizeof list, (const char *const *)names, n);
+            for (int i = 0; i < n; i++)
+                free(names[i]);
+            free(names);
+            snprintf(why, why_len, "field 'model': no model '%s' in the database; models: %s",
+                     name, list);
             return NULL;
         }
         const cc_ingest_opts *o = &ing->opts;
@@ -337,15 +346,40 @@ oom:
 
 static void mark_dirty(model_state *ms) { ms->days[ms->last].dirty = 1; }
 
+/* Adds every held delta to the store: each slice's to its row, and the
+ * slices of one day merged first, so the model's row of a day is read and
+ * written once per flush however many slices the day has. */
 static int flush(cc_ingest *ing, cc_error *err)
 {
     for (int i = 0; i < ing->n_models; i++) {
         model_state *ms = &ing->models[i];
-        for (int j = 0; j < ms->n_days; j++) {
-            int rc = delta_flush(ing, ms, &ms->days[j], err);
-            if (rc)
-                return rc;
+        cc_summary *day_sum = NULL;
+        int rc = 0;
+        for (int j = 0; j < ms->n_days && !rc; j++) {
+            if (!ms->days[j].dirty)
+                continue;
+            if (!day_sum && !(day_sum = cc_summary_create(ms->model->m, ms->model->k))) {
+                rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+                break;
+            }
+            cc_summary_clear(day_sum);
+            int64_t day = ms->days[j].day;
+            for (int k = j; k < ms->n_days && !rc; k++) {
+                day_delta *dd = &ms->days[k];
+                if (!dd->dirty || dd->day != day)
+                    continue;
+                rc = cc_store_slice_summary_add(ing->store, ms->model, day, dd->slice, dd->delta,
+                                                err);
+                cc_summary_merge(day_sum, dd->delta);
+                cc_summary_clear(dd->delta);
+                dd->dirty = 0;
+            }
+            if (!rc)
+                rc = cc_store_summary_add(ing->store, ms->model, day, day_sum, err);
         }
+        cc_summary_free(day_sum);
+        if (rc)
+            return rc;
     }
     return 0;
 }
@@ -496,8 +530,11 @@ static int resolve_label(const cc_model *model, int label, const char *name, int
     if (name) {
         *out = cc_model_class_index(model, name, (int)strlen(name));
         if (*out < 0) {
-            snprintf(why, why_len, "field 'label': unknown class name '%.64s' for model '%s'",
-                     name, model->name);
+            char list[96];
+            cc_names_text(list, sizeof list, (const char *const *)model->classes, model->k);
+            snprintf(why, why_len,
+                     "field 'label': unknown class name '%.64s' for model '%s'; classes: %s",
+                     name, model->name, list);
             return -1;
         }
         return 0;

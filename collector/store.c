@@ -14,6 +14,7 @@
 #include <unistd.h>
 
 #include "date.h"
+#include "names_text.h"
 #include "store_slices.h"
 #include "summary_codec.h"
 
@@ -127,7 +128,10 @@ static const char slices_schema_sql[] =
     "CREATE TABLE IF NOT EXISTS slice_pruned("
     "  model_id INTEGER NOT NULL, day INTEGER NOT NULL, slice_id INTEGER NOT NULL,"
     "  version INTEGER NOT NULL, events INTEGER NOT NULL, counters BLOB NOT NULL,"
-    "  pruned_at INTEGER NOT NULL, PRIMARY KEY(model_id, day, slice_id)) WITHOUT ROWID;";
+    "  pruned_at INTEGER NOT NULL, PRIMARY KEY(model_id, day, slice_id)) WITHOUT ROWID;"
+    /* one slice's days and totals without walking the other slices' rows */
+    "CREATE INDEX IF NOT EXISTS slice_summaries_by_slice ON slice_summaries("
+    "  model_id, slice_id, day, events, labeled);";
 
 static int64_t now_ms(void)
 {
@@ -612,7 +616,15 @@ int cc_store_model_get(cc_store *s, const char *name, cc_model **out, cc_error *
     sqlite3_bind_text(st, 1, name, -1, SQLITE_TRANSIENT);
     int step = sqlite3_step(st);
     if (step == SQLITE_DONE) {
-        rc = cc_error_set(err, CC_ENOTFOUND, "%s: no model named '%s'", s->path, name);
+        char **names = NULL, list[320];
+        int n = 0;
+        cc_store_model_list(s, &names, &n, NULL);
+        cc_names_text(list, sizeof list, (const char *const *)names, n);
+        rc = cc_error_set(err, CC_ENOTFOUND, "%s: no model named '%s'; models: %s", s->path,
+                          name, list);
+        for (int i = 0; i < n; i++)
+            free(names[i]);
+        free(names);
     } else if (step != SQLITE_ROW) {
         rc = db_error(s, err, "reading models");
     } else {

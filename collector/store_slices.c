@@ -222,6 +222,30 @@ int cc_store_event_segment(cc_store *s, const cc_model *m, const char *id, int i
     return rc;
 }
 
+int cc_store_slice_overview(cc_store *s, const cc_model *m, int *count, int64_t *overflow_events,
+                            cc_error *err)
+{
+    sqlite3_stmt *st;
+    int rc, step;
+    *count = 0;
+    *overflow_events = 0;
+    if (!cc_store_slices_kept(s))
+        return 0;
+    if ((rc = prepare(s, "SELECT (SELECT count(*) FROM slices WHERE model_id = ?1), "
+                         "(SELECT total(u.events) FROM slices x JOIN slice_summaries u "
+                         "  ON u.model_id = x.model_id AND u.slice_id = x.slice_id "
+                         "  WHERE x.model_id = ?1 AND x.kind = 2)",
+                      &st, "reading slices", err)))
+        return rc;
+    sqlite3_bind_int64(st, 1, m->id);
+    if ((step = sqlite3_step(st)) == SQLITE_ROW) {
+        *count = sqlite3_column_int(st, 0);
+        *overflow_events = (int64_t)sqlite3_column_double(st, 1);
+    }
+    sqlite3_finalize(st);
+    return step == SQLITE_ROW ? 0 : sl_error(s, err, "reading slices");
+}
+
 void cc_slice_list_free(cc_slice *list, int n)
 {
     for (int i = 0; list && i < n; i++)

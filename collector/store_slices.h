@@ -75,6 +75,11 @@ int cc_store_event_segment(cc_store *s, const cc_model *m, const char *id, int i
 int cc_store_slice_list(cc_store *s, const cc_model *m, cc_slice **out, int *n, cc_error *err);
 void cc_slice_list_free(cc_slice *list, int n);
 
+/* How many slices the model has, and the events of its overflow slice
+ * (0 without one); both 0 for a schema-3 file. Cheap: for every report. */
+int cc_store_slice_overview(cc_store *s, const cc_model *m, int *count, int64_t *overflow_events,
+                            cc_error *err);
+
 /* summary(model, day, slice) += delta. */
 int cc_store_slice_summary_add(cc_store *s, const cc_model *m, int64_t day, int64_t slice,
                                const cc_summary *delta, cc_error *err);

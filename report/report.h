@@ -65,8 +65,10 @@ typedef struct cc_report {
     int n_windows, cap_windows;
     cc_summary *range;          /* cc_report_build only: all windows merged */
     /* slices (empty for a schema-3 file read as it is) */
-    cc_slice *slices;
+    cc_slice *slices;           /* loaded for --segment and --by-segment only */
     int n_slices, slice_limit;
+    int slice_count;            /* the model's slices (also when slices is not loaded) */
+    int64_t overflow_events;    /* events in its overflow slice */
     int slice;                  /* --segment: index in slices of the one reported; -1 */
     int by_segment;
     cc_summary **slice_baselines; /* by_segment: n_slices merged baselines (NULL entries: none) */

@@ -52,13 +52,7 @@ void cc_report_free(cc_report *r)
     free(r);
 }
 
-int64_t cc_report_overflow_events(const cc_report *r)
-{
-    for (int i = 0; i < r->n_slices; i++)
-        if (r->slices[i].kind == CC_SLICE_OVERFLOW)
-            return r->slices[i].events;
-    return 0;
-}
+int64_t cc_report_overflow_events(const cc_report *r) { return r->overflow_events; }
 
 /* The days with events of what the report covers: the model, or one slice. */
 static int src_days(const cc_report *r, cc_store *store, int64_t from, int64_t to,
@@ -88,8 +82,13 @@ static int load_slices(cc_report *r, cc_store *store, const cc_report_opts *opts
     r->by_segment = opts->by_segment;
     if (!cc_store_slices_kept(store) && !opts->segment && !opts->by_segment)
         return 0; /* a schema-3 file, read as it is */
-    if ((rc = cc_store_slice_list(store, r->model, &r->slices, &r->n_slices, err)) ||
+    if ((rc = cc_store_slice_overview(store, r->model, &r->slice_count, &r->overflow_events,
+                                      err)) ||
         (rc = cc_store_slice_limit_get(store, r->model, &r->slice_limit, err)))
+        return rc;
+    if (!opts->segment && !opts->by_segment)
+        return 0;
+    if ((rc = cc_store_slice_list(store, r->model, &r->slices, &r->n_slices, err)))
         return rc;
     if (!opts->segment)
         return 0;

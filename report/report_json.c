@@ -392,7 +392,7 @@ static cJSON *report_root(const cc_report *r)
     }
     if (r->slice_limit > 0) {
         cJSON *sl = cJSON_AddObjectToObject(root, "slices");
-        cJSON_AddNumberToObject(sl, "count", r->n_slices);
+        cJSON_AddNumberToObject(sl, "count", r->slice_count);
         cJSON_AddNumberToObject(sl, "limit", r->slice_limit);
         cJSON_AddNumberToObject(sl, "overflow_events", (double)cc_report_overflow_events(r));
     } else {

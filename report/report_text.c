@@ -375,7 +375,7 @@ static void head(FILE *f, const cc_report *r)
         fputs("segment ", f);
         cc_text_put(f, cc_slice_name(&r->slices[r->slice]));
         fprintf(f, ": one slice of %d; its windows and its baseline days are its own\n",
-                r->n_slices);
+                r->slice_count);
     }
     int64_t over = cc_report_overflow_events(r);
     if (over > 0)
