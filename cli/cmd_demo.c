@@ -166,7 +166,15 @@ int cmd_demo(int argc, char **argv)
            "--where top-mi\n", cli_program, db, fog_a, fog_b);
     if ((rc = cli_demo_alerts(store, dir, dopts.first_day, dopts.days)) != EXIT_OK)
         goto done;
-    /* the page last, so its status line shows the rules still raised */
+    /* the page last, so its status line shows the rules still raised; it
+     * also shows each packing line (the per-slice rows of --by-segment) */
+    cc_report_free(rep);
+    rep = NULL;
+    ro.by_segment = 1;
+    if (cc_report_build(&rep, store, &ro, &err)) {
+        rc = cli_fail(&err);
+        goto done;
+    }
     if ((rc = cli_report_html(store, rep, 1,
                               "Invented data from concord demo: an imaginary apple packhouse, "
                               "not real measurements.",

@@ -200,6 +200,9 @@ int cmd_report(int argc, char **argv)
     if ((ro.segment || ro.by_segment) && (html || cli_get(opts, n_opts, "rules")))
         return cli_usage("report", "--segment and --by-segment give text or JSON, without "
                                    "--rules");
+    /* the page has a slice section: it reads the per-slice rows */
+    if (html && ro.by != CC_BY_HOUR)
+        ro.by_segment = 1;
 
     cc_error err = CC_ERROR_INIT;
     cc_store *store = NULL;

@@ -8,6 +8,7 @@
 #include <string.h>
 
 #include "date.h"
+#include "html_slices.h"
 #include "html_text.h"
 #include "report.h"
 #include "review.h"
@@ -42,6 +43,13 @@ static const char css[] =
     ".status p{margin:2px 0}.status ul{margin:4px 0 0;padding-left:20px}\n"
     ".lede{color:var(--muted);font-size:13px;margin:0 0 8px}\n"
     "figure{margin:12px 0 20px;break-inside:avoid}\n"
+    ".multiples{display:grid;grid-template-columns:repeat(auto-fill,minmax(300px,1fr));"
+    "gap:0 14px}\n"
+    ".multiples figure{margin:4px 0 10px}\n"
+    "table.slices td,table.slices th{padding:3px 8px;text-align:right;"
+    "border-bottom:1px solid var(--rule)}\n"
+    "table.slices th[scope=row]{text-align:left;max-width:22ch;overflow-wrap:anywhere}\n"
+    "table.slices .sub{display:block;font-weight:normal;color:var(--muted)}\n"
     "figcaption{font-size:12.5px;color:var(--muted);margin:0 0 4px}figcaption b{color:var(--ink)}\n"
     "svg.chart{width:100%;height:auto;display:block}\n"
     "svg text{font-family:\"DejaVu Sans\",Verdana,sans-serif}\n"
@@ -219,8 +227,10 @@ static void masthead(page *p)
         esc(f, p->x->note);
         fputs("</p>\n", f);
     }
-    fputs("<nav><a href=\"#status\">status</a><a href=\"#daily\">day by day</a>"
-          "<a href=\"#pairs\">member pairs</a><a href=\"#classmix\">class mix</a>"
+    fputs("<nav><a href=\"#status\">status</a><a href=\"#daily\">day by day</a>", f);
+    if (cc_html_slices_shown(r))
+        fputs("<a href=\"#slices\">slices</a>", f);
+    fputs("<a href=\"#pairs\">member pairs</a><a href=\"#classmix\">class mix</a>"
           "<a href=\"#reliability\">reliability</a><a href=\"#contested\">contested pairs</a>"
           "<a href=\"#review\">review</a></nav></header>\n", f);
 }
@@ -795,6 +805,7 @@ char *cc_report_html(const cc_report *r, const cc_html_extras *extras)
         days_off += p.outside_days[i] > 0;
     status_line(&p, days_off);
     fputs(charts_buf, f);
+    cc_html_slices_section(f, r, p.labels, x_axis_name(r->by));
     pairs_section(&p);
     classmix_section(&p);
     reliability_section(&p);
