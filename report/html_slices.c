@@ -24,7 +24,7 @@ static const struct candidate {
     {"diversity.disagreement.mean", "Disagreement", "share of member pairs", 0},
     {"uncertainty.mutual_information", "Mutual information", "nats", 0},
     {"accuracy.ensemble", "Ensemble accuracy", "share of labelled events", 1},
-    {"drift.class_mix.psi", "Class-mix PSI against the slice's own baseline", "PSI", 0},
+    {"drift.class_mix.psi", "Class-mix PSI (own baseline)", "PSI", 0},
     {"uncertainty.entropy", "Entropy of the averaged output", "nats", 0},
     {"drift.max_prob.ks", "KS distance of the top probability", "KS D", 0},
 };
@@ -192,6 +192,7 @@ static void multiples(FILE *f, const cc_report *r, int c, const char *const *x_l
         ser.band_text = "";
         ser.base_from = ser.base_to = -1;
         ser.digits = 3;
+        ser.width = 400;        /* small multiples: three in a row on a wide page */
         int outside = 0;
         fputs("<figure><figcaption><b>", f);
         cc_html_escape_short(f, cc_slice_name(&r->slices[s]), 40);
