@@ -14,6 +14,8 @@
 #include <unistd.h>
 
 #include "date.h"
+#include "names_text.h"
+#include "store_slices.h"
 #include "store_sqlite.h"
 #include "summary_codec.h"
 
@@ -25,8 +27,9 @@ static void sq_snapshot_end(cc_store *store);
  * table) with a unique index on (model_id, id); 4, in steps called from
  * bring_up_to_date: the alert tables (rule_state, notifications, outbox) and
  * follow_offsets join the versioned schema (earlier, alerts/ and follow
- * created them on their own; upgrade_v4_alert_tables), and what changed
- * since the last publish to a cluster (upgrade_publish_marks). */
+ * created them on their own; upgrade_v4_alert_tables), what changed since
+ * the last publish to a cluster (upgrade_publish_marks), and per-segment
+ * summaries (slices, store_slices.h; upgrade_to_v4_slices). */
 #define SCHEMA_VERSION 4
 
 
@@ -175,6 +178,26 @@ static int upgrade_publish_marks(sq_store *s, int64_t from_version, cc_error *er
                      "SELECT model_id, day FROM summaries ORDER BY model_id, day;", err);
     return rc;
 }
+
+/* Version 4: slices (store_slices.h). A slice's summary rows sit beside the
+ * model's (model, day) rows, which stay as they were and equal their sum. */
+static const char slices_schema_sql[] =
+    "CREATE TABLE IF NOT EXISTS slices("
+    "  slice_id INTEGER PRIMARY KEY, model_id INTEGER NOT NULL, kind INTEGER NOT NULL,"
+    "  segment TEXT NOT NULL, created_at INTEGER NOT NULL, UNIQUE(model_id, kind, segment));"
+    "CREATE TABLE IF NOT EXISTS slice_limits("
+    "  model_id INTEGER PRIMARY KEY, max_slices INTEGER NOT NULL);"
+    "CREATE TABLE IF NOT EXISTS slice_summaries("
+    "  model_id INTEGER NOT NULL, day INTEGER NOT NULL, slice_id INTEGER NOT NULL,"
+    "  version INTEGER NOT NULL, events INTEGER NOT NULL, labeled INTEGER NOT NULL,"
+    "  counters BLOB NOT NULL, PRIMARY KEY(model_id, day, slice_id)) WITHOUT ROWID;"
+    "CREATE TABLE IF NOT EXISTS slice_pruned("
+    "  model_id INTEGER NOT NULL, day INTEGER NOT NULL, slice_id INTEGER NOT NULL,"
+    "  version INTEGER NOT NULL, events INTEGER NOT NULL, counters BLOB NOT NULL,"
+    "  pruned_at INTEGER NOT NULL, PRIMARY KEY(model_id, day, slice_id)) WITHOUT ROWID;"
+    /* one slice's days and totals without walking the other slices' rows */
+    "CREATE INDEX IF NOT EXISTS slice_summaries_by_slice ON slice_summaries("
+    "  model_id, slice_id, day, events, labeled);";
 
 static int64_t now_ms(void)
 {
@@ -362,6 +385,17 @@ static int upgrade_v4_alert_tables(sq_store *s, cc_error *err)
     return exec(s, alert_vocabulary_sql, err);
 }
 
+/* The step from schema 3 (and older, already brought to 3's tables) to 4:
+ * the slice tables, filled from the stored rows and pruned parts. Runs
+ * inside the upgrade's transaction, so a failure leaves the file at 3. */
+static int upgrade_to_v4_slices(sq_store *s, cc_error *err)
+{
+    int rc = exec(s, slices_schema_sql, err);
+    if (!rc)
+        rc = cc_sq_slice_rebuild(&s->base, s->o.on_progress, s->o.progress_ctx, err);
+    return rc;
+}
+
 /* Creates or upgrades the schema in one write transaction, unless it is
  * current already (then nothing is written). */
 static int bring_up_to_date(sq_store *s, cc_error *err)
@@ -380,7 +414,9 @@ static int bring_up_to_date(sq_store *s, cc_error *err)
     if ((rc = read_version(s, &version, err)) || (rc = check_version(s, version, err)) ||
         (version >= 1 && version < 3 && (rc = exec(s, events_v3_sql, err))) ||
         (version >= 1 && version < 4 && (rc = upgrade_v4_alert_tables(s, err))) ||
-        (rc = exec(s, schema_sql, err)) || (rc = upgrade_publish_marks(s, version, err))) {
+        (rc = exec(s, schema_sql, err)) || (rc = upgrade_publish_marks(s, version, err)) ||
+        (rc = exec(s, slices_schema_sql, err)) ||
+        (version >= 1 && version < 4 && (rc = upgrade_to_v4_slices(s, err)))) {
         sq_work_abort(&s->base);
         return rc;
     }
@@ -681,7 +717,15 @@ static int sq_model_get(cc_store *store, const char *name, cc_model **out, cc_er
     sqlite3_bind_text(st, 1, name, -1, SQLITE_TRANSIENT);
     int step = sqlite3_step(st);
     if (step == SQLITE_DONE) {
-        rc = cc_error_set(err, CC_ENOTFOUND, "%s: no model named '%s'", s->path, name);
+        char **names = NULL, list[320];
+        int n = 0;
+        cc_store_model_list(store, &names, &n, NULL);
+        cc_names_text(list, sizeof list, (const char *const *)names, n);
+        rc = cc_error_set(err, CC_ENOTFOUND, "%s: no model named '%s'; models: %s", s->path,
+                          name, list);
+        for (int i = 0; i < n; i++)
+            free(names[i]);
+        free(names);
     } else if (step != SQLITE_ROW) {
         rc = db_error(s, err, "reading models");
     } else {
@@ -1178,6 +1222,8 @@ static int sq_prune_day(cc_store *store, const cc_model *m, int64_t day, int64_t
     }
     sqlite3_finalize(st);
     st = NULL;
+    if ((rc = cc_sq_slice_prune_day(store, m, day, now, err)))
+        goto done;
     if (sqlite3_prepare_v2(s->db, "DELETE FROM events WHERE model_id = ?1 AND day = ?2", -1,
                            &st, NULL) != SQLITE_OK) {
         rc = db_error(s, err, "deleting event rows");
@@ -1366,6 +1412,52 @@ static int sq_backup(cc_store *store, const char *out_path, cc_error *err)
     return rc;
 }
 
+static int sq_events_between(cc_store *store, const cc_model *m, int64_t ts_from,
+                             int64_t ts_to, cc_event_row_fn fn, void *payload, cc_error *err)
+{
+    sq_store *s = SQ(store);
+    sqlite3_stmt *st = NULL;
+    size_t want = (size_t)m->m * (size_t)m->k * sizeof(float);
+    float *probs = malloc(want);
+    int rc = 0, step;
+    if (!probs)
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    if (ts_to <= ts_from)
+        goto done;
+    /* the day bounds let SQLite walk events_by_time (model_id, day, ts) */
+    if (sqlite3_prepare_v2(s->db,
+                           "SELECT ts, label, label_at, probs FROM events "
+                           "WHERE model_id = ?1 AND day BETWEEN ?2 AND ?3 "
+                           "AND ts >= ?4 AND ts < ?5 ORDER BY day, ts",
+                           -1, &st, NULL) != SQLITE_OK) {
+        rc = db_error(s, err, "reading events by time");
+        goto done;
+    }
+    sqlite3_bind_int64(st, 1, m->id);
+    sqlite3_bind_int64(st, 2, cc_day_of_unix(ts_from));
+    sqlite3_bind_int64(st, 3, cc_day_of_unix(ts_to - 1));
+    sqlite3_bind_int64(st, 4, ts_from);
+    sqlite3_bind_int64(st, 5, ts_to);
+    while ((step = sqlite3_step(st)) == SQLITE_ROW) {
+        if ((size_t)sqlite3_column_bytes(st, 3) != want) {
+            rc = cc_error_set(err, CC_EIO, "%s: damaged probability blob", s->path);
+            break;
+        }
+        memcpy(probs, sqlite3_column_blob(st, 3), want);
+        int label = sqlite3_column_type(st, 1) == SQLITE_NULL ? -1 : sqlite3_column_int(st, 1);
+        int64_t label_at =
+            sqlite3_column_type(st, 2) == SQLITE_NULL ? -1 : sqlite3_column_int64(st, 2);
+        if ((rc = fn(payload, sqlite3_column_int64(st, 0), label, label_at, probs)) != 0)
+            break;
+    }
+    if (!rc && step != SQLITE_DONE)
+        rc = db_error(s, err, "reading events by time");
+done:
+    sqlite3_finalize(st);
+    free(probs);
+    return rc;
+}
+
 /* The helpers above, for the backend's other files (store_sqlite.h). */
 int cc_sq_error(sq_store *s, cc_error *err, const char *what) { return db_error(s, err, what); }
 int cc_sq_exec(sq_store *s, const char *sql, cc_error *err) { return exec(s, sql, err); }
@@ -1420,4 +1512,18 @@ const cc_store_backend cc_sq_backend = {
     .outbox_requeue_dead = cc_sq_outbox_requeue_dead,
     .follow_offset_get = cc_sq_follow_offset_get,
     .follow_offset_set = cc_sq_follow_offset_set,
+    .slices_kept = cc_sq_slices_kept,
+    .slice_limit_get = cc_sq_slice_limit_get,
+    .slice_limit_set = cc_sq_slice_limit_set,
+    .slice_resolve = cc_sq_slice_resolve,
+    .event_segment = cc_sq_event_segment,
+    .slice_list = cc_sq_slice_list,
+    .slice_overview = cc_sq_slice_overview,
+    .slice_summary_add = cc_sq_slice_summary_add,
+    .slice_summary_get = cc_sq_slice_summary_get,
+    .slice_summary_days = cc_sq_slice_summary_days,
+    .slice_pruned_get = cc_sq_slice_pruned_get,
+    .slice_from_rows = cc_sq_slice_from_rows,
+    .events_between = sq_events_between,
+    .model_totals = cc_sq_model_totals,
 };

@@ -26,8 +26,10 @@
 #include <stdint.h>
 
 #include "store.h"
+#include "store_catalog.h"
+#include "store_slices.h"
 
-#define CC_STORE_BACKEND_VERSION 1
+#define CC_STORE_BACKEND_VERSION 2
 
 typedef struct cc_store_backend {
     int version;          /* CC_STORE_BACKEND_VERSION the table was written for */
@@ -134,6 +136,37 @@ typedef struct cc_store_backend {
                              cc_error *err);
     int (*follow_offset_set)(cc_store *s, const char *path, const cc_follow_offset *o,
                              int64_t now, cc_error *err);
+
+    /* --- version 2 --- */
+    /* Slices: per-(model, day, segment) summaries (store_slices.h); each op
+     * has the contract of the cc_store_slice_* / cc_store_event_segment call
+     * of the same name. slices_kept: 1 when the store keeps slices. */
+    int (*slices_kept)(cc_store *s);
+    int (*slice_limit_get)(cc_store *s, const cc_model *m, int *limit, cc_error *err);
+    int (*slice_limit_set)(cc_store *s, const cc_model *m, int limit, cc_error *err);
+    int (*slice_resolve)(cc_store *s, const cc_model *m, const char *segment, int len,
+                         int create, int64_t *slice, int *overflow, cc_error *err);
+    int (*event_segment)(cc_store *s, const cc_model *m, const char *id, int id_len,
+                         int *found, char **segment, cc_error *err);
+    int (*slice_list)(cc_store *s, const cc_model *m, cc_slice **out, int *n, cc_error *err);
+    int (*slice_overview)(cc_store *s, const cc_model *m, int *count, int64_t *overflow_events,
+                          cc_error *err);
+    int (*slice_summary_add)(cc_store *s, const cc_model *m, int64_t day, int64_t slice,
+                             const cc_summary *delta, cc_error *err);
+    int (*slice_summary_get)(cc_store *s, const cc_model *m, int64_t day, int64_t slice,
+                             cc_summary *out, cc_error *err);
+    int (*slice_summary_days)(cc_store *s, const cc_model *m, int64_t slice, int64_t from,
+                              int64_t to, int64_t **days, int *n, cc_error *err);
+    int (*slice_pruned_get)(cc_store *s, const cc_model *m, int64_t day, int64_t slice,
+                            int *found, cc_summary *out, cc_error *err);
+    int (*slice_from_rows)(cc_store *s, const cc_model *m, int64_t day, const cc_slice *list,
+                           int n, cc_summary **out, cc_error *err);
+    /* Event rows of a time range in time order (report --by hour). */
+    int (*events_between)(cc_store *s, const cc_model *m, int64_t ts_from, int64_t ts_to,
+                          cc_event_row_fn fn, void *payload, cc_error *err);
+    /* A model's totals (store_catalog.h; pending_labels is filled by the
+     * dispatch through pending_label_count). */
+    int (*model_totals)(cc_store *s, const cc_model *m, cc_model_totals *out, cc_error *err);
     /* (new ops go here, at the end) */
 } cc_store_backend;
 

@@ -2,6 +2,7 @@
  * the store's backend (store_backend.h); an op the backend does not have
  * gives a clear error instead of a crash. */
 #include <stddef.h>
+#include <string.h>
 
 #include "store_backend.h"
 
@@ -311,4 +312,107 @@ int cc_store_follow_offset_set(cc_store *s, const char *path, const cc_follow_of
                                int64_t now, cc_error *err)
 {
     return CALL(s, follow_offset_set, "write follow offsets", 1, path, o, now, err);
+}
+
+/* --- version 2: slices, rows by time, model totals --- */
+
+int cc_store_slices_kept(cc_store *s)
+{
+    return HAS(s, slices_kept) ? s->be->slices_kept(s) : 0;
+}
+
+int cc_store_slice_limit_get(cc_store *s, const cc_model *m, int *limit, cc_error *err)
+{
+    *limit = CC_SLICES_DEFAULT_MAX;
+    return CALL(s, slice_limit_get, "read slice limits", 0, m, limit, err);
+}
+
+int cc_store_slice_limit_set(cc_store *s, const cc_model *m, int limit, cc_error *err)
+{
+    return CALL(s, slice_limit_set, "set slice limits", 1, m, limit, err);
+}
+
+int cc_store_slice_resolve(cc_store *s, const cc_model *m, const char *segment, int len,
+                           int create, int64_t *slice, int *overflow, cc_error *err)
+{
+    *overflow = 0;
+    return CALL(s, slice_resolve, create ? "add slices" : "read slices", create, m, segment,
+                len, create, slice, overflow, err);
+}
+
+int cc_store_event_segment(cc_store *s, const cc_model *m, const char *id, int id_len,
+                           int *found, char **segment, cc_error *err)
+{
+    *found = 0;
+    *segment = NULL;
+    return CALL(s, event_segment, "read events' segments", 0, m, id, id_len, found, segment,
+                err);
+}
+
+int cc_store_slice_list(cc_store *s, const cc_model *m, cc_slice **out, int *n, cc_error *err)
+{
+    *out = NULL;
+    *n = 0;
+    return CALL(s, slice_list, "read slices (report --segment, --by-segment)", 0, m, out, n,
+                err);
+}
+
+int cc_store_slice_overview(cc_store *s, const cc_model *m, int *count, int64_t *overflow_events,
+                            cc_error *err)
+{
+    *count = 0;
+    *overflow_events = 0;
+    return CALL(s, slice_overview, "read slices", 0, m, count, overflow_events, err);
+}
+
+int cc_store_slice_summary_add(cc_store *s, const cc_model *m, int64_t day, int64_t slice,
+                               const cc_summary *delta, cc_error *err)
+{
+    return CALL(s, slice_summary_add, "add to slice summaries", 1, m, day, slice, delta, err);
+}
+
+int cc_store_slice_summary_get(cc_store *s, const cc_model *m, int64_t day, int64_t slice,
+                               cc_summary *out, cc_error *err)
+{
+    return CALL(s, slice_summary_get, "read slice summaries", 0, m, day, slice, out, err);
+}
+
+int cc_store_slice_summary_days(cc_store *s, const cc_model *m, int64_t slice, int64_t from,
+                                int64_t to, int64_t **days, int *n, cc_error *err)
+{
+    *days = NULL;
+    *n = 0;
+    return CALL(s, slice_summary_days, "list a slice's days", 0, m, slice, from, to, days, n,
+                err);
+}
+
+int cc_store_slice_pruned_get(cc_store *s, const cc_model *m, int64_t day, int64_t slice,
+                              int *found, cc_summary *out, cc_error *err)
+{
+    *found = 0;
+    return CALL(s, slice_pruned_get, "read slices' pruned parts", 0, m, day, slice, found, out,
+                err);
+}
+
+int cc_store_slice_from_rows(cc_store *s, const cc_model *m, int64_t day, const cc_slice *list,
+                             int n, cc_summary **out, cc_error *err)
+{
+    return CALL(s, slice_from_rows, "rebuild slice summaries from rows", 0, m, day, list, n,
+                out, err);
+}
+
+int cc_store_events_between(cc_store *s, const cc_model *m, int64_t ts_from, int64_t ts_to,
+                            cc_event_row_fn fn, void *payload, cc_error *err)
+{
+    return CALL(s, events_between, "read event rows by time (report --by hour)", 0, m, ts_from,
+                ts_to, fn, payload, err);
+}
+
+int cc_store_model_totals(cc_store *s, const cc_model *m, cc_model_totals *out, cc_error *err)
+{
+    memset(out, 0, sizeof *out);
+    int rc = CALL(s, model_totals, "read model totals", 0, m, out, err);
+    if (!rc)
+        out->pending_labels = cc_store_pending_label_count(s, m);
+    return rc;
 }

@@ -81,6 +81,40 @@ int cc_sq_follow_offset_get(cc_store *s, const char *path, int *found, cc_follow
 int cc_sq_follow_offset_set(cc_store *s, const char *path, const cc_follow_offset *o,
                             int64_t now, cc_error *err);
 
+/* The slice ops (store_slices.c) and a model's totals (store_catalog.c),
+ * with the contracts of the public calls of store_slices.h and
+ * store_catalog.h. */
+int cc_sq_slices_kept(cc_store *s);
+int cc_sq_slice_limit_get(cc_store *s, const cc_model *m, int *limit, cc_error *err);
+int cc_sq_slice_limit_set(cc_store *s, const cc_model *m, int limit, cc_error *err);
+int cc_sq_slice_resolve(cc_store *s, const cc_model *m, const char *segment, int len,
+                        int create, int64_t *slice, int *overflow, cc_error *err);
+int cc_sq_event_segment(cc_store *s, const cc_model *m, const char *id, int id_len,
+                        int *found, char **segment, cc_error *err);
+int cc_sq_slice_list(cc_store *s, const cc_model *m, cc_slice **out, int *n, cc_error *err);
+int cc_sq_slice_overview(cc_store *s, const cc_model *m, int *count, int64_t *overflow_events,
+                         cc_error *err);
+int cc_sq_slice_summary_add(cc_store *s, const cc_model *m, int64_t day, int64_t slice,
+                            const cc_summary *delta, cc_error *err);
+int cc_sq_slice_summary_get(cc_store *s, const cc_model *m, int64_t day, int64_t slice,
+                            cc_summary *out, cc_error *err);
+int cc_sq_slice_summary_days(cc_store *s, const cc_model *m, int64_t slice, int64_t from,
+                             int64_t to, int64_t **days, int *n, cc_error *err);
+int cc_sq_slice_pruned_get(cc_store *s, const cc_model *m, int64_t day, int64_t slice,
+                           int *found, cc_summary *out, cc_error *err);
+int cc_sq_slice_from_rows(cc_store *s, const cc_model *m, int64_t day, const cc_slice *list,
+                          int n, cc_summary **out, cc_error *err);
+int cc_sq_model_totals(cc_store *s, const cc_model *m, cc_model_totals *out, cc_error *err);
+/* Inside prune_day, before the day's rows are deleted: adds each slice's
+ * part of the rows to its pruned part. */
+int cc_sq_slice_prune_day(cc_store *s, const cc_model *m, int64_t day, int64_t now,
+                          cc_error *err);
+/* The schema 3 -> 4 step (inside the upgrade's transaction): for every
+ * model, slices for its segments in order of first arrival (under the
+ * default limit), each row day's slice summaries from the rows, and each
+ * pruned day's pruned part in the "pruned, unsliced" slice. */
+int cc_sq_slice_rebuild(cc_store *s, cc_slice_progress_fn progress, void *ctx, cc_error *err);
+
 /* The SQLite connection of a store of this backend, or NULL for another
  * backend: for tests and bench that inspect the file. */
 sqlite3 *cc_store_db(cc_store *s);

@@ -6,7 +6,7 @@
 # at all. tests/ and bench/ are not checked: they inspect or measure the
 # SQLite file directly (tests/alerts/test_deliver.c, tests/collector/
 # test_store_access.c, test_pending_drain.c, test_store_backend.c,
-# tests/review/test_review.c, bench/bench_ingest.c).
+# tests/review/test_review.c, bench/bench_ingest.c, bench/bench_slices.c).
 # Usage: sqlite_confined.sh SOURCE_DIR
 set -euo pipefail
 S=$1

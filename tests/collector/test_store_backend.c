@@ -393,7 +393,7 @@ static void upgrade_from_v3(const char *path)
     cc_store_close(s);
     s = NULL;
     /* a reader reads it as it is: no rows invented, none lost */
-    CHECK(cc_store_open_with(&s, path, &(cc_store_opts){CC_STORE_READONLY, 1000, NULL, NULL},
+    CHECK(cc_store_open_with(&s, path, &(cc_store_opts){CC_STORE_READONLY, 1000, NULL, NULL, NULL, NULL},
                              &err) == 0);
     if (s) {
         states_seen st = {0};
@@ -507,6 +507,25 @@ static void missing_ops(void)
     be.size = sizeof be;
     CHECK(cc_store_events_scan(s, &m, 0, 1, NULL, on_event, NULL, &err) == 0 &&
           called_past_end);
+
+    /* a version 1 table (before the slice ops): keeps no slices, slice reads
+     * name what is missing, a slice write is refused as read-only */
+    be.size = offsetof(cc_store_backend, slices_kept);
+    cc_slice *list = (cc_slice *)&be; /* must be reset to NULL */
+    int n_list = -1, count = -1, limit = -1;
+    int64_t overflow = -1;
+    CHECK(cc_store_slices_kept(s) == 0);
+    CHECK(cc_store_slice_list(s, &m, &list, &n_list, &err) == -CC_EIO && list == NULL &&
+          n_list == 0 && strstr(err.msg, "does not support") && strstr(err.msg, "slices"));
+    CHECK(cc_store_slice_overview(s, &m, &count, &overflow, &err) == -CC_EIO && count == 0 &&
+          overflow == 0);
+    CHECK(cc_store_slice_limit_get(s, &m, &limit, &err) == -CC_EIO &&
+          limit == CC_SLICES_DEFAULT_MAX);
+    CHECK(cc_store_slice_summary_add(s, &m, 1, 1, NULL, &err) == -CC_EIO &&
+          strstr(err.msg, "read-only"));
+    CHECK(cc_store_events_between(s, &m, 0, 3600, NULL, NULL, &err) == -CC_EIO &&
+          strstr(err.msg, "by time"));
+    be.size = sizeof be;
 
     cc_store_close(s);
     CHECK(rs.closed == 1);
