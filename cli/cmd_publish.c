@@ -115,10 +115,11 @@ static int publish_with(cc_store *store, const char *db, const char *url, const 
     if (cc_publish_run(store, ch, &po, &st, &err)) {
         rc = cli_fail(&err);
     } else {
-        printf("published %s as '%s' (seq %lld): %lld summary vector%s, %lld event row%s, "
-               "%lld waiting label%s sent, %lld label%s from other hosts applied; %lld bytes\n",
+        printf("published %s as '%s' (seq %lld): %lld summary vector%s (and %lld of slices), "
+               "%lld event row%s, %lld waiting label%s sent, %lld label%s from other hosts "
+               "applied; %lld bytes\n",
                db, source, (long long)st.seq, (long long)st.days, st.days == 1 ? "" : "s",
-               (long long)st.events, st.events == 1 ? "" : "s", (long long)st.labels_sent,
+               (long long)st.slice_days, (long long)st.events, st.events == 1 ? "" : "s", (long long)st.labels_sent,
                st.labels_sent == 1 ? "" : "s", (long long)st.labels_applied,
                st.labels_applied == 1 ? "" : "s", (long long)st.bytes);
     }

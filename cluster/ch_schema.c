@@ -17,6 +17,7 @@
 #include "ch_schema.h"
 
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 /* name, columns, engine of each *_local table */
@@ -65,4 +66,38 @@ int cc_ch_schema_create(cc_ch *c, cc_error *err)
         rc = cc_ch_query(c, sql, NULL, NULL, err);
     }
     return rc;
+}
+
+char *cc_ch_slice_key(const cc_slice *sl)
+{
+    if (sl->kind != CC_SLICE_SEGMENT)
+        return strdup(cc_slice_name(sl));
+    size_t n = strlen(sl->segment);
+    char *k = malloc(n + 2);
+    if (k) {
+        k[0] = '=';
+        memcpy(k + 1, sl->segment, n + 1);
+    }
+    return k;
+}
+
+int cc_ch_slice_parse(const char *key, size_t n, int *kind, char **segment)
+{
+    static const int special[] = {CC_SLICE_NONE, CC_SLICE_OVERFLOW, CC_SLICE_PRUNED};
+    *segment = NULL;
+    if (n >= 1 && key[0] == '=') {
+        *kind = CC_SLICE_SEGMENT;
+        *segment = strndup(key + 1, n - 1);
+        return *segment ? 0 : -1;
+    }
+    for (size_t i = 0; i < sizeof special / sizeof *special; i++) {
+        cc_slice probe = {0, special[i], "", 0, 0};
+        const char *name = cc_slice_name(&probe);
+        if (strlen(name) == n && memcmp(name, key, n) == 0) {
+            *kind = special[i];
+            *segment = strdup("");
+            return *segment ? 0 : -1;
+        }
+    }
+    return -1;
 }

@@ -6,6 +6,7 @@
 #include <string.h>
 
 #include "ch_client.h"
+#include "ch_schema.h"
 #include "fetch.h"
 #include "store_backend.h"
 #include "summary.h"
@@ -21,9 +22,14 @@ typedef struct ch_store {
     cc_ch_model *models;
     int n_models;
     int64_t cache_model;    /* model id the cache holds, 0 for none */
+    int64_t cache_slice;    /* and its slice id, 0 for the whole model */
     int64_t *cache_days;
     int64_t **cache_vec;    /* layout len counters per day */
     int n_cache;
+    int64_t slices_model;   /* model id the slice list is of, 0 for none */
+    cc_slice *slices;       /* the model's slices in key order; id = index + 1 */
+    char **slice_keys;      /* their keys in the summaries table */
+    int n_slices;
 } ch_store;
 
 #define CH(s) ((ch_store *)(s))
@@ -38,12 +44,26 @@ static void drop_cache(ch_store *c)
     c->cache_days = NULL;
     c->n_cache = 0;
     c->cache_model = 0;
+    c->cache_slice = 0;
+}
+
+static void drop_slices(ch_store *c)
+{
+    for (int i = 0; i < c->n_slices; i++)
+        free(c->slice_keys[i]);
+    free(c->slice_keys);
+    cc_slice_list_free(c->slices, c->n_slices);
+    c->slice_keys = NULL;
+    c->slices = NULL;
+    c->n_slices = 0;
+    c->slices_model = 0;
 }
 
 static void ch_close(cc_store *s)
 {
     ch_store *c = CH(s);
     drop_cache(c);
+    drop_slices(c);
     cc_ch_models_free(c->models, c->n_models);
     cc_ch_close(c->ch);
     free(c->url);
@@ -147,10 +167,11 @@ static int select_rb(ch_store *c, cc_buf *sql, const char *tail, cc_buf *ans, cc
     return rc;
 }
 
-/* The model's days in [from, to] with events, one row per day: cols
- * selected from the merged summaries, in day order. */
-static int days_select(ch_store *c, const cc_model *m, const char *cols, int64_t from,
-                       int64_t to, cc_layout *l, cc_buf *ans, cc_error *err)
+/* The days in [from, to] with events of the model's slice key ("" for the
+ * whole model), one row per day: cols selected from the merged summaries,
+ * in day order. */
+static int days_select(ch_store *c, const cc_model *m, const char *slice, const char *cols,
+                       int64_t from, int64_t to, cc_layout *l, cc_buf *ans, cc_error *err)
 {
     if (cc_layout_init(l, m->m, m->k))
         return cc_error_set(err, CC_EIO, "%s: model '%s' has a shape out of range", c->base.path,
@@ -158,8 +179,10 @@ static int days_select(ch_store *c, const cc_model *m, const char *cols, int64_t
     cc_buf sql = CC_BUF_INIT;
     char tail[256];
     where_model(&sql, c, "summaries", cols, m);
+    cc_buf_put(&sql, " AND slice = ", 13);
+    cc_ch_quote(&sql, slice);
     snprintf(tail, sizeof tail,
-             " AND layout_version = %d AND slice = '' AND day >= %lld AND day <= %lld "
+             " AND layout_version = %d AND day >= %lld AND day <= %lld "
              "GROUP BY day HAVING sum(events) > 0 ORDER BY day FORMAT RowBinary",
              CC_SUMMARY_VERSION, (long long)from, (long long)to);
     return select_rb(c, &sql, tail, ans, err);
@@ -167,12 +190,12 @@ static int days_select(ch_store *c, const cc_model *m, const char *cols, int64_t
 
 /* Reads (day, counters) rows into the cache, or into one vector when
  * one_day is set. */
-static int read_vectors(ch_store *c, const cc_model *m, int64_t from, int64_t to, int64_t *one,
-                        int *found, cc_error *err)
+static int read_vectors(ch_store *c, const cc_model *m, const char *slice, int64_t from,
+                        int64_t to, int64_t *one, int *found, cc_error *err)
 {
     cc_layout l;
     cc_buf ans = CC_BUF_INIT;
-    int rc = days_select(c, m, "day, sumForEach(counters)", from, to, &l, &ans, err);
+    int rc = days_select(c, m, slice, "day, sumForEach(counters)", from, to, &l, &ans, err);
     cc_rb rb = {ans.p, ans.p + ans.len};
     while (!rc && rb.p < rb.end) {
         int64_t day;
@@ -208,16 +231,16 @@ static int read_vectors(ch_store *c, const cc_model *m, int64_t from, int64_t to
     return rc;
 }
 
-static int ch_summary_days(cc_store *s, const cc_model *m, int64_t from, int64_t to,
-                           int64_t **days, int *n, cc_error *err)
+/* summary_days of the model (slice_id 0, key "") or of one slice. */
+static int range_days(ch_store *c, const cc_model *m, int64_t slice_id, const char *slice,
+                      int64_t from, int64_t to, int64_t **days, int *n, cc_error *err)
 {
-    ch_store *c = CH(s);
     cc_layout l;
     *days = NULL;
     *n = 0;
     drop_cache(c);
     cc_buf ans = CC_BUF_INIT;
-    int rc = days_select(c, m, "day", from, to, &l, &ans, err);
+    int rc = days_select(c, m, slice, "day", from, to, &l, &ans, err);
     size_t count = rc ? 0 : ans.len / 8;
     if (!rc && count && !(*days = malloc(count * sizeof **days)))
         rc = cc_error_set(err, CC_ENOMEM, "out of memory");
@@ -233,11 +256,13 @@ static int ch_summary_days(cc_store *s, const cc_model *m, int64_t from, int64_t
     *n = (int)count;
     /* the range's vectors in one read, when they fit the bound */
     if (count && count * l.len * sizeof(int64_t) <= CACHE_MAX_BYTES) {
-        rc = read_vectors(c, m, (*days)[0], (*days)[count - 1], NULL, NULL, err);
-        if (rc)
+        rc = read_vectors(c, m, slice, (*days)[0], (*days)[count - 1], NULL, NULL, err);
+        if (rc) {
             drop_cache(c);
-        else
+        } else {
             c->cache_model = m->id;
+            c->cache_slice = slice_id;
+        }
     }
     if (rc) {
         free(*days);
@@ -247,13 +272,12 @@ static int ch_summary_days(cc_store *s, const cc_model *m, int64_t from, int64_t
     return rc;
 }
 
-static int ch_summary_get(cc_store *s, const cc_model *m, int64_t day, cc_summary *out,
-                          cc_error *err)
+static int range_get(ch_store *c, const cc_model *m, int64_t slice_id, const char *slice,
+                     int64_t day, cc_summary *out, cc_error *err)
 {
-    ch_store *c = CH(s);
     const cc_layout *l = cc_summary_layout(out);
     int64_t *v = cc_summary_data_mut(out);
-    if (c->cache_model == m->id)
+    if (c->cache_model == m->id && c->cache_slice == slice_id)
         for (int i = 0; i < c->n_cache; i++)
             if (c->cache_days[i] == day) {
                 memcpy(v, c->cache_vec[i], l->len * sizeof *v);
@@ -261,7 +285,167 @@ static int ch_summary_get(cc_store *s, const cc_model *m, int64_t day, cc_summar
             }
     cc_summary_clear(out);
     int found = 0;
-    return read_vectors(c, m, day, day, v, &found, err);
+    return read_vectors(c, m, slice, day, day, v, &found, err);
+}
+
+static int ch_summary_days(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+                           int64_t **days, int *n, cc_error *err)
+{
+    return range_days(CH(s), m, 0, "", from, to, days, n, err);
+}
+
+static int ch_summary_get(cc_store *s, const cc_model *m, int64_t day, cc_summary *out,
+                          cc_error *err)
+{
+    return range_get(CH(s), m, 0, "", day, out, err);
+}
+
+/* ---- slices: the vectors published under a slice key (ch_schema.h) ---- */
+
+static int ch_slices_kept(cc_store *s)
+{
+    (void)s;
+    return 1;
+}
+
+/* The model's slices, read once per model: every key with events, in key
+ * order, with its event and label totals. */
+static int load_slices(ch_store *c, const cc_model *m, cc_error *err)
+{
+    if (c->slices_model == m->id)
+        return 0;
+    drop_slices(c);
+    cc_layout l;
+    if (cc_layout_init(&l, m->m, m->k))
+        return cc_error_set(err, CC_EIO, "%s: model '%s' has a shape out of range", c->base.path,
+                            m->name);
+    cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
+    char tail[320];
+    char cols[96];
+    snprintf(cols, sizeof cols, "slice, sum(events), sum(counters[%zu])", l.n_labeled + 1);
+    where_model(&sql, c, "summaries", cols, m);
+    snprintf(tail, sizeof tail,
+             " AND layout_version = %d AND slice != '' GROUP BY slice HAVING sum(events) > 0 "
+             "ORDER BY slice FORMAT RowBinary", CC_SUMMARY_VERSION);
+    int rc = select_rb(c, &sql, tail, &ans, err);
+    cc_rb rb = {ans.p, ans.p + ans.len};
+    while (!rc && rb.p < rb.end) {
+        const char *key;
+        size_t key_n;
+        int64_t events, labeled;
+        if (cc_rb_string(&rb, &key, &key_n) || cc_rb_i64(&rb, &events) ||
+            cc_rb_i64(&rb, &labeled)) {
+            rc = cc_error_set(err, CC_EIO, "%s: a truncated slice row", c->base.path);
+            break;
+        }
+        cc_slice *grown = realloc(c->slices, (size_t)(c->n_slices + 1) * sizeof *grown);
+        char **keys = realloc(c->slice_keys, (size_t)(c->n_slices + 1) * sizeof *keys);
+        if (grown)
+            c->slices = grown;
+        if (keys)
+            c->slice_keys = keys;
+        if (!grown || !keys) {
+            rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+            break;
+        }
+        cc_slice *sl = &c->slices[c->n_slices];
+        sl->id = c->n_slices + 1;
+        sl->events = events;
+        sl->labeled = labeled;
+        if (cc_ch_slice_parse(key, key_n, &sl->kind, &sl->segment)) {
+            rc = cc_error_set(err, CC_EIO, "%s: model '%s': a summary row of an unknown slice "
+                                           "'%.*s'", c->base.path, m->name,
+                              (int)(key_n > 64 ? 64 : key_n), key);
+            break;
+        }
+        if (!(c->slice_keys[c->n_slices] = strndup(key, key_n))) {
+            free(sl->segment);
+            rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+            break;
+        }
+        c->n_slices++;
+    }
+    cc_buf_free(&ans);
+    if (rc)
+        drop_slices(c);
+    else
+        c->slices_model = m->id;
+    return rc;
+}
+
+/* The key of slice id of m. */
+static int slice_key(ch_store *c, const cc_model *m, int64_t id, const char **key,
+                     cc_error *err)
+{
+    int rc = load_slices(c, m, err);
+    if (rc)
+        return rc;
+    if (id < 1 || id > c->n_slices)
+        return cc_error_set(err, CC_ENOTFOUND, "%s: model '%s' has no slice %lld", c->base.path,
+                            m->name, (long long)id);
+    *key = c->slice_keys[id - 1];
+    return 0;
+}
+
+static int ch_slice_limit_get(cc_store *s, const cc_model *m, int *limit, cc_error *err)
+{
+    (void)s, (void)m, (void)err;
+    *limit = CC_SLICES_DEFAULT_MAX; /* each host keeps its own; the cluster does not know it */
+    return 0;
+}
+
+static int ch_slice_list(cc_store *s, const cc_model *m, cc_slice **out, int *n, cc_error *err)
+{
+    ch_store *c = CH(s);
+    int rc = load_slices(c, m, err);
+    if (rc)
+        return rc;
+    if (!(*out = calloc((size_t)(c->n_slices ? c->n_slices : 1), sizeof **out)))
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    for (int i = 0; i < c->n_slices; i++) {
+        (*out)[i] = c->slices[i];
+        if (!((*out)[i].segment = strdup(c->slices[i].segment))) {
+            cc_slice_list_free(*out, i);
+            *out = NULL;
+            return cc_error_set(err, CC_ENOMEM, "out of memory");
+        }
+    }
+    *n = c->n_slices;
+    return 0;
+}
+
+static int ch_slice_overview(cc_store *s, const cc_model *m, int *count,
+                             int64_t *overflow_events, cc_error *err)
+{
+    ch_store *c = CH(s);
+    int rc = load_slices(c, m, err);
+    if (rc)
+        return rc;
+    *count = c->n_slices;
+    for (int i = 0; i < c->n_slices; i++)
+        if (c->slices[i].kind == CC_SLICE_OVERFLOW)
+            *overflow_events += c->slices[i].events;
+    return 0;
+}
+
+static int ch_slice_summary_days(cc_store *s, const cc_model *m, int64_t slice, int64_t from,
+                                 int64_t to, int64_t **days, int *n, cc_error *err)
+{
+    ch_store *c = CH(s);
+    const char *key = NULL;
+    *days = NULL;
+    *n = 0;
+    int rc = slice_key(c, m, slice, &key, err);
+    return rc ? rc : range_days(c, m, slice, key, from, to, days, n, err);
+}
+
+static int ch_slice_summary_get(cc_store *s, const cc_model *m, int64_t day, int64_t slice,
+                                cc_summary *out, cc_error *err)
+{
+    ch_store *c = CH(s);
+    const char *key = NULL;
+    int rc = slice_key(c, m, slice, &key, err);
+    return rc ? rc : range_get(c, m, slice, key, day, out, err);
 }
 
 static int ch_labeled_day_last(cc_store *s, const cc_model *m, int64_t day, int *found,
@@ -393,6 +577,12 @@ static const cc_store_backend ch_backend = {
     .events_scan = ch_events_scan,
     .event_read = ch_event_read,
     .labeled_day_last = ch_labeled_day_last,
+    .slices_kept = ch_slices_kept,
+    .slice_limit_get = ch_slice_limit_get,
+    .slice_list = ch_slice_list,
+    .slice_overview = ch_slice_overview,
+    .slice_summary_get = ch_slice_summary_get,
+    .slice_summary_days = ch_slice_summary_days,
 };
 
 int cc_ch_store_open(cc_store **out, const char *url, cc_error *err)

@@ -5,6 +5,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "ch_schema.h"
+#include "store_slices.h"
 #include "summary.h"
 
 static int truncated(cc_ch *c, const char *what, cc_error *err)
@@ -210,26 +212,31 @@ static int model_of_row(cc_store *dst, const char *name, size_t name_n, cc_model
     return rc;
 }
 
-static int fetch_summaries(cc_ch *c, cc_store *dst, const cc_fetch_opts *o, cc_error *err)
+/* The merged vectors of every (model, day) (slices = 0), or of every (model,
+ * slice, day) with the slices created in dst (slices = 1; ch_schema.h). */
+static int fetch_summaries(cc_ch *c, cc_store *dst, const cc_fetch_opts *o, int slices,
+                           cc_error *err)
 {
     cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
     char head[320];
     snprintf(head, sizeof head,
-             "SELECT model, day, sumForEach(counters) FROM %s.summaries FINAL "
-             "WHERE layout_version = %d AND slice = ''",
-             cc_ch_database(c), CC_SUMMARY_VERSION);
+             "SELECT model, %s day, sumForEach(counters) FROM %s.summaries FINAL "
+             "WHERE layout_version = %d AND slice %s ''", slices ? "slice," : "",
+             cc_ch_database(c), CC_SUMMARY_VERSION, slices ? "!=" : "=");
     build_sql(&sql, head, "model", o->model,
-              " GROUP BY model, day ORDER BY model, day FORMAT RowBinary");
+              slices ? " GROUP BY model, slice, day ORDER BY model, slice, day FORMAT RowBinary"
+                     : " GROUP BY model, day ORDER BY model, day FORMAT RowBinary");
     int rc = run_select(c, &sql, &ans, err);
     cc_rb rb = {ans.p, ans.p + ans.len};
     cc_model *m = NULL;
     cc_summary *sum = NULL;
     while (!rc && rb.p < rb.end) {
-        const char *name;
-        size_t name_n;
+        const char *name, *key = "";
+        size_t name_n, key_n = 0;
         int64_t day;
         uint64_t n;
-        if (cc_rb_string(&rb, &name, &name_n) || cc_rb_i64(&rb, &day) ||
+        if (cc_rb_string(&rb, &name, &name_n) ||
+            (slices && cc_rb_string(&rb, &key, &key_n)) || cc_rb_i64(&rb, &day) ||
             cc_rb_varint(&rb, &n)) {
             rc = truncated(c, "summaries", err);
             break;
@@ -257,8 +264,21 @@ static int fetch_summaries(cc_ch *c, cc_store *dst, const cc_fetch_opts *o, cc_e
         for (size_t i = 0; i < l->len && !rc; i++)
             if (cc_rb_i64(&rb, &v[i]))
                 rc = truncated(c, "summaries", err);
-        if (!rc)
+        if (!rc && !slices)
             rc = cc_store_summary_add(dst, m, day, sum, err);
+        if (!rc && slices) {
+            int kind;
+            char *segment;
+            int64_t id;
+            if (cc_ch_slice_parse(key, key_n, &kind, &segment))
+                rc = cc_error_set(err, CC_EIO, "cluster: model '%s': a summary row of an "
+                                               "unknown slice '%.*s'",
+                                  m->name, (int)(key_n > 64 ? 64 : key_n), key);
+            else if (!(rc = cc_store_slice_add(dst, m, kind, segment, (int)strlen(segment), &id,
+                                               err)))
+                rc = cc_store_slice_summary_add(dst, m, day, id, sum, err);
+            free(segment);
+        }
     }
     cc_model_free(m);
     cc_summary_free(sum);
@@ -340,7 +360,8 @@ int cc_fetch_into(cc_ch *c, cc_store *dst, const cc_fetch_opts *o, cc_error *err
     int rc = cc_store_begin(dst, err);
     if (rc)
         return rc;
-    if ((rc = fetch_models(c, dst, o, err)) || (rc = fetch_summaries(c, dst, o, err)) ||
+    if ((rc = fetch_models(c, dst, o, err)) || (rc = fetch_summaries(c, dst, o, 0, err)) ||
+        (rc = fetch_summaries(c, dst, o, 1, err)) ||
         (o->events && (rc = fetch_events(c, dst, o, err))) ||
         (rc = cc_store_commit(dst, err))) {
         cc_store_rollback(dst);

@@ -28,6 +28,9 @@ typedef struct run {
     const char *table;          /* where body goes */
     int64_t rows;
     cc_summary *sum;
+    cc_slice *slices;           /* slices_of(slices_model) */
+    int n_slices;
+    int64_t slices_model;
 } run;
 
 int cc_publish_source_ok(const char *name)
@@ -283,6 +286,44 @@ static int pull_labels(run *r)
 
 /* ---- summaries, models, events ---- */
 
+/* One summary vector row: (model, day, layout, slice key, source, seq, events, counters). */
+static int put_vector(run *r, const char *model, int64_t day, const char *slice,
+                      const cc_summary *sum)
+{
+    const cc_layout *l = cc_summary_layout(sum);
+    const int64_t *v = cc_summary_data(sum);
+    cc_buf_string(&r->body, model, strlen(model));
+    cc_buf_i64(&r->body, day);
+    cc_buf_u32(&r->body, CC_SUMMARY_VERSION);
+    cc_buf_string(&r->body, slice, strlen(slice));
+    cc_buf_string(&r->body, r->o->source, strlen(r->o->source));
+    cc_buf_u64(&r->body, (uint64_t)r->st->seq);
+    cc_buf_i64(&r->body, v[l->n_events]);
+    cc_buf_varint(&r->body, l->len);
+    for (size_t i = 0; i < l->len; i++)
+        cc_buf_i64(&r->body, v[i]);
+    return row_done(r);
+}
+
+/* The slices of m, listed once per model in a run. */
+static int slices_of(run *r, const cc_model *m, cc_error *err)
+{
+    if (r->slices_model == m->id)
+        return 0;
+    cc_slice_list_free(r->slices, r->n_slices);
+    r->slices = NULL;
+    r->n_slices = 0;
+    r->slices_model = 0;
+    if (!cc_store_slices_kept(r->store))
+        return 0;
+    int rc = cc_store_slice_list(r->store, m, &r->slices, &r->n_slices, err);
+    if (!rc)
+        r->slices_model = m->id;
+    return rc;
+}
+
+/* The model's vector of the day (slice ""), then each of its slices' with
+ * events that day (see cc_ch_slice_key). */
 static int put_day(void *ctx, const char *model, int64_t day)
 {
     run *r = ctx;
@@ -293,22 +334,23 @@ static int put_day(void *ctx, const char *model, int64_t day)
     cc_summary_free(r->sum);
     if (!(r->sum = cc_summary_create(m->m, m->k)))
         return cc_error_set(r->err, CC_ENOMEM, "out of memory");
-    if ((rc = cc_store_summary_get(r->store, m, day, r->sum, r->err)))
+    if ((rc = cc_store_summary_get(r->store, m, day, r->sum, r->err)) ||
+        (rc = put_vector(r, model, day, "", r->sum)) || (rc = slices_of(r, m, r->err)))
         return rc;
-    const cc_layout *l = cc_summary_layout(r->sum);
-    const int64_t *v = cc_summary_data(r->sum);
-    cc_buf_string(&r->body, model, strlen(model));
-    cc_buf_i64(&r->body, day);
-    cc_buf_u32(&r->body, CC_SUMMARY_VERSION);
-    cc_buf_string(&r->body, "", 0);  /* slice: the whole model */
-    cc_buf_string(&r->body, r->o->source, strlen(r->o->source));
-    cc_buf_u64(&r->body, (uint64_t)r->st->seq);
-    cc_buf_i64(&r->body, v[l->n_events]);
-    cc_buf_varint(&r->body, l->len);
-    for (size_t i = 0; i < l->len; i++)
-        cc_buf_i64(&r->body, v[i]);
     r->st->days++;
-    return row_done(r);
+    for (int i = 0; i < r->n_slices && !rc; i++) {
+        if ((rc = cc_store_slice_summary_get(r->store, m, day, r->slices[i].id, r->sum, r->err)))
+            break;
+        if (cc_summary_data(r->sum)[cc_summary_layout(r->sum)->n_events] == 0)
+            continue;
+        char *key = cc_ch_slice_key(&r->slices[i]);
+        if (!key)
+            return cc_error_set(r->err, CC_ENOMEM, "out of memory");
+        rc = put_vector(r, model, day, key, r->sum);
+        free(key);
+        r->st->slice_days++;
+    }
+    return rc;
 }
 
 static void put_names(cc_buf *b, char *const *names, int n)
@@ -384,7 +426,7 @@ static int next_seq(run *r)
 int cc_publish_run(cc_store *store, cc_ch *c, const cc_publish_opts *o, cc_publish_stats *st,
                    cc_error *err)
 {
-    run r = {store, c, o, st, err, {NULL, 0}, CC_BUF_INIT, NULL, 0, NULL};
+    run r = {store, c, o, st, err, {NULL, 0}, CC_BUF_INIT, NULL, 0, NULL, NULL, 0, 0};
     memset(st, 0, sizeof *st);
     if (!o->source || !cc_publish_source_ok(o->source))
         return cc_error_set(err, CC_EUSAGE,
@@ -431,6 +473,7 @@ done:
         cc_model_free(r.models.m[i]);
     free(r.models.m);
     cc_summary_free(r.sum);
+    cc_slice_list_free(r.slices, r.n_slices);
     cc_buf_free(&r.body);
     return rc;
 }

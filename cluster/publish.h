@@ -5,7 +5,8 @@
  * here are applied here, newest arrival first to last (see README, "Delayed
  * labels"); (2) the full summary vector of every (model, day) written since
  * the last run goes to the summaries table under this source's name and a
- * new sequence number, slice "" (the whole model); (3) event rows stored or
+ * new sequence number, slice "" (the whole model), and beside it the vector
+ * of each of the model's slices with events that day (cc_ch_slice_key); (3) event rows stored or
  * relabelled since then go to the events table; (4) only then the local
  * marks are cleared. Every insert is idempotent, so a run that fails at any
  * point is simply run again. A failed insert (a shard down, a timeout) is
@@ -34,7 +35,8 @@ typedef struct cc_publish_opts {
 
 typedef struct cc_publish_stats {
     int64_t seq;                /* the sequence number of this run */
-    int64_t days;               /* summary vectors sent */
+    int64_t days;               /* the models' summary vectors sent */
+    int64_t slice_days;         /* the slices' summary vectors sent */
     int64_t events;             /* event rows sent (new or relabelled) */
     int64_t labels_sent;        /* waiting labels sent for other hosts */
     int64_t labels_applied;     /* other hosts' labels applied here */

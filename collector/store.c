@@ -1526,4 +1526,5 @@ const cc_store_backend cc_sq_backend = {
     .slice_from_rows = cc_sq_slice_from_rows,
     .events_between = sq_events_between,
     .model_totals = cc_sq_model_totals,
+    .slice_add = cc_sq_slice_add,
 };

@@ -167,6 +167,8 @@ typedef struct cc_store_backend {
     /* A model's totals (store_catalog.h; pending_labels is filled by the
      * dispatch through pending_label_count). */
     int (*model_totals)(cc_store *s, const cc_model *m, cc_model_totals *out, cc_error *err);
+    int (*slice_add)(cc_store *s, const cc_model *m, int kind, const char *segment, int len,
+                     int64_t *slice, cc_error *err);
     /* (new ops go here, at the end) */
 } cc_store_backend;
 

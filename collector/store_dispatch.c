@@ -416,3 +416,10 @@ int cc_store_model_totals(cc_store *s, const cc_model *m, cc_model_totals *out, 
         out->pending_labels = cc_store_pending_label_count(s, m);
     return rc;
 }
+
+int cc_store_slice_add(cc_store *s, const cc_model *m, int kind, const char *segment, int len,
+                       int64_t *slice, cc_error *err)
+{
+    *slice = -1;
+    return CALL(s, slice_add, "add slices", 1, m, kind, segment, len, slice, err);
+}

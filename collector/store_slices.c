@@ -136,6 +136,16 @@ static int slice_get_or_add(cc_store *s, const cc_model *m, int kind, const char
     return rc;
 }
 
+int cc_sq_slice_add(cc_store *s, const cc_model *m, int kind, const char *segment, int len,
+                    int64_t *slice, cc_error *err)
+{
+    int rc = need_slices(s, err);
+    if (!rc && (kind < CC_SLICE_SEGMENT || kind > CC_SLICE_PRUNED))
+        rc = cc_error_set(err, CC_EUSAGE, "slice kind %d is unknown", kind);
+    return rc ? rc : slice_get_or_add(s, m, kind, kind == CC_SLICE_SEGMENT ? segment : NULL,
+                                      kind == CC_SLICE_SEGMENT ? len : 0, slice, err);
+}
+
 int cc_sq_slice_resolve(cc_store *s, const cc_model *m, const char *segment, int len,
                            int create, int64_t *slice, int *overflow, cc_error *err)
 {

@@ -67,6 +67,12 @@ int cc_store_slice_limit_set(cc_store *s, const cc_model *m, int limit, cc_error
 int cc_store_slice_resolve(cc_store *s, const cc_model *m, const char *segment, int len,
                            int create, int64_t *slice, int *overflow, cc_error *err);
 
+/* The slice of (kind, segment) (segment "" for a special kind), added when
+ * missing whatever the limit: for a copy of another store's slices
+ * (cluster/fetch.c). */
+int cc_store_slice_add(cc_store *s, const cc_model *m, int kind, const char *segment, int len,
+                       int64_t *slice, cc_error *err);
+
 /* The segment of a stored event: *found = 0 when absent; *segment is
  * malloc'd (caller frees), NULL when the event has none. */
 int cc_store_event_segment(cc_store *s, const cc_model *m, const char *id, int id_len,

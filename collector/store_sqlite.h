@@ -89,6 +89,8 @@ int cc_sq_slice_limit_get(cc_store *s, const cc_model *m, int *limit, cc_error *
 int cc_sq_slice_limit_set(cc_store *s, const cc_model *m, int limit, cc_error *err);
 int cc_sq_slice_resolve(cc_store *s, const cc_model *m, const char *segment, int len,
                         int create, int64_t *slice, int *overflow, cc_error *err);
+int cc_sq_slice_add(cc_store *s, const cc_model *m, int kind, const char *segment, int len,
+                    int64_t *slice, cc_error *err);
 int cc_sq_event_segment(cc_store *s, const cc_model *m, const char *id, int id_len,
                         int *found, char **segment, cc_error *err);
 int cc_sq_slice_list(cc_store *s, const cc_model *m, cc_slice **out, int *n, cc_error *err);

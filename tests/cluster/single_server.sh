@@ -88,7 +88,7 @@ fi
 count() { ch_query 1 "SELECT count() FROM concord.$1 FINAL"; }
 before="$(count summaries) $(count events)"
 "$C" publish --db "$T/h.db" --store "$U" --source host-1 > "$T/pub2.out"
-grep -q " 0 summary vectors, 0 event rows" "$T/pub2.out" || fail "second publish sent: $(cat "$T/pub2.out")"
+grep -q " 0 summary vectors (and 0 of slices), 0 event rows" "$T/pub2.out" || fail "second publish sent: $(cat "$T/pub2.out")"
 sqlite3 "$T/h.db" "DELETE FROM publish_state; INSERT OR IGNORE INTO publish_days(model_id, day) SELECT model_id, day FROM summaries;"
 "$C" publish --db "$T/h.db" --store "$U" --source host-1 > /dev/null
 "$C" publish --db "$T/h.db" --store "$U" --source host-1 > /dev/null
