@@ -14,6 +14,7 @@ struct cc_ch {
     char where[300];
     char *user, *password;
     CURL *curl;
+    long last_status;
 };
 
 void cc_buf_free(cc_buf *b)
@@ -232,6 +233,7 @@ void cc_ch_close(cc_ch *c)
 const char *cc_ch_database(const cc_ch *c) { return c->database; }
 const char *cc_ch_cluster(const cc_ch *c) { return c->cluster; }
 const char *cc_ch_where(const cc_ch *c) { return c->where; }
+long cc_ch_last_status(const cc_ch *c) { return c->last_status; }
 
 void cc_ch_quote(cc_buf *b, const char *s)
 {
@@ -319,6 +321,7 @@ int cc_ch_query(cc_ch *c, const char *sql, const cc_buf *body, cc_buf *out, cc_e
     curl_slist_free_all(hdr);
     long status = 0;
     curl_easy_getinfo(h, CURLINFO_RESPONSE_CODE, &status);
+    c->last_status = cr == CURLE_OK ? status : 0;
     if (answer.oom) {
         rc = cc_error_set(err, CC_ENOMEM, "ClickHouse %s: out of memory reading the answer",
                           c->where);

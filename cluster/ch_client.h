@@ -66,6 +66,9 @@ const char *cc_ch_where(const cc_ch *c);
  * "HTTP status: Code N: message". */
 int cc_ch_query(cc_ch *c, const char *sql, const cc_buf *body, cc_buf *out, cc_error *err);
 
+/* HTTP status of the last answer (0 when the server was not reached). */
+long cc_ch_last_status(const cc_ch *c);
+
 /* SQL string literal of s (quotes and backslashes escaped) appended to b,
  * NUL-terminated. */
 void cc_ch_quote(cc_buf *b, const char *s);

@@ -59,32 +59,52 @@ static int64_t mono_ms(void)
     return (int64_t)ts.tv_sec * 1000 + ts.tv_nsec / 1000000;
 }
 
-/* A query retried with a growing pause (0.5 s doubling to 30 s) until it
- * succeeds or retry_for_s has passed. Safe because every statement sent by
- * a publish is idempotent. */
-static int query_retrying(run *r, const char *what, const char *sql, const cc_buf *body,
-                          cc_buf *out)
+/* One attempt of a query (sql, body, out) or, with sql NULL, of the schema. */
+typedef struct attempt {
+    const char *sql;
+    const cc_buf *body;
+    cc_buf *out;
+} attempt;
+
+static int try_once(run *r, const attempt *a, cc_error *e)
+{
+    return a->sql ? cc_ch_query(r->ch, a->sql, a->body, a->out, e) : cc_ch_schema_create(r->ch, e);
+}
+
+/* An attempt retried with a growing pause (0.5 s doubling to 30 s) until
+ * it succeeds or retry_for_s has passed; a 4xx answer is not retried. Safe because every statement sent
+ * by a publish is idempotent. */
+static int retrying(run *r, const char *what, const attempt *a)
 {
     int64_t give_up = mono_ms() + (int64_t)r->o->retry_for_s * 1000;
     int pause = 500;
-    for (int attempt = 1;; attempt++) {
+    for (int n = 1;; n++) {
         cc_error e = CC_ERROR_INIT;
-        int rc = cc_ch_query(r->ch, sql, body, out, &e);
+        int rc = try_once(r, a, &e);
         if (!rc) {
-            if (body)
-                r->st->bytes += (int64_t)body->len;
+            if (a->body)
+                r->st->bytes += (int64_t)a->body->len;
             return 0;
         }
-        if (rc == -CC_ENOMEM || mono_ms() + pause > give_up) {
-            return cc_error_set(r->err, e.code, "%s (gave up after %d attempt%s): %s", what,
-                                attempt, attempt == 1 ? "" : "s", e.msg);
-        }
+        /* a 4xx answer (a bad query, an unknown table) will not change */
+        long status = cc_ch_last_status(r->ch);
+        if (rc == -CC_ENOMEM || rc == -CC_EUSAGE || (status >= 400 && status < 500) ||
+            mono_ms() + pause > give_up)
+            return cc_error_set(r->err, e.code, "%s (gave up after %d attempt%s): %s", what, n,
+                                n == 1 ? "" : "s", e.msg);
         if (r->o->on_retry)
-            r->o->on_retry(r->o->ctx, what, attempt, pause, &e);
+            r->o->on_retry(r->o->ctx, what, n, pause, &e);
         r->st->retries++;
         sleep_ms(pause);
         pause = pause >= 15000 ? 30000 : pause * 2;
     }
+}
+
+static int query_retrying(run *r, const char *what, const char *sql, const cc_buf *body,
+                          cc_buf *out)
+{
+    attempt a = {sql, body, out};
+    return retrying(r, what, &a);
 }
 
 static int model_of(run *r, const char *name, cc_model **out)
@@ -432,7 +452,8 @@ int cc_publish_run(cc_store *store, cc_ch *c, const cc_publish_opts *o, cc_publi
         return cc_error_set(err, CC_EUSAGE,
                             "source name '%s': use 1 to 64 letters, digits, '_', '-' or '.'",
                             o->source ? o->source : "");
-    int rc = cc_ch_schema_create(c, err);
+    attempt schema = {NULL, NULL, NULL};
+    int rc = retrying(&r, "creating the tables", &schema);
     if (rc)
         return rc;
     if ((rc = next_seq(&r)))
