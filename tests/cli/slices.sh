@@ -61,6 +61,9 @@ rc=0; "$C" report --db "$T/x.db" --model x --segment c 2> "$T/err" > /dev/null |
 [ $rc = 4 ] || fail "unknown segment: exit $rc, expected 4"
 grep -q "model 'x' has no segment 'c'; its slices: 'a', 'b', '(overflow)', '(none)'" "$T/err" ||
   fail "unknown segment message: $(cat "$T/err")"
+rc=0; "$C" report --db "$T/x.db" --model nope 2> "$T/err" > /dev/null || rc=$?
+[ $rc = 4 ] || fail "unknown model: exit $rc, expected 4"
+grep -q "no model named 'nope'; models: 'x'" "$T/err" || fail "unknown model message: $(cat "$T/err")"
 "$C" report --db "$T/x.db" --model x --segment '(overflow)' --by all --format json > "$T/o.json" ||
   fail "report --segment (overflow)"
 /usr/bin/python3 -c "import json,sys; d=json.load(open(sys.argv[1])); assert d['segment']=='(overflow)' and d['windows'][0]['events']==40, d['windows'][0]['events']" "$T/o.json" ||
