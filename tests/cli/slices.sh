@@ -80,5 +80,11 @@ grep -q warning "$T/err" && fail "a warning at the limit: $(cat "$T/err")"
 "$C" models --db "$T/y.db" > "$T/m.txt"
 grep -q "slices   2 (2 named, limit 2)" "$T/m.txt" || fail "models at the limit: $(cat "$T/m.txt")"
 grep -q overflow "$T/m.txt" && fail "an overflow slice at the limit"
+# duplicates (ids already stored) with a new segment make no slice and no overflow
+sed 's/"segment":"a"/"segment":"q"/' "$T/ab.jsonl" > "$T/dup.jsonl"
+"$C" ingest --db "$T/y.db" --model y "$T/dup.jsonl" 2> "$T/err" || fail "duplicates: $(cat "$T/err")"
+grep -q warning "$T/err" && fail "duplicates warned of overflow: $(cat "$T/err")"
+"$C" models --db "$T/y.db" > "$T/m.txt"
+grep -q "slices   2 (2 named, limit 2)" "$T/m.txt" || fail "duplicates changed the slices: $(cat "$T/m.txt")"
 
 [ $fails = 0 ] && echo "slices: ok" || { echo "slices: $fails failures"; exit 1; }
