@@ -588,8 +588,6 @@ static int take_event(cc_ingest *ing, const char *source, const cc_line *ln, cc_
 
     int64_t slice;
     int inserted, overflow;
-    if (slice_for(ing, ms, ev.segment, ev.segment_len, 1, &slice, &overflow, err))
-        return -1;
     if (cc_store_event_insert(ing->store, model, ev.id, ev.id_len, ev.ts, ev.segment,
                               ev.segment_len, pred, label, ms->probs, &inserted, err))
         return -1;
@@ -597,6 +595,9 @@ static int take_event(cc_ingest *ing, const char *source, const cc_line *ln, cc_
         ing->stats.duplicates++;
         return 0;
     }
+    /* a duplicate never makes a slice (nor takes a place under the limit) */
+    if (slice_for(ing, ms, ev.segment, ev.segment_len, 1, &slice, &overflow, err))
+        return -1;
     cc_summary *d = delta_for(ing, ms, cc_day_of_unix(ev.ts), slice, err);
     if (!d)
         return -1;

@@ -61,6 +61,9 @@ rc=0; "$C" report --db "$T/x.db" --model x --segment c 2> "$T/err" > /dev/null |
 [ $rc = 4 ] || fail "unknown segment: exit $rc, expected 4"
 grep -q "model 'x' has no segment 'c'; its slices: 'a', 'b', '(overflow)', '(none)'" "$T/err" ||
   fail "unknown segment message: $(cat "$T/err")"
+rc=0; "$C" report --db "$T/x.db" --model nope 2> "$T/err" > /dev/null || rc=$?
+[ $rc = 4 ] || fail "unknown model: exit $rc, expected 4"
+grep -q "no model named 'nope'; models: 'x'" "$T/err" || fail "unknown model message: $(cat "$T/err")"
 "$C" report --db "$T/x.db" --model x --segment '(overflow)' --by all --format json > "$T/o.json" ||
   fail "report --segment (overflow)"
 /usr/bin/python3 -c "import json,sys; d=json.load(open(sys.argv[1])); assert d['segment']=='(overflow)' and d['windows'][0]['events']==40, d['windows'][0]['events']" "$T/o.json" ||
@@ -77,5 +80,11 @@ grep -q warning "$T/err" && fail "a warning at the limit: $(cat "$T/err")"
 "$C" models --db "$T/y.db" > "$T/m.txt"
 grep -q "slices   2 (2 named, limit 2)" "$T/m.txt" || fail "models at the limit: $(cat "$T/m.txt")"
 grep -q overflow "$T/m.txt" && fail "an overflow slice at the limit"
+# duplicates (ids already stored) with a new segment make no slice and no overflow
+sed 's/"segment":"a"/"segment":"q"/' "$T/ab.jsonl" > "$T/dup.jsonl"
+"$C" ingest --db "$T/y.db" --model y "$T/dup.jsonl" 2> "$T/err" || fail "duplicates: $(cat "$T/err")"
+grep -q warning "$T/err" && fail "duplicates warned of overflow: $(cat "$T/err")"
+"$C" models --db "$T/y.db" > "$T/m.txt"
+grep -q "slices   2 (2 named, limit 2)" "$T/m.txt" || fail "duplicates changed the slices: $(cat "$T/m.txt")"
 
 [ $fails = 0 ] && echo "slices: ok" || { echo "slices: $fails failures"; exit 1; }
