@@ -54,8 +54,14 @@ static cc_ks ks_of(const int64_t *a, const int64_t *b)
  * posterior is the baseline's label distribution in that cell (histogram
  * binning, Zadrozny & Elkan 2001), shrunk toward the cell's mean averaged
  * output with EM_PRIOR_WEIGHT pseudo-events. Cells the baseline never saw
- * keep their own mean averaged output. Each cell weighs its window count. */
+ * keep their own mean averaged output. Each cell weighs its window count.
+ * SQUAREM-accelerated, and stopped when three steps raise the log-likelihood
+ * by less than EM_LL_TOL per event: plain EM hit its 2,000-step cap in most
+ * windows at 64 x 256 (5,000 events over 28 days) and took most of a by-day
+ * report's time. On seven such windows the answers lie within 2e-4 (L1) of
+ * 100,000 plain steps, closer than 2,000 plain steps came (5e-4). */
 #define EM_PRIOR_WEIGHT 5.0
+#define EM_LL_TOL 1e-11
 
 static int em_from_cells(cc_comparison *out, const cc_layout *L, const int64_t *v,
                          const int64_t *bv, const double *source_priors)
@@ -89,7 +95,8 @@ static int em_from_cells(cc_comparison *out, const cc_layout *L, const int64_t *
         wt[n++] = (double)cell[0];
     }
     cc_em em = {out->em, 0, 0, 0};
-    if (n > 0 && cc_em_estimate(&em, post, wt, n, k, source_priors, 1e-10, 2000) != 0)
+    if (n > 0 && cc_em_estimate_squarem(&em, post, wt, n, k, source_priors, 1e-10, EM_LL_TOL,
+                                        2000) != 0)
         rc = -1;
     out->em_iterations = em.iterations;
     out->em_converged = em.converged;
