@@ -107,7 +107,45 @@ done:
     return rc;
 }
 
+struct cc_comparison_cache {
+    const cc_summary *baseline; /* what the plan was made from, checked on use */
+    cc_bbse_plan *bbse;
+};
+
+int cc_comparison_cache_create(cc_comparison_cache **out, const cc_summary *b)
+{
+    *out = NULL;
+    if (!b)
+        return 0;
+    const cc_layout *BL = cc_summary_layout(b);
+    const int64_t *bv = cc_summary_data(b);
+    if (bv[BL->n_labeled] < CC_DRIFT_MIN_EVENTS)
+        return 0;
+    cc_comparison_cache *c = calloc(1, sizeof *c);
+    if (!c || cc_bbse_plan_create(&c->bbse, bv + BL->confusion, BL->k) != 0) {
+        free(c);
+        return -1;
+    }
+    c->baseline = b;
+    *out = c;
+    return 0;
+}
+
+void cc_comparison_cache_free(cc_comparison_cache *c)
+{
+    if (!c)
+        return;
+    cc_bbse_plan_free(c->bbse);
+    free(c);
+}
+
 int cc_comparison_compute(cc_comparison *out, const cc_summary *w, const cc_summary *b)
+{
+    return cc_comparison_compute_cached(out, w, b, NULL);
+}
+
+int cc_comparison_compute_cached(cc_comparison *out, const cc_summary *w, const cc_summary *b,
+                                 const cc_comparison_cache *cache)
 {
     const cc_layout *L = cc_summary_layout(w);
     const int64_t *v = cc_summary_data(w);
@@ -193,7 +231,10 @@ int cc_comparison_compute(cc_comparison *out, const cc_summary *w, const cc_summ
             source[c] = (double)bv[BL->label_counts + c] / (double)base_labeled;
     if (base_labeled >= CC_DRIFT_MIN_EVENTS && events > 0) {
         cc_bbse bb = {out->bbse, NAN, 0, 0, 0};
-        if (cc_bbse_estimate(&bb, bv + BL->confusion, v + L->pred_counts, k) != 0) {
+        const int brc = cache && cache->baseline == b && cache->bbse
+                            ? cc_bbse_plan_apply(cache->bbse, &bb, v + L->pred_counts)
+                            : cc_bbse_estimate(&bb, bv + BL->confusion, v + L->pred_counts, k);
+        if (brc != 0) {
             cc_comparison_free(out);
             return -1;
         }

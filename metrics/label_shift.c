@@ -40,72 +40,126 @@ static void fill_nan(double *x, int n)
  * squares, the other usual remedy, which gives slightly different values
  * (METHODS.md section 5, computed: [0, 0.678241, 0.321759] clipped vs
  * [0, 0.678910, 0.321090] by scipy's NNLS on the same counts). */
-int cc_bbse_estimate(cc_bbse *out, const int64_t *confusion, const int64_t *target_pred, int k)
+struct cc_bbse_plan {
+    int k, m;         /* classes; classes seen as labels in the source */
+    int *col;         /* m: their indices */
+    double *u, *s, *v; /* SVD of the K x m joint confusion: U (k x m), s (m), V (m x m) */
+    double *p;        /* m: source label fractions of the kept classes */
+    double condition_number;
+};
+
+void cc_bbse_plan_free(cc_bbse_plan *plan)
 {
-    out->condition_number = NAN;
-    out->regularized = out->clipped = out->ok = 0;
-    if (k <= 0)
-        return 0;
-    fill_nan(out->priors, k);
-    if (!confusion || !target_pred)
-        return 0;
+    if (!plan)
+        return;
+    free(plan->col);
+    free(plan->u);
+    free(plan);
+}
 
-    int64_t n_source = 0, n_target = 0;
-    for (int i = 0; i < k; i++) {
-        if (target_pred[i] < 0)
+int cc_bbse_plan_create(cc_bbse_plan **out, const int64_t *confusion, int k)
+{
+    *out = NULL;
+    if (k <= 0 || !confusion)
+        return 0;
+    int64_t n_source = 0;
+    for (size_t i = 0; i < (size_t)k * (size_t)k; i++) {
+        if (confusion[i] < 0)
             return 0;
-        n_target += target_pred[i];
-        for (int j = 0; j < k; j++) {
-            if (confusion[(size_t)i * k + j] < 0)
-                return 0;
-            n_source += confusion[(size_t)i * k + j];
-        }
+        n_source += confusion[i];
     }
-    if (n_source <= 0 || n_target <= 0)
+    if (n_source <= 0)
         return 0;
 
+    cc_bbse_plan *P = calloc(1, sizeof *P);
+    if (!P || !(P->col = malloc(sizeof(int) * (size_t)k))) {
+        free(P);
+        return -1;
+    }
     /* columns kept: classes seen as labels in the source */
     int m = 0;
-    int *col = malloc(sizeof(int) * (size_t)k);
-    if (!col)
-        return -1;
     for (int j = 0; j < k; j++) {
         int64_t s = 0;
         for (int i = 0; i < k; i++)
             s += confusion[(size_t)i * k + j];
         if (s > 0)
-            col[m++] = j;
+            P->col[m++] = j;
     }
+    P->k = k;
+    P->m = m;
 
-    /* A: k x m (becomes U), V: m x m, s, work, w: m, mu: k */
+    /* U: k x m (A, overwritten), V: m x m, s, work, p: m */
     const size_t K = (size_t)k, M = (size_t)m;
-    double *buf = malloc(sizeof(double) * (K * M + M * M + 3 * M + K));
-    if (!buf) {
-        free(col);
+    if (!(P->u = malloc(sizeof(double) * (K * M + M * M + 3 * M)))) {
+        cc_bbse_plan_free(P);
         return -1;
     }
-    double *a = buf, *v = a + K * M, *s = v + M * M, *work = s + M, *w = work + M, *mu = w + M;
-    const double ns = (double)n_source, nt = (double)n_target;
-    for (size_t i = 0; i < K; i++) {
-        mu[i] = (double)target_pred[i] / nt;
+    double *a = P->u, *work;
+    P->v = a + K * M;
+    P->s = P->v + M * M;
+    work = P->s + M;
+    P->p = work + M;
+    const double ns = (double)n_source;
+    for (size_t i = 0; i < K; i++)
         for (size_t c = 0; c < M; c++)
-            a[i * M + c] = (double)confusion[i * K + (size_t)col[c]] / ns;
+            a[i * M + c] = (double)confusion[i * K + (size_t)P->col[c]] / ns;
+    for (size_t c = 0; c < M; c++) {
+        double p = 0.0;
+        for (size_t i = 0; i < K; i++)
+            p += (double)confusion[i * K + (size_t)P->col[c]];
+        P->p[c] = p / ns;
     }
 
     gsl_matrix_view av = gsl_matrix_view_array(a, K, M);
-    gsl_matrix_view vv = gsl_matrix_view_array(v, M, M);
-    gsl_vector_view sv = gsl_vector_view_array(s, M);
+    gsl_matrix_view vv = gsl_matrix_view_array(P->v, M, M);
+    gsl_vector_view sv = gsl_vector_view_array(P->s, M);
     gsl_vector_view wv = gsl_vector_view_array(work, M);
     gsl_linalg_SV_decomp(&av.matrix, &vv.matrix, &sv.vector, &wv.vector);
 
     double smax = 0.0, smin = INFINITY;
     for (size_t l = 0; l < M; l++) {
-        smax = fmax(smax, s[l]);
-        smin = fmin(smin, s[l]);
+        smax = fmax(smax, P->s[l]);
+        smin = fmin(smin, P->s[l]);
     }
-    out->condition_number = smin > 0.0 ? smax / smin : INFINITY;
+    P->condition_number = smin > 0.0 ? smax / smin : INFINITY;
+    *out = P;
+    return 0;
+}
+
+int cc_bbse_plan_apply(const cc_bbse_plan *plan, cc_bbse *out, const int64_t *target_pred)
+{
+    out->condition_number = NAN;
+    out->regularized = out->clipped = out->ok = 0;
+    if (!plan)
+        return 0;
+    const int k = plan->k;
+    fill_nan(out->priors, k);
+    if (!target_pred)
+        return 0;
+    int64_t n_target = 0;
+    for (int i = 0; i < k; i++) {
+        if (target_pred[i] < 0)
+            return 0;
+        n_target += target_pred[i];
+    }
+    if (n_target <= 0)
+        return 0;
+
+    const size_t K = (size_t)k, M = (size_t)plan->m;
+    double *buf = malloc(sizeof(double) * (M + K));
+    if (!buf)
+        return -1;
+    double *w = buf, *mu = w + M;
+    const double *a = plan->u, *v = plan->v, *s = plan->s;
+    const double nt = (double)n_target;
+    for (size_t i = 0; i < K; i++)
+        mu[i] = (double)target_pred[i] / nt;
+    out->condition_number = plan->condition_number;
 
     /* truncated pseudo-inverse: w = V S+ U^T mu */
+    double smax = 0.0;
+    for (size_t l = 0; l < M; l++)
+        smax = fmax(smax, s[l]);
     const double floor_s = smax / CC_BBSE_MAX_COND;
     for (size_t c = 0; c < M; c++)
         w[c] = 0.0;
@@ -125,10 +179,7 @@ int cc_bbse_estimate(cc_bbse *out, const int64_t *confusion, const int64_t *targ
     /* q_j = w_j p_j, clipped at 0, renormalised */
     double total = 0.0;
     for (size_t c = 0; c < M; c++) {
-        double p = 0.0;
-        for (size_t i = 0; i < K; i++)
-            p += (double)confusion[i * K + (size_t)col[c]];
-        double q = w[c] * (p / ns);
+        double q = w[c] * plan->p[c];
         if (q < 0.0) {
             q = 0.0;
             out->clipped = 1;
@@ -140,12 +191,31 @@ int cc_bbse_estimate(cc_bbse *out, const int64_t *confusion, const int64_t *targ
         for (int j = 0; j < k; j++)
             out->priors[j] = 0.0;
         for (size_t c = 0; c < M; c++)
-            out->priors[col[c]] = w[c] / total;
+            out->priors[plan->col[c]] = w[c] / total;
         out->ok = 1;
     }
     free(buf);
-    free(col);
     return 0;
+}
+
+int cc_bbse_estimate(cc_bbse *out, const int64_t *confusion, const int64_t *target_pred, int k)
+{
+    out->condition_number = NAN;
+    out->regularized = out->clipped = out->ok = 0;
+    if (k <= 0)
+        return 0;
+    fill_nan(out->priors, k);
+    if (!confusion || !target_pred)
+        return 0;
+    for (int i = 0; i < k; i++)
+        if (target_pred[i] < 0)
+            return 0;
+    cc_bbse_plan *plan;
+    if (cc_bbse_plan_create(&plan, confusion, k) != 0)
+        return -1;
+    const int rc = cc_bbse_plan_apply(plan, out, target_pred);
+    cc_bbse_plan_free(plan);
+    return rc;
 }
 
 /* Weight of row r: 1 without weights; rows with weight <= 0 or NaN are left out. */

@@ -25,6 +25,17 @@ typedef struct cc_bbse {
  * out->priors must hold k doubles. Returns 0, -1 on out of memory. */
 int cc_bbse_estimate(cc_bbse *out, const int64_t *confusion, const int64_t *target_pred, int k);
 
+/* The same estimate in two halves, for many targets against one source: the
+ * plan holds the SVD of the source's confusion (the costly half, O(k^3)),
+ * apply solves for one target (O(k^2)); the results equal cc_bbse_estimate's
+ * bit for bit. create sets *out to NULL (and returns 0) when the confusion
+ * cannot be used (no counts, a negative count); apply with a NULL plan gives
+ * ok = 0. Both return 0, or -1 on out of memory. */
+typedef struct cc_bbse_plan cc_bbse_plan;
+int cc_bbse_plan_create(cc_bbse_plan **out, const int64_t *confusion, int k);
+int cc_bbse_plan_apply(const cc_bbse_plan *plan, cc_bbse *out, const int64_t *target_pred);
+void cc_bbse_plan_free(cc_bbse_plan *plan);
+
 typedef struct cc_em {
     double *priors;     /* k, caller-sized */
     int iterations;

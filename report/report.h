@@ -47,6 +47,7 @@ typedef struct cc_report {
     cc_report_window *windows;  /* cc_report_build only; none when streamed */
     int n_windows, cap_windows;
     cc_summary *range;          /* cc_report_build only: all windows merged */
+    cc_comparison_cache *cmp_cache; /* shared by the comparisons with baseline; NULL without */
 } cc_report;
 
 /* Builds the report with every window's figures kept (summaries are not:

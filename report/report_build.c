@@ -33,6 +33,7 @@ void cc_report_free(cc_report *r)
     free(r->windows);
     free(r->stats);
     cc_summary_free(r->baseline);
+    cc_comparison_cache_free(r->cmp_cache);
     cc_summary_free(r->range);
     cc_model_free(r->model);
     free(r);
@@ -67,6 +68,10 @@ static int load_baseline(cc_report *r, cc_store *store, cc_summary *day_sum, cc_
             goto done;
         cc_summary_merge(r->baseline, day_sum);
     }
+    if (cc_comparison_cache_create(&r->cmp_cache, r->baseline) != 0) {
+        rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+        goto done;
+    }
     const cc_layout *L = cc_summary_layout(r->baseline);
     r->baseline_events = cc_summary_data(r->baseline)[L->n_events];
     r->baseline_labeled = cc_summary_data(r->baseline)[L->n_labeled];
@@ -77,7 +82,7 @@ static int load_baseline(cc_report *r, cc_store *store, cc_summary *day_sum, cc_
         if ((rc = cc_store_summary_get(store, m, days[i], day_sum, err)))
             goto done;
         if (cc_window_metrics_compute(&wm, day_sum) ||
-            cc_comparison_compute(&cmp, day_sum, r->baseline)) {
+            cc_comparison_compute_cached(&cmp, day_sum, r->baseline, r->cmp_cache)) {
             cc_window_metrics_free(&wm);
             rc = cc_error_set(err, CC_ENOMEM, "out of memory");
             goto done;
@@ -125,7 +130,7 @@ static int finish_window(cc_report *r, cc_report_window *w, cc_summary *sum, dou
     const int64_t *v = cc_summary_data(sum);
     const size_t k = (size_t)L->k;
     if (cc_window_metrics_compute(&w->metrics, sum) ||
-        cc_comparison_compute(&w->cmp, sum, r->baseline) ||
+        cc_comparison_compute_cached(&w->cmp, sum, r->baseline, r->cmp_cache) ||
         !(w->counts = malloc((2 + k) * k * sizeof *w->counts)) || score_window(r, w, level))
         return cc_error_set(err, CC_ENOMEM, "out of memory");
     memcpy(w->counts, v + L->pred_counts, k * sizeof *w->counts);

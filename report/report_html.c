@@ -128,7 +128,8 @@ static int whole_build(whole *w, const cc_report *r)
     w->sum = r->range;
     if (cc_window_metrics_compute(&w->wm, w->sum))
         return -1;
-    if (cc_comparison_compute(&w->cmp, w->sum, r->has_baseline ? r->baseline : NULL)) {
+    if (cc_comparison_compute_cached(&w->cmp, w->sum, r->has_baseline ? r->baseline : NULL,
+                                     r->cmp_cache)) {
         cc_window_metrics_free(&w->wm);
         return -1;
     }
