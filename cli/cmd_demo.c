@@ -159,7 +159,7 @@ int cmd_demo(int argc, char **argv)
     if ((rc = cli_demo_alerts(store, dir, dopts.first_day, dopts.days)) != EXIT_OK)
         goto done;
     /* the page last, so its status line shows the rules still raised */
-    if ((rc = cli_report_html(store, rep, 1,
+    if ((rc = cli_report_html(store, rep, CLI_REVIEW_MAX_DEFAULT,
                               "Invented data from concord demo: an imaginary apple packhouse, "
                               "not real measurements.",
                               &page)) != EXIT_OK)

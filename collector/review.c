@@ -362,11 +362,13 @@ static int is_pair(const cc_event_view *v, int a, int b)
     return (v->ens == a && v->second == b) || (v->ens == b && v->second == a);
 }
 
-/* The scan: every event of the range through events_by_time. */
+/* The scan: every event of the range through events_by_time (or one in
+ * sample_every of them, chosen by rowid, which the index entries carry, so
+ * the rows left out are not read). */
 static const char scan_sql[] =
     "SELECT id, ts, label, probs FROM events "
     "WHERE model_id = ?1 AND day BETWEEN ?2 AND ?3 AND ts BETWEEN ?4 AND ?5 "
-    "AND (?6 IS NULL OR segment = ?6)";
+    "AND (?6 IS NULL OR segment = ?6) AND (?7 <= 1 OR rowid % ?7 = 0)";
 
 typedef struct scan_state {
     heap plain[CC_REVIEW_KINDS];   /* lists that do not depend on the best member */
@@ -393,6 +395,7 @@ static int scan(cc_review *rv, cc_store *s, const cc_model *m, scan_state *st, c
     sqlite3_bind_int64(q, 5, o->to);
     if (o->segment)
         sqlite3_bind_text(q, 6, o->segment, -1, SQLITE_STATIC);
+    sqlite3_bind_int64(q, 7, o->sample_every);
     const int need_mi = wants(o, CC_REVIEW_TOP_MI);
     cc_event_view v;
     while (!rc && (step = sqlite3_step(q)) == SQLITE_ROW) {

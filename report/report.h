@@ -136,9 +136,10 @@ typedef struct cc_html_extras {
     double band_k;              /* band = baseline mean +- band_k sd of its days */
     const char *note;           /* a line under the title, or NULL */
     const cc_report_timeline *timeline; /* rules evaluated over the range, or NULL */
+    int64_t review_range_events; /* events of the range, said when the review read a sample */
 } cc_html_extras;
 
-#define CC_HTML_EXTRAS_INIT {NULL, 0, NULL, 0, 3.0, NULL, NULL}
+#define CC_HTML_EXTRAS_INIT {NULL, 0, NULL, 0, 3.0, NULL, NULL, 0}
 
 /* One self-contained HTML page (inline CSS and SVG, no script); extras may
  * be NULL. Strings from the logs are escaped. */
