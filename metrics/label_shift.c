@@ -359,9 +359,15 @@ static double sq_step(double *next, double *loglik, double *ratio, double *acc,
     double used = 0.0, ll = 0.0;
     for (int r = 0; r < P->n; r++) {
         const double *row = P->rows + (size_t)r * (size_t)k;
-        double denom = 0.0;
-        for (int j = 0; j < k; j++)
-            denom += ratio[j] * row[j];
+        /* four partial sums: independent additions the CPU can overlap */
+        double d4[4] = {0.0, 0.0, 0.0, 0.0};
+        int c = 0;
+        for (; c + 4 <= k; c += 4)
+            for (int t = 0; t < 4; t++)
+                d4[t] += ratio[c + t] * row[c + t];
+        for (; c < k; c++)
+            d4[0] += ratio[c] * row[c];
+        const double denom = (d4[0] + d4[1]) + (d4[2] + d4[3]);
         if (!(denom > 0.0) || !isfinite(denom))
             continue;
         const double scale = P->u[r] / denom;
