@@ -270,6 +270,28 @@ static double em_step(double *next, double *ratio, const double *q, const double
     return used;
 }
 
+/* The start both EM estimators share: clears out, fills its priors with NAN,
+ * and returns 1 when there is something to estimate, with *psum the sum of
+ * the usable source priors (> 0, finite) and *kept how many there are. */
+static int em_begin(cc_em *out, const double *posteriors, int n, int k,
+                    const double *source_priors, double *psum, int *kept)
+{
+    out->iterations = out->converged = out->ok = 0;
+    if (k <= 0)
+        return 0;
+    fill_nan(out->priors, k);
+    if (n <= 0 || !posteriors || !source_priors)
+        return 0;
+    *psum = 0.0;
+    *kept = 0;
+    for (int j = 0; j < k; j++)
+        if (source_priors[j] > 0.0 && isfinite(source_priors[j])) {
+            *psum += source_priors[j];
+            (*kept)++;
+        }
+    return *psum > 0.0 && isfinite(*psum);
+}
+
 /* EM prior adjustment (Saerens, Latinne & Decaestecker 2002). Starting at
  * q = p (source priors, renormalised over the classes with p_j > 0), each
  * step cannot lower the log-likelihood sum_r u_r ln sum_j (q_j/p_j) s_rj;
@@ -280,18 +302,9 @@ static double em_step(double *next, double *ratio, const double *q, const double
 int cc_em_estimate(cc_em *out, const double *posteriors, const double *weights, int n, int k,
                    const double *source_priors, double tol, int max_iter)
 {
-    out->iterations = out->converged = out->ok = 0;
-    if (k <= 0)
-        return 0;
-    fill_nan(out->priors, k);
-    if (n <= 0 || !posteriors || !source_priors)
-        return 0;
-
-    double psum = 0.0;
-    for (int j = 0; j < k; j++)
-        if (source_priors[j] > 0.0 && isfinite(source_priors[j]))
-            psum += source_priors[j];
-    if (!(psum > 0.0) || !isfinite(psum))
+    double psum;
+    int kept;
+    if (!em_begin(out, posteriors, n, k, source_priors, &psum, &kept))
         return 0;
 
     double *buf = malloc(sizeof(double) * (size_t)k * 4);
@@ -506,21 +519,9 @@ int cc_em_estimate_squarem(cc_em *out, const double *posteriors, const double *w
                            int k, const double *source_priors, double tol, double ll_tol,
                            int max_iter)
 {
-    out->iterations = out->converged = out->ok = 0;
-    if (k <= 0)
-        return 0;
-    fill_nan(out->priors, k);
-    if (n <= 0 || !posteriors || !source_priors)
-        return 0;
-
-    double psum = 0.0;
-    int kk = 0, nn = 0;
-    for (int j = 0; j < k; j++)
-        if (source_priors[j] > 0.0 && isfinite(source_priors[j])) {
-            psum += source_priors[j];
-            kk++;
-        }
-    if (!(psum > 0.0) || !isfinite(psum))
+    double psum;
+    int kk, nn = 0;
+    if (!em_begin(out, posteriors, n, k, source_priors, &psum, &kk))
         return 0;
     for (int r = 0; r < n; r++)
         nn += row_weight(weights, r) > 0.0;
