@@ -1,0 +1,110 @@
+"""Shared pieces of the client's tests: the concord binary, a scripted HTTP
+server on loopback, invented events."""
+
+import gzip
+import http.server
+import json
+import os
+import random
+import subprocess
+import threading
+import unittest
+
+HANG_GUARD = 300.0   # seconds; a wait that long means something hung
+
+
+def concord_bin():
+    """Path of the built concord binary ($CONCORD_BIN, set by CTest), or skip."""
+    path = os.environ.get("CONCORD_BIN")
+    if not path or not os.access(path, os.X_OK):
+        raise unittest.SkipTest("CONCORD_BIN is not set to the concord binary (CTest sets it)")
+    return path
+
+
+def run_concord(*args, check=True, **kw):
+    """Runs concord with a hang guard; returns the CompletedProcess."""
+    proc = subprocess.run([concord_bin()] + [str(a) for a in args], capture_output=True,
+                          timeout=HANG_GUARD, **kw)
+    if check and proc.returncode != 0:
+        raise AssertionError("concord %s: exit %d\n%s" % (" ".join(map(str, args)),
+                                                          proc.returncode,
+                                                          proc.stderr.decode(errors="replace")))
+    return proc
+
+
+def invented_events(n, members=3, classes=4, seed=1, day0=1764547200, label_every=3):
+    """n invented events (id, probs, ts, label) spread over three UTC days from
+    2025-12-01; probabilities are normalised random rows (not real data)."""
+    rng = random.Random(seed)
+    out = []
+    for i in range(n):
+        truth = rng.randrange(classes)
+        probs = []
+        for _ in range(members):
+            row = [rng.random() + (2.0 if c == truth else 0.0) for c in range(classes)]
+            s = sum(row)
+            probs.append([round(v / s, 6) for v in row])
+            probs[-1][-1] = round(1.0 - sum(probs[-1][:-1]), 6)
+        ts = day0 + (i * 3 * 86400) // n
+        label = truth if i % label_every == 0 else None
+        out.append(("ev-%05d" % i, probs, ts, label))
+    return out
+
+
+class Recorder(http.server.BaseHTTPRequestHandler):
+    """Answers each POST from the server's script; records method, path,
+    headers and the decoded body."""
+
+    protocol_version = "HTTP/1.1"
+
+    def log_message(self, *args):
+        pass
+
+    def do_POST(self):
+        length = int(self.headers.get("Content-Length", "0"))
+        raw = self.rfile.read(length)
+        body = gzip.decompress(raw) if self.headers.get("Content-Encoding") == "gzip" else raw
+        srv = self.server
+        with srv.lock:
+            srv.requests.append({"path": self.path, "headers": dict(self.headers),
+                                 "raw": raw, "body": body})
+            step = srv.script.pop(0) if srv.script else (200, {}, None)
+        status, headers, answer = step
+        if answer is None:
+            lines = body.count(b"\n")
+            answer = {"accepted": lines, "duplicates": 0, "rejected": 0, "labels_set": 0,
+                      "labels_pending": 0, "rejects": [], "rejects_truncated": False,
+                      "committed": True}
+        data = json.dumps(answer).encode()
+        self.send_response(status)
+        for k, v in headers.items():
+            self.send_header(k, v)
+        self.send_header("Content-Type", "application/json")
+        self.send_header("Content-Length", str(len(data)))
+        self.end_headers()
+        self.wfile.write(data)
+
+
+class ScriptedServer:
+    """An HTTP server on 127.0.0.1 (free port) in a thread. `script` is a list of
+    (status, headers, body-dict or None) answers taken in order; after it,
+    every request gets 200 with all lines accepted."""
+
+    def __init__(self, script=()):
+        self.httpd = http.server.ThreadingHTTPServer(("127.0.0.1", 0), Recorder)
+        self.httpd.daemon_threads = True
+        self.httpd.lock = threading.Lock()
+        self.httpd.requests = []
+        self.httpd.script = list(script)
+        self.url = "http://127.0.0.1:%d" % self.httpd.server_address[1]
+        self.thread = threading.Thread(target=self.httpd.serve_forever, daemon=True)
+        self.thread.start()
+
+    @property
+    def requests(self):
+        with self.httpd.lock:
+            return list(self.httpd.requests)
+
+    def stop(self):
+        self.httpd.shutdown()
+        self.httpd.server_close()
