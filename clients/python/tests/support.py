@@ -21,8 +21,18 @@ def concord_bin():
     return path
 
 
+# a fixed clock for ingest, label and follow (README: CONCORD_NOW), so that
+# label delays are the same in databases filled at different moments
+CONCORD_NOW = "1764892800"      # 2025-12-05T00:00:00Z, after the invented events
+
+
+def concord_env():
+    return dict(os.environ, CONCORD_NOW=CONCORD_NOW)
+
+
 def run_concord(*args, check=True, **kw):
-    """Runs concord with a hang guard; returns the CompletedProcess."""
+    """Runs concord with a hang guard and the fixed clock; returns the CompletedProcess."""
+    kw.setdefault("env", concord_env())
     proc = subprocess.run([concord_bin()] + [str(a) for a in args], capture_output=True,
                           timeout=HANG_GUARD, **kw)
     if check and proc.returncode != 0:
