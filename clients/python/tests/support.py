@@ -70,6 +70,19 @@ class Recorder(http.server.BaseHTTPRequestHandler):
     def log_message(self, *args):
         pass
 
+    def do_GET(self):
+        srv = self.server
+        with srv.lock:
+            srv.requests.append({"path": self.path, "headers": dict(self.headers),
+                                 "raw": b"", "body": b""})
+            status, headers, data = srv.get_answer
+        self.send_response(status)
+        for k, v in headers.items():
+            self.send_header(k, v)
+        self.send_header("Content-Length", str(len(data)))
+        self.end_headers()
+        self.wfile.write(data)
+
     def do_POST(self):
         length = int(self.headers.get("Content-Length", "0"))
         raw = self.rfile.read(length)
@@ -98,7 +111,8 @@ class Recorder(http.server.BaseHTTPRequestHandler):
 class ScriptedServer:
     """An HTTP server on 127.0.0.1 (free port) in a thread. `script` is a list of
     (status, headers, body-dict or None) answers taken in order; after it,
-    every request gets 200 with all lines accepted."""
+    every request gets 200 with all lines accepted. A GET is answered with
+    get_answer: (status, headers, bytes)."""
 
     def __init__(self, script=()):
         self.httpd = http.server.ThreadingHTTPServer(("127.0.0.1", 0), Recorder)
@@ -106,6 +120,7 @@ class ScriptedServer:
         self.httpd.lock = threading.Lock()
         self.httpd.requests = []
         self.httpd.script = list(script)
+        self.httpd.get_answer = (404, {}, b'{"error":{"status":404,"message":"no such path"}}')
         self.url = "http://127.0.0.1:%d" % self.httpd.server_address[1]
         self.thread = threading.Thread(target=self.httpd.serve_forever, daemon=True)
         self.thread.start()
@@ -114,6 +129,10 @@ class ScriptedServer:
     def requests(self):
         with self.httpd.lock:
             return list(self.httpd.requests)
+
+    def answer_get(self, status, headers, data):
+        with self.httpd.lock:
+            self.httpd.get_answer = (status, headers, data)
 
     def stop(self):
         self.httpd.shutdown()
