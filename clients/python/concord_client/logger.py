@@ -65,6 +65,7 @@ class Logger:
         self._queue = collections.deque()   # (seq, kind, line)
         self._seq = 0
         self._inflight_first = None         # seq of the first line being sent
+        self._inflight_n = 0
         self._flush_upto = 0                # send at once everything up to this seq
         self._closing = False
         self._closed = False
@@ -158,18 +159,24 @@ class Logger:
         with self._cv:
             if self._closed:
                 return True
+        deadline = None if timeout is None else time.monotonic() + timeout
         done = self.flush(timeout)
         with self._cv:
             self._closing = True
             self._cv.notify_all()
         self._stop.set()
-        self._thread.join()
+        # a request in progress can outlast the deadline (up to the sink's own
+        # timeout); close() leaves it to the daemon thread rather than wait
+        self._thread.join(None if deadline is None else max(1.0, deadline - time.monotonic()))
         with self._cv:
             self._closed = True
             left = len(self._queue)
+            if self._thread.is_alive() and self._inflight_first is not None:
+                left += self._inflight_n
             self._stats["unsent_at_close"] += left
             self._queue.clear()
-        self.sink.close()
+        if not self._thread.is_alive():
+            self.sink.close()
         atexit.unregister(self._at_exit)
         if left:
             _log.warning("concord logger closed with %d lines unsent (%s)", left,
@@ -220,6 +227,7 @@ class Logger:
                 while self._queue and len(batch) < self.batch_size and self._queue[0][1] == kind:
                     batch.append(self._queue.popleft())
                 self._inflight_first = batch[0][0]
+                self._inflight_n = len(batch)
             try:
                 self._deliver(kind, [b[2] for b in batch])
             except Exception as e:          # a sink's bug must not kill the thread
