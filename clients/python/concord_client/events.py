@@ -70,6 +70,29 @@ def _rows(probs):
     return rows
 
 
+def _matrix(values, what, shape):
+    """Rows of finite floats, 1..64 members, 2..256 classes, all rows alike,
+    and the logger's shape when it has one."""
+    rows = _rows(values)
+    m = len(rows)
+    if not 1 <= m <= MAX_MEMBERS:
+        raise ValueError("%s has %d members' rows; 1..%d allowed" % (what, m, MAX_MEMBERS))
+    k = len(rows[0])
+    if not MIN_CLASSES <= k <= MAX_CLASSES:
+        raise ValueError("%s has %d classes; %d..%d allowed" % (what, k, MIN_CLASSES, MAX_CLASSES))
+    for i, row in enumerate(rows):
+        if len(row) != k:
+            raise ValueError("%s[%d] has %d classes but %s[0] has %d" % (what, i, len(row), what, k))
+        for c, v in enumerate(row):
+            if math.isnan(v) or math.isinf(v):
+                raise ValueError("%s[%d][%d] is %r; only finite numbers are accepted"
+                                 % (what, i, c, v))
+    if shape is not None and (m, k) != tuple(shape):
+        raise ValueError("%s is %d x %d but this logger's events are %d x %d (members x classes)"
+                         % (what, m, k, shape[0], shape[1]))
+    return rows
+
+
 def check_probs(probs, shape=None):
     """Checks an M x K matrix of class probabilities and returns it as lists.
 
@@ -78,30 +101,22 @@ def check_probs(probs, shape=None):
     shape=(M, K) the matrix must have that shape (a model's first event fixes
     it). Raises ValueError naming the member and class at fault.
     """
-    rows = _rows(probs)
-    m = len(rows)
-    if not 1 <= m <= MAX_MEMBERS:
-        raise ValueError("probs has %d members' rows; 1..%d allowed" % (m, MAX_MEMBERS))
-    k = len(rows[0])
-    if not MIN_CLASSES <= k <= MAX_CLASSES:
-        raise ValueError("probs has %d classes; %d..%d allowed" % (k, MIN_CLASSES, MAX_CLASSES))
+    rows = _matrix(probs, "probs", shape)
     for i, row in enumerate(rows):
-        if len(row) != k:
-            raise ValueError("probs[%d] has %d classes but probs[0] has %d" % (i, len(row), k))
-        total = 0.0
         for c, v in enumerate(row):
-            if math.isnan(v) or math.isinf(v):
-                raise ValueError("probs[%d][%d] is %r; only finite numbers are accepted" % (i, c, v))
             if not 0.0 <= v <= 1.0:
                 raise ValueError("probs[%d][%d] = %r is outside [0, 1]" % (i, c, v))
-            total += v
+        total = math.fsum(row)
         if abs(total - 1.0) > ROW_SUM_TOLERANCE:
             raise ValueError("probs[%d] sums to %.6g; each member's row must sum to 1 within %g"
                              % (i, total, ROW_SUM_TOLERANCE))
-    if shape is not None and (m, k) != tuple(shape):
-        raise ValueError("probs is %d x %d but this logger's events are %d x %d (members x classes)"
-                         % (m, k, shape[0], shape[1]))
     return rows
+
+
+def check_logits(logits, shape=None):
+    """Checks an M x K matrix of raw scores (any finite numbers; concord applies
+    a softmax per member) and returns it as lists."""
+    return _matrix(logits, "logits", shape)
 
 
 def check_ts(ts, now):
@@ -150,14 +165,15 @@ def _dumps(obj):
     return json.dumps(obj, ensure_ascii=False, separators=(",", ":"), allow_nan=False)
 
 
-def encode_event(event_id, rows, ts, label=None, segment=None, model=None):
-    """One event as a JSON line (bytes, newline included); inputs already checked."""
+def encode_event(event_id, rows, ts, label=None, segment=None, model=None, key="probs"):
+    """One event as a JSON line (bytes, newline included); inputs already checked.
+    key is "probs" or "logits"."""
     obj = {"id": event_id, "ts": ts}
     if model is not None:
         obj["model"] = model
     if segment is not None:
         obj["segment"] = segment
-    obj["probs"] = rows
+    obj[key] = rows
     if label is not None:
         obj["label"] = label
     return (_dumps(obj) + "\n").encode("utf-8")

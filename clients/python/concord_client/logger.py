@@ -89,28 +89,34 @@ class Logger:
 
     # -- the service's side -------------------------------------------------
 
-    def log(self, id, probs, ts=None, label=None, segment=None):
-        """Queues one event: M x K class probabilities (lists or a numpy array).
+    def log(self, id, probs=None, ts=None, label=None, segment=None, *, logits=None):
+        """Queues one event: M x K class probabilities (lists or a numpy array),
+        or instead M x K raw scores as logits= (concord applies the softmax).
 
         ts: Unix seconds, an aware datetime or an RFC 3339 str (default: now).
         label: class index or class name, when known now. Raises ValueError or
         TypeError at once for a malformed event; nothing is queued then.
         """
         events.check_id(id)
-        rows = events.check_probs(probs, self._shape)
+        if (probs is None) == (logits is None):
+            raise TypeError("give either probs or logits (one of them)")
+        if probs is not None:
+            key, rows = "probs", events.check_probs(probs, self._shape)
+        else:
+            key, rows = "logits", events.check_logits(logits, self._shape)
         ts = events.check_ts(ts, self._clock())
         if label is not None:
             label = events.check_label(label, len(rows[0]))
         if segment is not None:
             events.check_segment(segment)
-        line = events.encode_event(id, rows, ts, label, segment, self._line_model)
+        line = events.encode_event(id, rows, ts, label, segment, self._line_model, key)
         shape = (len(rows), len(rows[0]))
         with self._cv:
             if self._shape is None:
                 self._shape = shape
             elif self._shape != shape:
-                raise ValueError("probs is %d x %d but this logger's events are %d x %d"
-                                 % (shape + self._shape))
+                raise ValueError("%s is %d x %d but this logger's events are %d x %d"
+                                 % ((key,) + shape + self._shape))
             self._put("event", line)
 
     def label(self, id, label):

@@ -41,6 +41,12 @@ class ProbsChecks(unittest.TestCase):
         with self.assertRaises(ValueError):
             events.check_probs([[0.5, 0.5011]])
 
+    def test_logits_any_finite_numbers(self):
+        self.assertEqual(events.check_logits([[3, -1.5], [0, 40]]), [[3.0, -1.5], [0.0, 40.0]])
+        with self.assertRaises(ValueError) as cm:
+            events.check_logits([[1.0, math.inf]])
+        self.assertIn("logits[0][1] is inf", str(cm.exception))
+
     def test_shape_fixed_by_the_logger(self):
         with self.assertRaises(ValueError) as cm:
             events.check_probs([[0.5, 0.5]], shape=(2, 2))

@@ -177,6 +177,23 @@ class ReadBackByConcord(unittest.TestCase):
         self.assertEqual(db_count(db), 300)
         self.assertEqual(self.report(db), self.report(self.reference_db()))
 
+    def test_every_kind_of_field_is_accepted_by_ingest(self):
+        """logits, class-name labels, segments, datetimes and RFC 3339 strings
+        as the logger writes them: concord refuses none."""
+        import datetime
+        log = concord_client.file_logger(self.dir, "pack", prefix="kinds")
+        utc = datetime.timezone.utc
+        log.log("k1", logits=[[2.0, 0.5], [-1.0, 3.0]], ts=1764547200.25, segment="cam-é")
+        log.log("k2", [[0.5, 0.5], [0.1, 0.9]], ts=datetime.datetime(2025, 12, 2, tzinfo=utc), label=1)
+        log.log("k3", [[1, 0], [0, 1]], ts="2025-12-03T10:00:00+02:00", label="b")
+        self.assertTrue(log.close(HANG_GUARD))
+        db = os.path.join(self.dir, "k.db")
+        proc = run_concord("ingest", "--db", db, "--classes", "a,b",
+                           os.path.join(self.dir, "kinds.jsonl"))
+        self.assertIn(b"3 events stored, 0 duplicates skipped, 0 rejected", proc.stderr)
+        self.assertEqual(db_count(db), 3)
+        self.assertEqual(db_count(db, "SELECT count(*) FROM events WHERE label = 1"), 2)
+
     def test_follow_across_rotations(self):
         db = os.path.join(self.dir, "follow.db")
         log = concord_client.file_logger(self.dir, "pack", prefix="pred", batch_size=10,

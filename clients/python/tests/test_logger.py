@@ -260,8 +260,16 @@ class BufferAndThreads(unittest.TestCase):
             log.log("b", [[0.5, 0.5], [0.5, 0.5]], ts=1764547200)   # 2 x 2 after 2 x 3
         with self.assertRaises(ValueError):
             log.log("c", [[0.7, 0.2, float("nan")], [0.6, 0.3, 0.1]])
+        with self.assertRaises(TypeError):
+            log.log("d", P, logits=P)
+        with self.assertRaises(TypeError):
+            log.log("e")
+        log.log("f", logits=[[2.0, 0.0, -1.0], [0.5, 0.5, 9.0]], ts=1764547200)
         log.flush(HANG_GUARD)
-        self.assertEqual(log.stats()["logged"], 1)
+        self.assertEqual(log.stats()["logged"], 2)
+        got = [json.loads(l) for batch in sink.got for l in batch]
+        self.assertEqual(got[1]["logits"], [[2.0, 0.0, -1.0], [0.5, 0.5, 9.0]])
+        self.assertNotIn("probs", got[1])
 
     def test_flush_at_interpreter_exit(self):
         srv = ScriptedServer()
