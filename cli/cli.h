@@ -126,6 +126,8 @@ int cmd_deliver(int argc, char **argv);
 int cmd_rules(int argc, char **argv);
 int cmd_follow(int argc, char **argv);
 extern const char help_check[], help_alerts[], help_deliver[], help_rules[], help_follow[];
+int cmd_serve(int argc, char **argv);
+extern const char help_serve[];
 struct cc_check_result;
 struct cc_deliver_stats;
 int64_t cli_now(void);
