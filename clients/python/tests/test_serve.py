@@ -1,5 +1,5 @@
-"""The client against a real `concord serve` on a free loopback port with a
-token (skipped when the binary has no serve command): events logged through
+"""The client against a real `concord serve` on a free loopback port with
+tokens (skipped when the binary has no serve command): events logged through
 the client give the same database figures as a file ingest of the same
 events; duplicates, delayed labels (also before their events), refused
 tokens, rejected lines, the model list and the report read back as dicts and
@@ -7,8 +7,8 @@ DataFrames."""
 
 import json
 import os
+import re
 import signal
-import socket
 import subprocess
 import tempfile
 import time
@@ -31,47 +31,51 @@ def has_serve():
     return proc.returncode == 0
 
 
-def free_port():
-    with socket.socket(socket.AF_INET, socket.SOCK_STREAM) as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
 class Server:
-    """`concord serve` on 127.0.0.1 with a write and a read token; stopped with SIGTERM."""
+    """`concord serve` on 127.0.0.1, port 0 (the server picks a free one and
+    says which), the write token from a file, the read token from the
+    environment; stopped with SIGTERM."""
 
     def __init__(self, db, workdir):
-        tokens = os.path.join(workdir, "tokens.env")
-        with open(tokens, "w") as f:
-            f.write("")
-        for attempt in range(5):                  # the free port may be taken meanwhile
-            self.port = free_port()
-            self.url = "http://127.0.0.1:%d" % self.port
-            env = concord_env()
-            env["CONCORD_WRITE_TOKEN"] = WRITE_TOKEN
-            env["CONCORD_READ_TOKEN"] = READ_TOKEN
-            self.err = open(os.path.join(workdir, "serve-%d.err" % attempt), "w+b")
+        token_file = os.path.join(workdir, "write.token")
+        fd = os.open(token_file, os.O_WRONLY | os.O_CREAT | os.O_TRUNC, 0o600)
+        os.write(fd, (WRITE_TOKEN + "\n").encode())
+        os.close(fd)
+        env = concord_env()
+        env.pop("CONCORD_WRITE_TOKEN", None)
+        env["CONCORD_READ_TOKEN"] = READ_TOKEN
+        self.err_path = os.path.join(workdir, "serve.err")
+        with open(self.err_path, "wb") as err:
             self.proc = subprocess.Popen(
-                [concord_bin(), "serve", "--db", db, "--listen", "127.0.0.1:%d" % self.port],
-                stdout=subprocess.DEVNULL, stderr=self.err, env=env)
-            if self._wait_ready():
-                return
-            self.stop()
-        raise AssertionError("concord serve did not start: %s" % self.stderr())
+                [concord_bin(), "serve", "--db", db, "--listen", "127.0.0.1:0",
+                 "--token-file", token_file],
+                stdout=subprocess.DEVNULL, stderr=err, env=env)
+        self.url = self._wait_listening()
+        self._wait_ready()
 
     def stderr(self):
-        self.err.seek(0)
-        return self.err.read().decode(errors="replace")
+        with open(self.err_path, "rb") as f:
+            return f.read().decode(errors="replace")
+
+    def _wait_listening(self):
+        deadline = time.monotonic() + HANG_GUARD
+        while time.monotonic() < deadline:
+            m = re.search(r"listening on (http://127\.0\.0\.1:[1-9][0-9]*) ", self.stderr())
+            if m:
+                return m.group(1)
+            if self.proc.poll() is not None:
+                raise AssertionError("concord serve exited %d: %s" % (self.proc.returncode,
+                                                                      self.stderr()))
+            time.sleep(0.05)
+        raise AssertionError("hang guard: concord serve named no port in %d s" % HANG_GUARD)
 
     def _wait_ready(self):
         deadline = time.monotonic() + HANG_GUARD
         while time.monotonic() < deadline:
-            if self.proc.poll() is not None:
-                return False
             try:
-                with urllib.request.urlopen(self.url + "/v1/readyz", timeout=5) as r:
+                with urllib.request.urlopen(self.url + "/v1/readyz", timeout=30) as r:
                     if r.status == 200:
-                        return True
+                        return
             except OSError:
                 pass
             time.sleep(0.1)
@@ -214,6 +218,12 @@ class AgainstServe(unittest.TestCase):
         self.assertEqual((answer["accepted"], answer["rejected"]), (1, 1))
         self.assertEqual(answer["rejects"][0]["line"], 2)
         self.assertTrue(answer["committed"])
+        # strict=true: all or nothing
+        strict = HttpSink(self.server.url, token=WRITE_TOKEN, timeout=HANG_GUARD, strict=True)
+        good2 = good.replace('"g1"', '"g2"')
+        answer = strict.send("pack", "event", [good2.encode(), bad.encode()])
+        self.assertEqual((answer["accepted"], answer["rejected"]), (0, 1))
+        self.assertEqual(self.cli_report(self.db, "all")["windows"][0]["events"], 2)   # seed, g1
 
     def test_models_and_frames(self):
         log = self.logger()
