@@ -4,7 +4,8 @@ sends it in batches from a background thread.
 log() never blocks on the network: it checks the event, encodes it and puts
 it in a bounded buffer. When the buffer is full the OLDEST buffered item is
 dropped and counted (stats()["dropped"]), so a slow or absent server costs
-the service memory up to the bound and nothing else. A background thread
+the service memory up to the bound (max_buffer lines, max_buffer_bytes bytes)
+and nothing else. A background thread
 sends batches of up to batch_size lines (when a batch is full, every
 flush_interval seconds, on flush() and at close), retrying transient
 failures with exponential backoff and jitter (backoff.py). Re-sending a
@@ -36,7 +37,7 @@ class Logger:
     """
 
     def __init__(self, sink, model, token=None, *, batch_size=1000, flush_interval=1.0,
-                 max_buffer=100000, max_attempts=10, backoff_base=0.5, backoff_cap=30.0,
+                 max_buffer=100000, max_buffer_bytes=64 << 20, max_attempts=10, backoff_base=0.5, backoff_cap=30.0,
                  timeout=30.0, exit_timeout=5.0, strict=False, clock=time.time, rng=None):
         events._name(model, "model", 256)
         if isinstance(sink, str):
@@ -52,6 +53,7 @@ class Logger:
         self.batch_size = batch_size
         self.flush_interval = flush_interval
         self.max_buffer = max_buffer
+        self.max_buffer_bytes = max_buffer_bytes
         self.max_attempts = max_attempts
         self.backoff_base = backoff_base
         self.backoff_cap = backoff_cap
@@ -64,6 +66,7 @@ class Logger:
         self._cv = threading.Condition()
         self._queue = collections.deque()   # (seq, kind, line)
         self._seq = 0
+        self._bytes = 0                     # bytes of the lines in _queue
         self._inflight_first = None         # seq of the first line being sent
         self._inflight_n = 0
         self._flush_upto = 0                # send at once everything up to this seq
@@ -132,9 +135,10 @@ class Logger:
             raise RuntimeError("this concord logger is closed")
         self._seq += 1
         self._queue.append((self._seq, kind, line))
+        self._bytes += len(line)
         self._stats["logged" if kind == "event" else "labels_logged"] += 1
-        while len(self._queue) > self.max_buffer:
-            self._queue.popleft()
+        while len(self._queue) > self.max_buffer or self._bytes > self.max_buffer_bytes:
+            self._bytes -= len(self._queue.popleft()[2])
             self._stats["dropped"] += 1
         if len(self._queue) == 1 or len(self._queue) >= self.batch_size:
             self._cv.notify_all()
@@ -181,6 +185,7 @@ class Logger:
                 left += self._inflight_n
             self._stats["unsent_at_close"] += left
             self._queue.clear()
+            self._bytes = 0
         if not self._thread.is_alive():
             self.sink.close()
         atexit.unregister(self._at_exit)
@@ -215,23 +220,24 @@ class Logger:
         if not q:
             return False
         return (len(q) >= self.batch_size or q[0][0] <= self._flush_upto or self._closing
-                or self._clock() - since >= self.flush_interval)
+                or time.monotonic() - since >= self.flush_interval)
 
     def _run(self):
-        since = self._clock()
+        since = time.monotonic()
         while True:
             with self._cv:
                 while not self._due(since):
                     if self._closing and not self._queue:
                         return
                     self._cv.wait(None if not self._queue else
-                                  max(0.001, self.flush_interval - (self._clock() - since)))
+                                  max(0.001, self.flush_interval - (time.monotonic() - since)))
                 if self._stop.is_set():
                     return
                 kind = self._queue[0][1]
                 batch = []
                 while self._queue and len(batch) < self.batch_size and self._queue[0][1] == kind:
                     batch.append(self._queue.popleft())
+                    self._bytes -= len(batch[-1][2])
                 self._inflight_first = batch[0][0]
                 self._inflight_n = len(batch)
             try:
@@ -240,7 +246,7 @@ class Logger:
                 self._fail(len(batch), "%s: %s" % (type(e).__name__, e))
             with self._cv:
                 self._inflight_first = None
-                since = self._clock()
+                since = time.monotonic()
                 self._cv.notify_all()
 
     def _deliver(self, kind, lines):

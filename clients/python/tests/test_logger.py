@@ -199,6 +199,7 @@ class BufferAndThreads(unittest.TestCase):
         sink = BlockingSink()
         log = concord_client.Logger(sink, "m", batch_size=2, max_buffer=5, flush_interval=3600)
         self.addCleanup(log.close, HANG_GUARD)
+        self.addCleanup(sink.release.set)
         log.log("e0", P, ts=1764547200)
         log.log("e1", P, ts=1764547200)              # a full batch: the thread takes e0, e1
         self.assertTrue(sink.entered.wait(HANG_GUARD))
@@ -212,6 +213,25 @@ class BufferAndThreads(unittest.TestCase):
         # the in-flight batch, then the 5 newest; e2..e6 were dropped
         self.assertEqual(ids, ["e0", "e1", "e7", "e8", "e9", "e10", "e11"])
         self.assertEqual(log.stats()["accepted"], 7)
+
+    def test_byte_bound_drops_oldest_too(self):
+        sink = BlockingSink()
+        log = concord_client.Logger(sink, "m", batch_size=1, max_buffer=1000,
+                                    max_buffer_bytes=1000, flush_interval=3600)
+        self.addCleanup(log.close, HANG_GUARD)
+        self.addCleanup(sink.release.set)            # runs first, should a check fail
+        log.log("e00", P, ts=1764547200)                 # taken by the thread at once
+        self.assertTrue(sink.entered.wait(HANG_GUARD))
+        size = len(events.encode_event("e01", P, 1764547200, model="m"))   # lines name the model
+        for i in range(1, 31):
+            log.log("e%02d" % i, P, ts=1764547200)
+        st = log.stats()
+        self.assertEqual(st["buffered"], 1000 // size)
+        self.assertEqual(st["dropped"], 30 - 1000 // size)
+        sink.release.set()
+        self.assertTrue(log.flush(HANG_GUARD))
+        ids = [json.loads(l)["id"] for batch in sink.got for l in batch]
+        self.assertEqual(ids, ["e00"] + ["e%02d" % i for i in range(31 - 1000 // size, 31)])
 
     def test_flush_times_out_and_close_counts_unsent(self):
         sink = BlockingSink()
