@@ -4,6 +4,7 @@ server on loopback, invented events."""
 import gzip
 import http.server
 import json
+import logging
 import os
 import random
 import subprocess
@@ -11,6 +12,10 @@ import threading
 import unittest
 
 HANG_GUARD = 300.0   # seconds; a wait that long means something hung
+
+# the client's warnings are expected in these tests: kept off the test output
+# (the tests that care read them with assertLogs)
+logging.getLogger("concord_client").addHandler(logging.NullHandler())
 
 
 def concord_bin():

@@ -119,7 +119,10 @@ class AgainstScriptedServer(unittest.TestCase):
                 srv = self.server([(status, {}, {"error": {"status": status, "message": "no %d" % status}})])
                 log = self.logger(srv.url, backoff_base=0.001)
                 log.log("a", P, ts=1764547200)
-                self.assertTrue(log.flush(HANG_GUARD))
+                with self.assertLogs("concord_client", "WARNING") as logs:
+                    self.assertTrue(log.flush(HANG_GUARD))
+                self.assertEqual(logs.output, ["WARNING:concord_client:concord logger gave up "
+                                               "on 1 lines: HTTP %d: no %d" % (status, status)])
                 self.assertEqual(len(srv.requests), 1)
                 self.assertEqual(log.stats()["failed"], 1)
                 self.assertEqual(log.last_error, "HTTP %d: no %d" % (status, status))
