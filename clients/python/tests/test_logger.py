@@ -60,6 +60,27 @@ class AgainstScriptedServer(unittest.TestCase):
         self.assertEqual((st["logged"], st["accepted"], st["batches"], st["dropped"], st["failed"]),
                          (25, 25, 3, 0, 0))
 
+    def test_numpy_arrays_arrive_exactly(self):
+        try:
+            import numpy as np
+        except ImportError:
+            self.skipTest("numpy is not installed (Debian: python3-numpy)")
+        srv = self.server()
+        log = self.logger(srv.url)
+        rng = np.random.default_rng(3)
+        arrays = []
+        for i in range(20):
+            a = rng.dirichlet(np.ones(6), size=5).astype(np.float32 if i % 2 else np.float64)
+            arrays.append(a)
+            log.log("np-%d" % i, a, ts=np.int64(1764547200 + i), label=np.int32(i % 6))
+        self.assertTrue(log.flush(HANG_GUARD))
+        got = lines_of(srv.requests)
+        for a, line in zip(arrays, got):
+            # the JSON numbers parse back to the very same floats (float32 or float64)
+            self.assertEqual(np.array(line["probs"], dtype=a.dtype).tobytes(), a.tobytes())
+        self.assertEqual([l["label"] for l in got], [i % 6 for i in range(20)])
+        self.assertEqual(got[19]["ts"], 1764547219)
+
     def test_interval_sends_without_flush(self):
         srv = self.server()
         log = self.logger(srv.url, batch_size=1000, flush_interval=0.05)
