@@ -11,6 +11,7 @@ import http.client
 import json
 import os
 import socket
+import ssl
 import urllib.error
 import urllib.parse
 import urllib.request
@@ -66,10 +67,16 @@ def error_message(status, body):
         return body[:200].decode("utf-8", "replace").strip() or http.client.responses.get(status, "")
 
 
-def open_url(request, timeout):
+def tls_context(cafile):
+    """None (the system's trust store) or a context trusting `cafile` (PEM),
+    for a server with its own certificate authority or a self-signed certificate."""
+    return None if cafile is None else ssl.create_default_context(cafile=os.fspath(cafile))
+
+
+def open_url(request, timeout, context=None):
     """urlopen that turns every failure into RetryableError or PermanentError."""
     try:
-        return urllib.request.urlopen(request, timeout=timeout)
+        return urllib.request.urlopen(request, timeout=timeout, context=context)
     except urllib.error.HTTPError as e:
         body = e.read()
         status = e.code
@@ -79,14 +86,19 @@ def open_url(request, timeout):
         raise cls(msg, status=status, retry_after=retry_after) from None
     except (urllib.error.URLError, http.client.HTTPException, socket.timeout, OSError) as e:
         reason = getattr(e, "reason", e)
+        if isinstance(reason, ssl.SSLCertVerificationError):
+            # trying again will not make the certificate valid
+            raise PermanentError("TLS certificate of %s refused: %s"
+                                 % (request.full_url, reason)) from None
         raise RetryableError("no answer from %s: %s" % (request.full_url, reason)) from None
 
 
 class HttpSink:
     """Posts batches to one concord server; thread-compatible (no shared state)."""
 
-    def __init__(self, url, token=None, timeout=30.0, strict=False, gzip_level=6):
+    def __init__(self, url, token=None, timeout=30.0, strict=False, gzip_level=6, cafile=None):
         self.url = base_url(url)
+        self.context = tls_context(cafile)
         self.token = token_from(token)
         self.timeout = timeout
         self.strict = strict
@@ -105,7 +117,7 @@ class HttpSink:
             headers["Authorization"] = "Bearer " + self.token
         request = urllib.request.Request(self.endpoint(model, kind), data=body,
                                          headers=headers, method="POST")
-        with open_url(request, self.timeout) as response:
+        with open_url(request, self.timeout, self.context) as response:
             raw = response.read()
         try:
             answer = json.loads(raw)

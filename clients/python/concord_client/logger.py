@@ -32,18 +32,20 @@ class Logger:
     """Buffers events and delayed labels of one model and sends them in the background.
 
     sink: a server URL ("http://127.0.0.1:8750"; the token comes from `token`
-    or $CONCORD_TOKEN) or a sink object such as FileSink(directory).
+    or $CONCORD_TOKEN; for https, cafile= trusts a PEM certificate authority
+    besides the system's) or a sink object such as FileSink(directory).
     Thread-safe: any number of threads may call log(), label() and flush().
     """
 
     def __init__(self, sink, model, token=None, *, batch_size=1000, flush_interval=1.0,
                  max_buffer=100000, max_buffer_bytes=64 << 20, max_attempts=10, backoff_base=0.5, backoff_cap=30.0,
-                 timeout=30.0, exit_timeout=5.0, strict=False, clock=time.time, rng=None):
+                 timeout=30.0, exit_timeout=5.0, strict=False, cafile=None, clock=time.time,
+                 rng=None):
         events._name(model, "model", 256)
         if isinstance(sink, str):
-            sink = HttpSink(sink, token=token, timeout=timeout, strict=strict)
-        elif token is not None:
-            raise ValueError("token is for a server URL; this sink does not take one")
+            sink = HttpSink(sink, token=token, timeout=timeout, strict=strict, cafile=cafile)
+        elif token is not None or cafile is not None:
+            raise ValueError("token and cafile are for a server URL; this sink takes neither")
         if not 1 <= batch_size <= max_buffer:
             raise ValueError("batch_size must be in 1..max_buffer (%d)" % max_buffer)
         if max_attempts < 1:

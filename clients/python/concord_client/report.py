@@ -9,7 +9,7 @@ import os
 import urllib.parse
 import urllib.request
 
-from .http_sink import PermanentError, base_url, open_url, token_from
+from .http_sink import PermanentError, base_url, open_url, tls_context, token_from
 
 FORMATS = ("json", "html", "text")
 WINDOWS = ("day", "week", "all")
@@ -19,7 +19,7 @@ def _is_url(source):
     return isinstance(source, str) and source.split(":", 1)[0].lower() in ("http", "https")
 
 
-def load_report(source, token=None, timeout=60.0):
+def load_report(source, token=None, timeout=60.0, cafile=None):
     """The JSON report in `source` (a file path, or an http(s) URL of `concord
     serve`'s report endpoint; token from the argument or $CONCORD_TOKEN).
 
@@ -27,7 +27,7 @@ def load_report(source, token=None, timeout=60.0):
     that refuses or does not answer, ValueError when the text is not a report.
     """
     if _is_url(source):
-        text = _get(source, token, timeout)
+        text = _get(source, token, timeout, cafile)
         where = source
     else:
         where = os.fspath(source)
@@ -57,25 +57,26 @@ def report_url(server, model, frm=None, to=None, by=None, format="json"):
                                           urllib.parse.urlencode(query))
 
 
-def fetch_report(server, model, token=None, frm=None, to=None, by=None, timeout=60.0):
+def fetch_report(server, model, token=None, frm=None, to=None, by=None, timeout=60.0,
+                 cafile=None):
     """A model's JSON report from a concord server, as dicts (see report_url)."""
-    return load_report(report_url(server, model, frm, to, by), token, timeout)
+    return load_report(report_url(server, model, frm, to, by), token, timeout, cafile)
 
 
-def list_models(server, token=None, timeout=60.0):
+def list_models(server, token=None, timeout=60.0, cafile=None):
     """The server's models: a list of {"name", "members", "classes"} dicts."""
-    body = _get(base_url(server) + "/v1/models", token, timeout)
+    body = _get(base_url(server) + "/v1/models", token, timeout, cafile)
     try:
         return json.loads(body)["models"]
     except (ValueError, KeyError, TypeError):
         raise PermanentError("%s/v1/models: answer is not a model list" % server) from None
 
 
-def _get(url, token, timeout):
+def _get(url, token, timeout, cafile=None):
     headers = {"Accept": "application/json"}
     token = token_from(token)
     if token:
         headers["Authorization"] = "Bearer " + token
     request = urllib.request.Request(url, headers=headers, method="GET")
-    with open_url(request, timeout) as response:
+    with open_url(request, timeout, tls_context(cafile)) as response:
         return response.read()

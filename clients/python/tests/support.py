@@ -7,6 +7,7 @@ import json
 import logging
 import os
 import random
+import ssl
 import subprocess
 import threading
 import unittest
@@ -66,6 +67,19 @@ def invented_events(n, members=3, classes=4, seed=1, day0=1764547200, label_ever
     return out
 
 
+def self_signed(directory):
+    """A self-signed certificate for 127.0.0.1 made by openssl (cert, key), or skip."""
+    cert, key = os.path.join(directory, "cert.pem"), os.path.join(directory, "key.pem")
+    try:
+        subprocess.run(["openssl", "req", "-x509", "-newkey", "rsa:2048", "-nodes", "-days", "2",
+                        "-subj", "/CN=127.0.0.1", "-addext", "subjectAltName=IP:127.0.0.1",
+                        "-keyout", key, "-out", cert], check=True, capture_output=True,
+                       timeout=HANG_GUARD)
+    except (OSError, subprocess.CalledProcessError) as e:
+        raise unittest.SkipTest("openssl could not make a certificate: %s" % e)
+    return cert, key
+
+
 class Recorder(http.server.BaseHTTPRequestHandler):
     """Answers each POST from the server's script; records method, path,
     headers and the decoded body."""
@@ -119,14 +133,18 @@ class ScriptedServer:
     every request gets 200 with all lines accepted. A GET is answered with
     get_answer: (status, headers, bytes)."""
 
-    def __init__(self, script=()):
+    def __init__(self, script=(), tls=None):
         self.httpd = http.server.ThreadingHTTPServer(("127.0.0.1", 0), Recorder)
+        if tls is not None:                  # (certfile, keyfile): HTTPS
+            ctx = ssl.SSLContext(ssl.PROTOCOL_TLS_SERVER)
+            ctx.load_cert_chain(*tls)
+            self.httpd.socket = ctx.wrap_socket(self.httpd.socket, server_side=True)
         self.httpd.daemon_threads = True
         self.httpd.lock = threading.Lock()
         self.httpd.requests = []
         self.httpd.script = list(script)
         self.httpd.get_answer = (404, {}, b'{"error":{"status":404,"message":"no such path"}}')
-        self.url = "http://127.0.0.1:%d" % self.httpd.server_address[1]
+        self.url = "%s://127.0.0.1:%d" % ("https" if tls else "http", self.httpd.server_address[1])
         self.thread = threading.Thread(target=self.httpd.serve_forever, daemon=True)
         self.thread.start()
 

@@ -5,15 +5,17 @@ errors, splitting on 413, the drop-oldest bound, flush, close and threads."""
 import gzip
 import json
 import os
+import shutil
 import subprocess
 import sys
+import tempfile
 import threading
 import time
 import unittest
 
 import concord_client
 from concord_client import events
-from support import HANG_GUARD, ScriptedServer, invented_events
+from support import HANG_GUARD, ScriptedServer, invented_events, self_signed
 
 P = [[0.7, 0.2, 0.1], [0.6, 0.3, 0.1]]
 
@@ -187,6 +189,27 @@ class AgainstScriptedServer(unittest.TestCase):
                          [{"id": "a", "label": 2}, {"id": "b", "label": "cull"}])
         with self.assertRaises(ValueError):
             log.label("a", 3)            # K = 3 classes here
+
+    def test_https_with_own_certificate_authority(self):
+        tmp = tempfile.mkdtemp(prefix="concord-py-tls-")
+        self.addCleanup(shutil.rmtree, tmp)
+        cert, key = self_signed(tmp)
+        srv = ScriptedServer(tls=(cert, key))
+        self.addCleanup(srv.stop)
+        # not trusted by the system: refused at once, not retried
+        log = self.logger(srv.url, backoff_base=0.001)
+        log.log("a", P, ts=1764547200)
+        self.assertTrue(log.flush(HANG_GUARD))
+        self.assertEqual((log.stats()["failed"], log.stats()["retries"]), (1, 0))
+        self.assertIn("TLS certificate", log.last_error)
+        # trusted through cafile=
+        log = self.logger(srv.url, cafile=cert)
+        log.log("b", P, ts=1764547200)
+        self.assertTrue(log.flush(HANG_GUARD))
+        self.assertEqual(log.stats()["accepted"], 1, log.last_error)
+        self.assertEqual([l["id"] for l in lines_of(srv.requests)], ["b"])
+        srv.answer_get(200, {}, b'{"models": [{"name": "m", "members": ["x"], "classes": ["a", "b"]}]}')
+        self.assertEqual(concord_client.list_models(srv.url, cafile=cert)[0]["name"], "m")
 
     def test_unreachable_server_is_retried_then_given_up(self):
         srv = self.server()
