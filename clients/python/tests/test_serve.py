@@ -9,6 +9,7 @@ import json
 import os
 import re
 import signal
+import ssl
 import subprocess
 import tempfile
 import time
@@ -17,7 +18,8 @@ import urllib.request
 
 import concord_client
 from concord_client.http_sink import HttpSink, PermanentError
-from support import HANG_GUARD, concord_bin, concord_env, invented_events, run_concord
+from support import (HANG_GUARD, concord_bin, concord_env, invented_events, run_concord,
+                     self_signed)
 
 MEMBERS = ["hue", "shape", "size"]
 CLASSES = ["premium", "extra", "juice", "cull"]
@@ -36,7 +38,7 @@ class Server:
     says which), the write token from a file, the read token from the
     environment; stopped with SIGTERM."""
 
-    def __init__(self, db, workdir):
+    def __init__(self, db, workdir, tls=None):
         token_file = os.path.join(workdir, "write.token")
         fd = os.open(token_file, os.O_WRONLY | os.O_CREAT | os.O_TRUNC, 0o600)
         os.write(fd, (WRITE_TOKEN + "\n").encode())
@@ -48,8 +50,10 @@ class Server:
         with open(self.err_path, "wb") as err:
             self.proc = subprocess.Popen(
                 [concord_bin(), "serve", "--db", db, "--listen", "127.0.0.1:0",
-                 "--token-file", token_file],
+                 "--token-file", token_file]
+                + (["--tls-cert", tls[0], "--tls-key", tls[1]] if tls else []),
                 stdout=subprocess.DEVNULL, stderr=err, env=env)
+        self.context = ssl.create_default_context(cafile=tls[0]) if tls else None
         self.url = self._wait_listening()
         self._wait_ready()
 
@@ -60,7 +64,7 @@ class Server:
     def _wait_listening(self):
         deadline = time.monotonic() + HANG_GUARD
         while time.monotonic() < deadline:
-            m = re.search(r"listening on (http://127\.0\.0\.1:[1-9][0-9]*) ", self.stderr())
+            m = re.search(r"listening on (https?://127\.0\.0\.1:[1-9][0-9]*) ", self.stderr())
             if m:
                 return m.group(1)
             if self.proc.poll() is not None:
@@ -73,7 +77,8 @@ class Server:
         deadline = time.monotonic() + HANG_GUARD
         while time.monotonic() < deadline:
             try:
-                with urllib.request.urlopen(self.url + "/v1/readyz", timeout=30) as r:
+                with urllib.request.urlopen(self.url + "/v1/readyz", timeout=30,
+                                            context=self.context) as r:
                     if r.status == 200:
                         return
             except OSError:
@@ -247,6 +252,27 @@ class AgainstServe(unittest.TestCase):
         kappa = concord_client.pair_frames(single)["kappa"]
         self.assertEqual(list(kappa.columns), MEMBERS)
         self.assertEqual(kappa.loc["hue", "size"], single["windows"][0]["diversity"]["kappa"]["pairs"][0][2])
+
+
+    def test_https(self):
+        self.server.stop()
+        cert, key = self_signed(self.dir)
+        try:
+            self.server = Server(self.db, self.dir, tls=(cert, key))
+        except AssertionError as e:
+            if "TLS" in str(e) or "tls" in str(e):
+                self.skipTest("this concord serve has no TLS: %s" % e)
+            raise
+        self.addCleanup(self.server.stop)
+        self.assertTrue(self.server.url.startswith("https://"))
+        log = self.logger(cafile=cert)
+        for eid, probs, ts, label in self.sent[:50]:
+            log.log(eid, probs, ts=ts)
+        self.assertTrue(log.flush(HANG_GUARD))
+        self.assertEqual(log.stats()["accepted"], 50, log.last_error)
+        report = concord_client.fetch_report(self.server.url, "pack", token=READ_TOKEN, by="all",
+                                             cafile=cert)
+        self.assertEqual(report["windows"][0]["events"], 51)
 
 
 if __name__ == "__main__":
