@@ -50,3 +50,17 @@ post() {
 
 # field JSON NAME: a top-level field of a JSON document
 field() { /usr/bin/python3 -c 'import json,sys; v=json.loads(sys.argv[1])[sys.argv[2]]; print(json.dumps(v) if isinstance(v,(list,dict,bool)) or v is None else v)' "$1" "$2"; }
+
+# failures are counted, and the script ends with finish NAME
+fails=0
+fail() { echo "FAIL: $*" >&2; fails=$((fails + 1)); }
+expect() { # expect WHAT GOT WANT
+  [ "$2" = "$3" ] || fail "$1: got '$2', want '$3'"
+}
+finish() {
+  if [ $fails -gt 0 ]; then
+    echo "$1: $fails failure(s)" >&2
+    exit 1
+  fi
+  echo "$1: ok${2:+ ($2)}"
+}

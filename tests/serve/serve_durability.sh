@@ -24,9 +24,6 @@ HANG_GUARD=900
 export HANG_GUARD
 HERE=$(dirname "$0")
 . "$HERE/lib.sh"
-fails=0
-fail() { echo "FAIL: $*" >&2; fails=$((fails + 1)); }
-expect() { [ "$2" = "$3" ] || fail "$1: got '$2', want '$3'"; }
 DB=$T/d.db
 EVENTS=${SERVE_DURABILITY_EVENTS:-200000}
 BATCHES=$((EVENTS / 1000))
@@ -96,8 +93,4 @@ dups=$(awk '$3 > 0' "$T/acks" | wc -l)
 expect "accepted + duplicates over all answers" "$(awk '{ s += $2 + $3 } END { print s }' "$T/acks")" "$EVENTS"
 "$CONCORD" verify --db "$DB" --model d > /dev/null || fail "verify"
 
-if [ $fails -gt 0 ]; then
-  echo "serve_durability: $fails failure(s)" >&2
-  exit 1
-fi
-echo "serve_durability: ok ($dups batches were retried after the kill and found stored)"
+finish serve_durability "$dups batches were retried after the kill and found stored"

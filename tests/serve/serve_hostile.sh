@@ -17,9 +17,6 @@ HANG_GUARD=300
 export HANG_GUARD
 HERE=$(dirname "$0")
 . "$HERE/lib.sh"
-fails=0
-fail() { echo "FAIL: $*" >&2; fails=$((fails + 1)); }
-expect() { [ "$2" = "$3" ] || fail "$1: got '$2', want '$3'"; }
 
 # call NAME WANT_STATUS CURL_ARGS... : the status, and an error body that
 # carries the same status
@@ -143,8 +140,4 @@ wait $SPID 2> /dev/null || true
 SPID=
 wait $post1 $post2 2> /dev/null || true
 
-if [ $fails -gt 0 ]; then
-  echo "serve_hostile: $fails failure(s)" >&2
-  exit 1
-fi
-echo "serve_hostile: ok"
+finish serve_hostile

@@ -14,11 +14,6 @@ SPID=
 trap '[ -n "$SPID" ] && kill -9 $SPID 2> /dev/null; rm -rf "$T"' EXIT
 HANG_GUARD=300
 . "$(dirname "$0")/lib.sh"
-fails=0
-fail() { echo "FAIL: $*" >&2; fails=$((fails + 1)); }
-expect() { # expect WHAT GOT WANT
-  [ "$2" = "$3" ] || fail "$1: got '$2', want '$3'"
-}
 
 "$CONCORD" demo --dir "$T/d" --per-day 200 > /dev/null
 EV=$T/d/events.jsonl
@@ -160,8 +155,4 @@ for m in g h r; do
   "$CONCORD" verify --db "$T/s.db" --model $m > /dev/null || fail "verify of model $m after the second run"
 done
 
-if [ $fails -gt 0 ]; then
-  echo "serve_ingest: $fails failure(s)" >&2
-  exit 1
-fi
-echo "serve_ingest: ok"
+finish serve_ingest

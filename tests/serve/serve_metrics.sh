@@ -15,8 +15,6 @@ trap '[ -n "$SPID" ] && kill -9 $SPID 2> /dev/null; rm -rf "$T"' EXIT
 HANG_GUARD=300
 HERE=$(dirname "$0")
 . "$HERE/lib.sh"
-fails=0
-fail() { echo "FAIL: $*" >&2; fails=$((fails + 1)); }
 
 /usr/bin/python3 "$HERE/openmetrics_check.py" --self-test || fail "the checker's self-test"
 # the demo's database has a model with alert rules checked day by day
@@ -63,8 +61,4 @@ for name, v in want.items():
 sys.exit(1 if bad else 0)
 PY
 
-if [ $fails -gt 0 ]; then
-  echo "serve_metrics: $fails failure(s)" >&2
-  exit 1
-fi
-echo "serve_metrics: ok"
+finish serve_metrics

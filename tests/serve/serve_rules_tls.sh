@@ -15,8 +15,6 @@ HANG_GUARD=300
 HERE=$(dirname "$0")
 GEN=$HERE/../alerts/gen_days.py
 . "$HERE/lib.sh"
-fails=0
-fail() { echo "FAIL: $*" >&2; fails=$((fails + 1)); }
 wait_for() { # SECONDS COMMAND...: until the command succeeds (a hang guard, not a timing)
   local until=$(( $(date +%s) + $1 )); shift
   while ! "$@"; do [ "$(date +%s)" -lt "$until" ] || return 1; sleep 0.1; done
@@ -73,8 +71,4 @@ else
     fail "events posted over HTTPS not stored"
 fi
 
-if [ $fails -gt 0 ]; then
-  echo "serve_rules_tls: $fails failure(s)" >&2
-  exit 1
-fi
-echo "serve_rules_tls: ok"
+finish serve_rules_tls
