@@ -52,40 +52,12 @@ static void on_signal(int sig)
     stop_flag = 1;
 }
 
-typedef struct serve_ctx {
-    int64_t start_now;
-    struct timespec start;
-} serve_ctx;
-
-static int64_t now_fn(void *ctx)
-{
-    serve_ctx *c = ctx;
-    struct timespec t;
-    clock_gettime(CLOCK_MONOTONIC, &t);
-    return c->start_now + (int64_t)(t.tv_sec - c->start.tv_sec);
-}
-
 static void on_note(void *ctx, const char *msg)
 {
     (void)ctx;
     fputs("concord serve: ", stderr);
     cc_text_put(stderr, msg);
     fputc('\n', stderr);
-}
-
-static void on_check(void *ctx, const cc_check_result *r)
-{
-    (void)ctx;
-    cli_print_check(r, 0, 0, NULL, stdout);
-    fflush(stdout);
-}
-
-static void on_deliver(void *ctx, const cc_deliver_stats *st)
-{
-    (void)ctx;
-    printf("delivery: %d sent, %d failed (retried later), %d became dead letters\n", st->sent,
-           st->failed, st->dead);
-    fflush(stdout);
 }
 
 static char *render_html(void *ctx, cc_store *store, const cc_report *r)
@@ -223,8 +195,8 @@ int cmd_serve(int argc, char **argv)
         rc = cli_usage("serve", "%s", err.msg);
     if (rc)
         goto done;
-    serve_ctx ctx = {cli_now(), {0, 0}};
-    clock_gettime(CLOCK_MONOTONIC, &ctx.start);
+    cli_clock ctx;
+    cli_clock_start(&ctx);
     so.write_token = wtok;
     so.read_token = rtok;
     so.tls_cert = cert_pem;
@@ -236,9 +208,9 @@ int cmd_serve(int argc, char **argv)
     so.rules = rs;
     so.extra = hook ? &extra : NULL;
     so.n_extra = hook ? 1 : 0;
-    so.now = now_fn;
-    so.on_check = on_check;
-    so.on_deliver = on_deliver;
+    so.now = cli_clock_now;
+    so.on_check = cli_on_check;
+    so.on_deliver = cli_on_deliver;
     so.on_note = on_note;
     so.stop = &stop_flag;
     so.ctx = &ctx;
