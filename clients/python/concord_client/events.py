@@ -45,35 +45,38 @@ def check_segment(segment):
     return _name(segment, "segment", MAX_SEGMENT_BYTES, required=False)
 
 
-def _rows(probs):
-    """Returns probs as a list of lists of Python floats (numpy arrays too)."""
-    tolist = getattr(probs, "tolist", None)
-    if tolist is not None and hasattr(probs, "ndim"):
-        if probs.ndim != 2:
-            raise ValueError("probs must be 2-dimensional (members x classes); got %d dimensions"
-                             % probs.ndim)
-        probs = tolist()
-    if isinstance(probs, (str, bytes)) or not hasattr(probs, "__len__"):
-        raise ValueError("probs must be a list of members' rows (members x classes)")
+def _number(v, what, m, c):
+    if isinstance(v, bool) or not isinstance(v, numbers.Real):
+        raise ValueError("%s[%d][%d] is not a number: %r" % (what, m, c, v))
+    return float(v)
+
+
+def _rows(values, what):
+    """Returns values as a list of lists of Python floats (numpy arrays too)."""
+    if hasattr(values, "ndim") and hasattr(values, "tolist"):
+        if values.ndim != 2:
+            raise ValueError("%s must be 2-dimensional (members x classes); got %d dimensions"
+                             % (what, values.ndim))
+        values = values.tolist()
+    if isinstance(values, (str, bytes)) or not hasattr(values, "__len__"):
+        raise ValueError("%s must be a list of members' rows (members x classes)" % what)
     rows = []
-    for m, row in enumerate(probs):
+    for m, row in enumerate(values):
         if hasattr(row, "tolist"):
             row = row.tolist()
         if isinstance(row, (str, bytes)) or not hasattr(row, "__iter__"):
-            raise ValueError("probs[%d] is not a row of class probabilities" % m)
-        out = []
-        for c, v in enumerate(row):
-            if isinstance(v, bool) or not isinstance(v, numbers.Real):
-                raise ValueError("probs[%d][%d] is not a number: %r" % (m, c, v))
-            out.append(float(v))
-        rows.append(out)
+            raise ValueError("%s[%d] is not a row of class probabilities" % (what, m))
+        row = list(row)
+        if not all(type(v) is float for v in row):      # the common case costs one pass
+            row = [_number(v, what, m, c) for c, v in enumerate(row)]
+        rows.append(row)
     return rows
 
 
 def _matrix(values, what, shape):
     """Rows of finite floats, 1..64 members, 2..256 classes, all rows alike,
     and the logger's shape when it has one."""
-    rows = _rows(values)
+    rows = _rows(values, what)
     m = len(rows)
     if not 1 <= m <= MAX_MEMBERS:
         raise ValueError("%s has %d members' rows; 1..%d allowed" % (what, m, MAX_MEMBERS))
@@ -83,10 +86,10 @@ def _matrix(values, what, shape):
     for i, row in enumerate(rows):
         if len(row) != k:
             raise ValueError("%s[%d] has %d classes but %s[0] has %d" % (what, i, len(row), what, k))
-        for c, v in enumerate(row):
-            if math.isnan(v) or math.isinf(v):
-                raise ValueError("%s[%d][%d] is %r; only finite numbers are accepted"
-                                 % (what, i, c, v))
+        if not all(map(math.isfinite, row)):
+            c = next(c for c, v in enumerate(row) if not math.isfinite(v))
+            raise ValueError("%s[%d][%d] is %r; only finite numbers are accepted"
+                             % (what, i, c, row[c]))
     if shape is not None and (m, k) != tuple(shape):
         raise ValueError("%s is %d x %d but this logger's events are %d x %d (members x classes)"
                          % (what, m, k, shape[0], shape[1]))
@@ -103,9 +106,9 @@ def check_probs(probs, shape=None):
     """
     rows = _matrix(probs, "probs", shape)
     for i, row in enumerate(rows):
-        for c, v in enumerate(row):
-            if not 0.0 <= v <= 1.0:
-                raise ValueError("probs[%d][%d] = %r is outside [0, 1]" % (i, c, v))
+        if min(row) < 0.0 or max(row) > 1.0:
+            c = next(c for c, v in enumerate(row) if not 0.0 <= v <= 1.0)
+            raise ValueError("probs[%d][%d] = %r is outside [0, 1]" % (i, c, row[c]))
         total = math.fsum(row)
         if abs(total - 1.0) > ROW_SUM_TOLERANCE:
             raise ValueError("probs[%d] sums to %.6g; each member's row must sum to 1 within %g"
