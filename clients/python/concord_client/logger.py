@@ -70,7 +70,6 @@ class Logger:
         self._seq = 0
         self._bytes = 0                     # bytes of the lines in _queue
         self._inflight_first = None         # seq of the first line being sent
-        self._inflight_n = 0
         self._flush_upto = 0                # send at once everything up to this seq
         self._closing = False
         self._closed = False
@@ -182,9 +181,7 @@ class Logger:
         self._thread.join(None if deadline is None else max(1.0, deadline - time.monotonic()))
         with self._cv:
             self._closed = True
-            left = len(self._queue)
-            if self._thread.is_alive() and self._inflight_first is not None:
-                left += self._inflight_n
+            left = len(self._queue)     # a batch still in flight is counted by the thread
             self._stats["unsent_at_close"] += left
             self._queue.clear()
             self._bytes = 0
@@ -241,7 +238,6 @@ class Logger:
                     batch.append(self._queue.popleft())
                     self._bytes -= len(batch[-1][2])
                 self._inflight_first = batch[0][0]
-                self._inflight_n = len(batch)
             try:
                 self._deliver(kind, [b[2] for b in batch])
             except Exception as e:          # a sink's bug must not kill the thread

@@ -292,6 +292,7 @@ class BufferAndThreads(unittest.TestCase):
         sink.release.set()
         closer.join(HANG_GUARD)
         self.assertFalse(closer.is_alive())
+        log._thread.join(HANG_GUARD)      # close() may leave a slow batch to the thread
         st = log.stats()
         self.assertEqual(st["accepted"] + st["unsent_at_close"], 2)
         with self.assertRaises(RuntimeError):
@@ -343,7 +344,7 @@ class BufferAndThreads(unittest.TestCase):
         self.addCleanup(srv.stop)
         here = os.path.dirname(os.path.dirname(os.path.abspath(concord_client.__file__)))
         code = ("import concord_client\n"
-                "log = concord_client.Logger(%r, 'm', flush_interval=3600)\n"
+                "log = concord_client.Logger(%r, 'm', flush_interval=3600, exit_timeout=120)\n"
                 "for i in range(7):\n"
                 "    log.log('x%%d' %% i, [[0.5, 0.5]], ts=1764547200)\n" % srv.url)
         subprocess.run([sys.executable, "-c", code], check=True, timeout=HANG_GUARD,
