@@ -17,6 +17,7 @@
 #include <strings.h>
 #include <sys/socket.h>
 #include <time.h>
+#include <unistd.h>
 
 #include "auth.h"
 #include "date.h"
@@ -823,7 +824,8 @@ int cc_serve_run(const cc_serve_opts *o, cc_error *err)
     /* stop accepting; let bodies being received arrive (bounded), then the
      * writer commits and answers all that is queued */
     MHD_socket lfd = MHD_quiesce_daemon(s.daemon);
-    (void)lfd;
+    if (lfd != MHD_INVALID_SOCKET)
+        close(lfd); /* ours now: new connections are refused at once */
     note(&s, "stopping: no new connections; finishing the requests in progress");
     for (int i = 0; i < o->request_timeout_s * 10 && atomic_load(&s.receiving) > 0; i++)
         sleep_ms(100);
