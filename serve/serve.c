@@ -493,7 +493,8 @@ static enum MHD_Result post_body(server *s, struct MHD_Connection *c, request *r
 
 /* ---- routing ---- */
 
-/* "/v1/models/NAME/WHAT" -> NAME (copied into name) and WHAT. */
+/* "/v1/models/NAME/WHAT" -> NAME (copied into name) and WHAT; -1 when the
+ * path is not of that form, -2 when NAME does not fit in cap bytes. */
 static int model_path(const char *url, char *name, size_t cap, const char **what)
 {
     const char *prefix = "/v1/models/";
@@ -501,8 +502,10 @@ static int model_path(const char *url, char *name, size_t cap, const char **what
     if (strncmp(url, prefix, pl) != 0)
         return -1;
     const char *p = url + pl, *slash = strchr(p, '/');
-    if (!slash || slash == p || (size_t)(slash - p) >= cap)
+    if (!slash || slash == p)
         return -1;
+    if ((size_t)(slash - p) >= cap)
+        return -2;
     memcpy(name, p, (size_t)(slash - p));
     name[slash - p] = 0;
     *what = slash + 1;
@@ -518,6 +521,7 @@ static enum MHD_Result route(server *s, struct MHD_Connection *c, request *rq, c
                                                    MHD_HTTP_HEADER_AUTHORIZATION);
     char name[MODEL_NAME_MAX + 1];
     const char *what = NULL;
+    int mp;
     enum { P_HEALTH, P_READY, P_METRICS, P_MODELS, P_REPORT, P_EVENTS, P_LABELS, P_NONE } p;
     if (!strcmp(url, "/v1/healthz"))
         p = P_HEALTH;
@@ -527,7 +531,10 @@ static enum MHD_Result route(server *s, struct MHD_Connection *c, request *rq, c
         p = P_METRICS;
     else if (!strcmp(url, "/v1/models"))
         p = P_MODELS;
-    else if (!model_path(url, name, sizeof name, &what) && !strcmp(what, "report"))
+    else if ((mp = model_path(url, name, sizeof name, &what)) == -2) {
+        rq->stage = ST_DONE;
+        return send_error(c, 400, NULL, "a model name is at most %d bytes", MODEL_NAME_MAX);
+    } else if (mp == 0 && !strcmp(what, "report"))
         p = P_REPORT;
     else if (what && !strcmp(what, "events"))
         p = P_EVENTS;
