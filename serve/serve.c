@@ -17,6 +17,7 @@
 #include <strings.h>
 #include <sys/socket.h>
 #include <time.h>
+#include <unistd.h>
 
 #include "auth.h"
 #include "date.h"
@@ -492,7 +493,8 @@ static enum MHD_Result post_body(server *s, struct MHD_Connection *c, request *r
 
 /* ---- routing ---- */
 
-/* "/v1/models/NAME/WHAT" -> NAME (copied into name) and WHAT. */
+/* "/v1/models/NAME/WHAT" -> NAME (copied into name) and WHAT; -1 when the
+ * path is not of that form, -2 when NAME does not fit in cap bytes. */
 static int model_path(const char *url, char *name, size_t cap, const char **what)
 {
     const char *prefix = "/v1/models/";
@@ -500,8 +502,10 @@ static int model_path(const char *url, char *name, size_t cap, const char **what
     if (strncmp(url, prefix, pl) != 0)
         return -1;
     const char *p = url + pl, *slash = strchr(p, '/');
-    if (!slash || slash == p || (size_t)(slash - p) >= cap)
+    if (!slash || slash == p)
         return -1;
+    if ((size_t)(slash - p) >= cap)
+        return -2;
     memcpy(name, p, (size_t)(slash - p));
     name[slash - p] = 0;
     *what = slash + 1;
@@ -517,6 +521,7 @@ static enum MHD_Result route(server *s, struct MHD_Connection *c, request *rq, c
                                                    MHD_HTTP_HEADER_AUTHORIZATION);
     char name[MODEL_NAME_MAX + 1];
     const char *what = NULL;
+    int mp;
     enum { P_HEALTH, P_READY, P_METRICS, P_MODELS, P_REPORT, P_EVENTS, P_LABELS, P_NONE } p;
     if (!strcmp(url, "/v1/healthz"))
         p = P_HEALTH;
@@ -526,7 +531,10 @@ static enum MHD_Result route(server *s, struct MHD_Connection *c, request *rq, c
         p = P_METRICS;
     else if (!strcmp(url, "/v1/models"))
         p = P_MODELS;
-    else if (!model_path(url, name, sizeof name, &what) && !strcmp(what, "report"))
+    else if ((mp = model_path(url, name, sizeof name, &what)) == -2) {
+        rq->stage = ST_DONE;
+        return send_error(c, 400, NULL, "a model name is at most %d bytes", MODEL_NAME_MAX);
+    } else if (mp == 0 && !strcmp(what, "report"))
         p = P_REPORT;
     else if (what && !strcmp(what, "events"))
         p = P_EVENTS;
@@ -823,7 +831,8 @@ int cc_serve_run(const cc_serve_opts *o, cc_error *err)
     /* stop accepting; let bodies being received arrive (bounded), then the
      * writer commits and answers all that is queued */
     MHD_socket lfd = MHD_quiesce_daemon(s.daemon);
-    (void)lfd;
+    if (lfd != MHD_INVALID_SOCKET)
+        close(lfd); /* ours now: new connections are refused at once */
     note(&s, "stopping: no new connections; finishing the requests in progress");
     for (int i = 0; i < o->request_timeout_s * 10 && atomic_load(&s.receiving) > 0; i++)
         sleep_ms(100);

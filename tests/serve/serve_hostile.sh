@@ -66,6 +66,7 @@ call "POST text/plain" 415 -H 'Content-Type: text/plain' "${W[@]}" --data-binary
 call "POST application/jsonl" 200 -H 'Content-Type: application/jsonl' "${W[@]}" --data-binary @"$T/one.jsonl" "$URL/v1/models/m/events"
 call "POST with Content-Encoding br" 415 "${J[@]}" -H 'Content-Encoding: br' "${W[@]}" --data-binary @"$T/one.jsonl" "$URL/v1/models/m/events"
 call "unknown model's report" 404 "${R[@]}" "$URL/v1/models/nope/report"
+call "a model name of 300 bytes" 400 "${R[@]}" "$URL/v1/models/$(head -c 300 /dev/zero | tr '\0' n)/report"
 call "unknown path" 404 "${R[@]}" "$URL/v2/anything"
 call "GET on the events path" 405 "${R[@]}" "$URL/v1/models/m/events"
 grep -qi '^allow: POST' <(curl -s -m $HANG_GUARD -D - -o /dev/null "${R[@]}" "$URL/v1/models/m/events") ||
