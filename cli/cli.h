@@ -132,6 +132,22 @@ int cmd_deliver(int argc, char **argv);
 int cmd_rules(int argc, char **argv);
 int cmd_follow(int argc, char **argv);
 extern const char help_check[], help_alerts[], help_deliver[], help_rules[], help_follow[];
+int cmd_serve(int argc, char **argv);
+extern const char help_serve[];
+/* The clock of the long-running commands (cmd_follow.c): CONCORD_NOW, when
+ * set, is the time at start, and it runs forward from there. */
+#include <time.h>
+typedef struct cli_clock {
+    int64_t start_now;
+    struct timespec start;
+} cli_clock;
+void cli_clock_start(cli_clock *c);
+int64_t cli_clock_now(void *ctx); /* ctx: a cli_clock, or a struct that begins with one */
+/* What follow and serve print after a day-close check and a delivery. */
+struct cc_check_result;
+struct cc_deliver_stats;
+void cli_on_check(void *ctx, const struct cc_check_result *r);
+void cli_on_deliver(void *ctx, const struct cc_deliver_stats *st);
 struct cc_check_result;
 struct cc_deliver_stats;
 int64_t cli_now(void);

@@ -26,6 +26,7 @@ static const cli_command commands[] = {
     {"deliver", cmd_deliver, "retry notifications waiting in the outbox", help_deliver},
     {"follow", cmd_follow, "tail growing log files, ingest, check when a day closes",
      help_follow},
+    {"serve", cmd_serve, "serve the database over HTTP: ingest, reports, metrics", help_serve},
 };
 
 const char *cli_program = "concord";
