@@ -38,6 +38,8 @@ typedef struct bench {
     const char *input;  /* NULL: generate */
     const char *parent; /* where the temporary directory goes */
     int keep, reps, batch;
+    const char *model_opt; /* --model, or NULL: the first line's model, else "default" */
+    char model[256];       /* the model every phase works on */
     char dir[PATH_CAP - 64], events[PATH_CAP], db[PATH_CAP];
 } bench;
 
@@ -201,7 +203,7 @@ static void phase_floor(const bench *b, phase_out *out, int arg)
             out->rejected++;
             continue;
         }
-        if (!model && (rc = cc_store_model_create(s, "default", ev.m, ev.k, NULL, NULL,
+        if (!model && (rc = cc_store_model_create(s, b->model, ev.m, ev.k, NULL, NULL,
                                                   &model, &err)))
             break;
         if (ev.m != model->m || ev.k != model->k) {
@@ -281,7 +283,7 @@ static void phase_ingest(const bench *b, phase_out *out, int arg)
     cc_model *model = NULL;
     int64_t *days = NULL;
     int n_days = 0;
-    if (!rc && !(rc = cc_store_model_get(s, "default", &model, &err)) &&
+    if (!rc && !(rc = cc_store_model_get(s, b->model, &model, &err)) &&
         !(rc = cc_store_summary_days(s, model, INT64_MIN / 4, INT64_MAX / 4, &days, &n_days,
                                      &err)) &&
         n_days > 0)
@@ -307,7 +309,7 @@ static void phase_report(const bench *b, phase_out *out, int by)
     }
     char path[PATH_CAP + 16];
     snprintf(path, sizeof path, "%s/report.json", b->dir);
-    cc_report_opts ro = {"default", 0, 0, 0, 0, (cc_grouping)by, NULL, 0, 0, 0};
+    cc_report_opts ro = {b->model, 0, 0, 0, 0, (cc_grouping)by, NULL, 0, 0, 0};
     double start = now();
     for (int i = 0; i < b->reps; i++) {
         double t0 = now();
@@ -346,7 +348,7 @@ static void phase_review(const bench *b, phase_out *out, int arg)
     cc_store *s = NULL;
     cc_model *m = NULL;
     sqlite3_stmt *q = NULL;
-    if (cc_store_open(&s, b->db, 0, &err) || cc_store_model_get(s, "default", &m, &err)) {
+    if (cc_store_open(&s, b->db, 0, &err) || cc_store_model_get(s, b->model, &m, &err)) {
         fail(out, "%s", err.msg);
         cc_store_close(s);
         return;
@@ -572,6 +574,8 @@ static void usage(FILE *f)
           "  --seed S           generator seed (default 1)\n"
           "  --label-share F    fraction of events with a label (default 0.3)\n"
           "  --input FILE       use this JSON Lines file instead of generating one\n"
+          "  --model NAME       the model to measure (default: the first line's \"model\",\n"
+          "                     or \"default\" when it has none)\n"
           "  --reps R           report repetitions, 1..1000 (default 20)\n"
           "  --batch B          lines per ingest transaction (default: the library's)\n"
           "  --dir DIR          where to create the temporary directory\n"
@@ -580,6 +584,39 @@ static void usage(FILE *f)
           "  --keep             keep the temporary directory (events file, database)\n"
           "  -h, --help         show this text\n",
           f);
+}
+
+/* The model the phases work on: --model, else the "model" of the first line
+ * that parses (ingest stores each line under its own model), else "default"
+ * (what ingest uses for lines without one). Returns 0 or -1 after a message. */
+static int resolve_model(bench *b)
+{
+    if (b->model_opt) {
+        snprintf(b->model, sizeof b->model, "%s", b->model_opt);
+        return 0;
+    }
+    snprintf(b->model, sizeof b->model, "default");
+    FILE *f = fopen(b->events, "rb");
+    if (!f) {
+        fprintf(stderr, "concord-bench: %s: %s\n", b->events, strerror(errno));
+        return -1;
+    }
+    cc_parser *p = cc_parser_create();
+    cc_line_reader *r = p ? cc_line_reader_create(f) : NULL;
+    cc_line ln;
+    cc_event ev;
+    char why[256];
+    while (r && cc_line_reader_next(r, &ln) > 0) {
+        if (ln.too_long || cc_parse_event(p, ln.text, ln.len, &ev, why, sizeof why) != 0)
+            continue;
+        if (ev.model)
+            snprintf(b->model, sizeof b->model, "%s", ev.model);
+        break;
+    }
+    cc_line_reader_free(r);
+    cc_parser_free(p);
+    fclose(f);
+    return 0;
 }
 
 static int parse_args(int argc, char **argv, bench *b)
@@ -601,7 +638,7 @@ static int parse_args(int argc, char **argv, bench *b)
         static const char *const valued[] = {"--n",    "--members", "--classes",
                                              "--days", "--seed",    "--label-share",
                                              "--input", "--reps",   "--batch",
-                                             "--dir"};
+                                             "--dir",  "--model"};
         int known = 0;
         for (size_t j = 0; j < sizeof valued / sizeof *valued; j++)
             known |= !strcmp(a, valued[j]);
@@ -638,6 +675,8 @@ static int parse_args(int argc, char **argv, bench *b)
             bad = cc_synth_parse_int(v, &b->reps) || b->reps < 1 || b->reps > MAX_REPS;
         else if (!strcmp(a, "--batch"))
             bad = cc_synth_parse_int(v, &b->batch) || b->batch < 1;
+        else if (!strcmp(a, "--model"))
+            b->model_opt = v;
         else
             b->parent = v;
         if (bad) {
@@ -691,6 +730,8 @@ int main(int argc, char **argv)
         run_phase(&b, phase_generate, 0, &gen);
         failed |= report_failure("generate", &gen);
     }
+    if (!failed && resolve_model(&b))
+        failed = 1;
     if (!failed) {
         run_phase(&b, phase_parse, 0, &parse);
         failed |= report_failure("parse", &parse);
@@ -730,7 +771,7 @@ int main(int argc, char **argv)
         printf("concord-bench: N = %s events, M = %d members, K = %d classes",
                grouped(n_txt, sizeof n_txt, (double)lines), parse.out.m, parse.out.k);
         if (b.input)
-            printf(" (from %s)\n", b.input);
+            printf(" (from %s, model '%s')\n", b.input, b.model);
         else
             printf(", %d days, label share %.2f, seed %llu\n", b.synth.days,
                    b.synth.label_share, (unsigned long long)b.synth.seed);

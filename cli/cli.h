@@ -111,14 +111,20 @@ int cmd_report(int argc, char **argv);
 int cmd_verify(int argc, char **argv);
 int cmd_demo(int argc, char **argv);
 /* The report as an HTML page in *out, with the review lists of its range
- * unless with_review is 0 (cmd_report.c). Returns an exit code. */
+ * (cmd_report.c): review_max 0 leaves them out, CLI_REVIEW_ALL reads every
+ * event of the range, N > 0 reads about N of them when the range has more
+ * (one in ceil(events / N) by arrival order; the page says so). Returns an
+ * exit code. */
+#define CLI_REVIEW_ALL (-1)
+#define CLI_REVIEW_MAX_DEFAULT 100000
 struct cc_store;
 struct cc_report;
-int cli_report_html(struct cc_store *store, const struct cc_report *r, int with_review,
+int cli_report_html(struct cc_store *store, const struct cc_report *r, long long review_max,
                     const char *note, char **out);
 /* The same with the status line from these rules (NULL: the default rules). */
-int cli_report_html_rules(struct cc_store *store, const struct cc_report *r, int with_review,
-                          const char *note, const char *rules_path, char **out);
+int cli_report_html_rules(struct cc_store *store, const struct cc_report *r,
+                          long long review_max, const char *note, const char *rules_path,
+                          char **out);
 int cmd_review(int argc, char **argv);
 int cmd_show(int argc, char **argv);
 int cmd_prune(int argc, char **argv);
@@ -143,6 +149,22 @@ int cmd_follow(int argc, char **argv);
 int cmd_models(int argc, char **argv);
 extern const char help_models[];
 extern const char help_check[], help_alerts[], help_deliver[], help_rules[], help_follow[];
+int cmd_serve(int argc, char **argv);
+extern const char help_serve[];
+/* The clock of the long-running commands (cmd_follow.c): CONCORD_NOW, when
+ * set, is the time at start, and it runs forward from there. */
+#include <time.h>
+typedef struct cli_clock {
+    int64_t start_now;
+    struct timespec start;
+} cli_clock;
+void cli_clock_start(cli_clock *c);
+int64_t cli_clock_now(void *ctx); /* ctx: a cli_clock, or a struct that begins with one */
+/* What follow and serve print after a day-close check and a delivery. */
+struct cc_check_result;
+struct cc_deliver_stats;
+void cli_on_check(void *ctx, const struct cc_check_result *r);
+void cli_on_deliver(void *ctx, const struct cc_deliver_stats *st);
 struct cc_check_result;
 struct cc_deliver_stats;
 int64_t cli_now(void);

@@ -175,7 +175,7 @@ int cmd_demo(int argc, char **argv)
         rc = cli_fail(&err);
         goto done;
     }
-    if ((rc = cli_report_html(store, rep, 1,
+    if ((rc = cli_report_html(store, rep, CLI_REVIEW_MAX_DEFAULT,
                               "Invented data from concord demo: an imaginary apple packhouse, "
                               "not real measurements.",
                               &page)) != EXIT_OK)

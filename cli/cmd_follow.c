@@ -40,15 +40,20 @@ static void on_signal(int sig)
 }
 
 typedef struct follow_ctx {
-    int64_t start_now;
-    struct timespec start;
+    cli_clock clock; /* first: the ctx is also a cli_clock */
     int64_t rejects_shown;
 } follow_ctx;
 
-/* CONCORD_NOW (when set) is the clock at start; it then runs forward. */
-static int64_t now_fn(void *ctx)
+void cli_clock_start(cli_clock *c)
 {
-    follow_ctx *c = ctx;
+    c->start_now = cli_now();
+    clock_gettime(CLOCK_MONOTONIC, &c->start);
+}
+
+/* CONCORD_NOW (when set) is the clock at start; it then runs forward. */
+int64_t cli_clock_now(void *ctx)
+{
+    cli_clock *c = ctx;
     struct timespec t;
     clock_gettime(CLOCK_MONOTONIC, &t);
     return c->start_now + (int64_t)(t.tv_sec - c->start.tv_sec);
@@ -69,14 +74,14 @@ static void on_note(void *ctx, const char *msg)
     fputc('\n', stderr);
 }
 
-static void on_check(void *ctx, const cc_check_result *r)
+void cli_on_check(void *ctx, const cc_check_result *r)
 {
     (void)ctx;
     cli_print_check(r, 0, 0, NULL, stdout);
     fflush(stdout);
 }
 
-static void on_deliver(void *ctx, const cc_deliver_stats *st)
+void cli_on_deliver(void *ctx, const cc_deliver_stats *st)
 {
     (void)ctx;
     printf("delivery: %d sent, %d failed (retried later), %d became dead letters\n", st->sent,
@@ -136,8 +141,8 @@ int cmd_follow(int argc, char **argv)
     cc_ruleset *rs = NULL;
     cc_store *store = NULL;
     cc_receiver extra = {0};
-    follow_ctx ctx = {cli_now(), {0, 0}, 0};
-    clock_gettime(CLOCK_MONOTONIC, &ctx.start);
+    follow_ctx ctx = {{0, {0, 0}}, 0};
+    cli_clock_start(&ctx.clock);
     if (rules && cc_rules_load(&rs, rules, &err)) {
         free(pos);
         return cli_fail(&err);
@@ -163,14 +168,14 @@ int cmd_follow(int argc, char **argv)
     fo.extra = hook ? &extra : NULL;
     fo.n_extra = hook ? 1 : 0;
     fo.stop = &stop_flag;
-    fo.now = now_fn;
+    fo.now = cli_clock_now;
     fo.on_reject = on_reject;
     fo.on_note = on_note;
-    fo.on_check = on_check;
-    fo.on_deliver = on_deliver;
+    fo.on_check = cli_on_check;
+    fo.on_deliver = cli_on_deliver;
     fo.ctx = &ctx;
     if (getenv("CONCORD_NOW"))
-        fo.ingest_now = ctx.start_now;
+        fo.ingest_now = ctx.clock.start_now;
     cc_follow_stats st;
     cc_webhook_global_init();
     int opened;

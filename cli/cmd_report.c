@@ -9,13 +9,16 @@
 #include "report.h"
 #include "date.h"
 #include "review.h"
+#include "summary.h"
 
 const char help_report[] =
     "usage: concord report (--db FILE | --store URL) --model NAME [--from DATE] [--to DATE]\n"
     "                      [--by day|week|all] [--format text|json|html] [--no-review]\n"
-    "                      [--rules FILE] [--segment S | --by-segment] [-o FILE]\n"
+    "                      [--review-max N|all] [--rules FILE] [--segment S | --by-segment]\n"
+    "                      [-o FILE]\n"
     "       concord report --db FILE --model NAME --by hour --from TIME --to TIME\n"
-    "                      [--format text|json|html] [--no-review] [--rules FILE] [-o FILE]\n\n"
+    "                      [--format text|json|html] [--no-review] [--review-max N|all]\n"
+    "                      [--rules FILE] [-o FILE]\n\n"
     "Diversity of the members (disagreement, Cohen's and Fleiss' kappa), uncertainty of\n"
     "the averaged output (entropy, expected entropy, mutual information), class mix,\n"
     "contested class pairs, and on labelled events accuracy of members, ensemble, vote\n"
@@ -32,6 +35,10 @@ const char help_report[] =
     "  --format html      one self-contained page with charts (write it with -o); it also\n"
     "                     reads the range's event rows for the review lists, unless\n"
     "  --no-review        is given\n"
+    "  --review-max N|all the page's review reads at most about N events (default\n"
+    "                     100000): when the range has more, one in ceil(events / N) in\n"
+    "                     arrival order, and the page says so; 'all' reads every event\n"
+    "                     (as `concord review` does)\n"
     "  --rules FILE       replay these alert rules day by day over the report's days\n"
     "                     (from a fresh state, recording and sending nothing) and add the\n"
     "                     alert timeline; the HTML page's status line always comes from\n"
@@ -75,7 +82,7 @@ static int timeline_of(cc_store *store, const cc_report *r, const char *rules_pa
     return EXIT_OK;
 }
 
-int cli_report_html_rules(cc_store *store, const cc_report *r, int with_review,
+int cli_report_html_rules(cc_store *store, const cc_report *r, long long review_max,
                           const char *note, const char *rules_path, char **out)
 {
     cc_html_extras x = CC_HTML_EXTRAS_INIT;
@@ -83,12 +90,17 @@ int cli_report_html_rules(cc_store *store, const cc_report *r, int with_review,
     cc_error err = CC_ERROR_INIT;
     x.note = note;
     *out = NULL;
-    if (with_review && r->n_windows > 0) {
+    if (review_max != 0 && r->n_windows > 0) {
         cc_review_opts o = CC_REVIEW_OPTS_INIT;
         o.from = r->windows[0].from * 86400;
         o.to = r->windows[r->n_windows - 1].to * 86400 + 86399;
         o.lists = ((1u << CC_REVIEW_KINDS) - 1) & ~(1u << CC_REVIEW_PAIR);
         o.limit = 10;
+        const int64_t events =
+            r->range ? cc_summary_data(r->range)[cc_summary_layout(r->range)->n_events] : 0;
+        if (review_max > 0 && events > review_max)
+            o.sample_every = (events + review_max - 1) / review_max;
+        x.review_range_events = events;
         if (cc_review_run(&rv, store, r->model, &o, &err))
             return cli_fail(&err);
         x.review = rv;
@@ -107,10 +119,10 @@ int cli_report_html_rules(cc_store *store, const cc_report *r, int with_review,
     return EXIT_OK;
 }
 
-int cli_report_html(cc_store *store, const cc_report *r, int with_review, const char *note,
+int cli_report_html(cc_store *store, const cc_report *r, long long review_max, const char *note,
                     char **out)
 {
-    return cli_report_html_rules(store, r, with_review, note, NULL, out);
+    return cli_report_html_rules(store, r, review_max, note, NULL, out);
 }
 
 /* --from/--to of `--by hour`: a date (its first second; for --to the
@@ -142,8 +154,9 @@ int cmd_report(int argc, char **argv)
                       {"to", 0, 1, NULL},  {"by", 0, 1, NULL},     {"format", 0, 1, NULL},
                       {"output", 'o', 1, NULL}, {"no-review", 0, 0, NULL},
                       {"rules", 0, 1, NULL}, {"store", 0, 1, NULL},
-                      {"segment", 0, 1, NULL}, {"by-segment", 0, 0, NULL}};
-    int n_opts = 12, n_pos, help;
+                      {"segment", 0, 1, NULL}, {"by-segment", 0, 0, NULL},
+                      {"review-max", 0, 1, NULL}};
+    int n_opts = 13, n_pos, help;
     char *pos[64];
     if (argc > 64 || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, "report"))
         return EXIT_USAGE;
@@ -193,6 +206,20 @@ int cmd_report(int argc, char **argv)
     } else {
         return cli_usage("report", "--by must be hour, day, week or all, not '%s'", by);
     }
+    long long review_max = CLI_REVIEW_MAX_DEFAULT;
+    const char *rmax = cli_get(opts, n_opts, "review-max");
+    if (rmax && strcmp(rmax, "all") == 0) {
+        review_max = CLI_REVIEW_ALL;
+    } else if (rmax) {
+        char *end;
+        errno = 0;
+        review_max = strtoll(rmax, &end, 10);
+        if (errno || end == rmax || *end || review_max < 1)
+            return cli_usage("report", "--review-max must be a whole number >= 1 or 'all', not '%s'",
+                             rmax);
+    }
+    if (cli_get(opts, n_opts, "no-review"))
+        review_max = 0;
     int json = format && strcmp(format, "json") == 0;
     int html = format && strcmp(format, "html") == 0;
     if (format && !json && !html && strcmp(format, "text") != 0)
@@ -246,8 +273,7 @@ int cmd_report(int argc, char **argv)
         char *text = NULL;
         const char *rules = cli_get(opts, n_opts, "rules");
         if (html) {
-            rc = cli_report_html_rules(store, r, !cli_get(opts, n_opts, "no-review"), NULL,
-                                       rules, &text);
+            rc = cli_report_html_rules(store, r, review_max, NULL, rules, &text);
         } else if (rules) {
             cli_replay rp;
             cc_report_timeline t;

@@ -29,6 +29,7 @@ static const cli_command commands[] = {
     {"follow", cmd_follow, "tail growing log files, ingest, check when a day closes",
      help_follow},
     {"publish", cmd_publish, "send a host's store to a ClickHouse cluster", help_publish},
+    {"serve", cmd_serve, "serve the database over HTTP: ingest, reports, metrics", help_serve},
 };
 
 const char *cli_program = "concord";

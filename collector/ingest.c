@@ -548,13 +548,21 @@ static int resolve_label(const cc_model *model, int label, const char *name, int
     return 0;
 }
 
-static int take_event(cc_ingest *ing, const char *source, const cc_line *ln, cc_error *err)
+/* Parsing and shape checks of one record: needs no store and no model, only
+ * the parser (one per thread), so it may run apart from the store step. */
+static int parse_event(cc_parser *p, const cc_line *ln, cc_event *ev, char *why, size_t why_len)
+{
+    return cc_parse_event(p, ln->text, ln->len, ev, why, why_len);
+}
+
+/* The store step of one parsed event: the model (from the cache, the store,
+ * or created), checks against its shape, the row and the summary delta. */
+static int store_event(cc_ingest *ing, const char *source, const cc_line *ln,
+                       const cc_event *evp, cc_error *err)
 {
     char why[256];
-    cc_event ev;
+    cc_event ev = *evp;
     int fatal = 0, label = -1;
-    if (cc_parse_event(ing->parser, ln->text, ln->len, &ev, why, sizeof why))
-        return reject(ing, "event", source, ln, why, err);
     const char *name = ev.model ? ev.model : ing->opts.model;
     model_state *ms = model_for(ing, name, ev.m, ev.k, why, sizeof why, &fatal, err);
     if (!ms)
@@ -610,20 +618,43 @@ static int take_event(cc_ingest *ing, const char *source, const cc_line *ln, cc_
     return 0;
 }
 
+static int take_event(cc_ingest *ing, const char *source, const cc_line *ln, cc_error *err)
+{
+    char why[256];
+    cc_event ev;
+    if (parse_event(ing->parser, ln, &ev, why, sizeof why))
+        return reject(ing, "event", source, ln, why, err);
+    return store_event(ing, source, ln, &ev, err);
+}
+
+/* Labels: the same two steps. */
+static int parse_label(cc_parser *p, const cc_line *ln, cc_label_line *lab, char *why,
+                       size_t why_len)
+{
+    return cc_parse_label(p, ln->text, ln->len, lab, why, why_len);
+}
+
+static int store_label(cc_ingest *ing, const char *source, const cc_line *ln,
+                       const cc_label_line *lab, cc_error *err)
+{
+    char why[256];
+    int fatal = 0, label;
+    const char *name = lab->model ? lab->model : ing->opts.model;
+    model_state *ms = model_for(ing, name, 0, 0, why, sizeof why, &fatal, err);
+    if (!ms)
+        return fatal ? -1 : reject(ing, "label", source, ln, why, err);
+    if (resolve_label(ms->model, lab->label, lab->label_name, &label, why, sizeof why))
+        return reject(ing, "label", source, ln, why, err);
+    return apply_label(ing, ms, lab->id, lab->id_len, label, ing->now, err);
+}
+
 static int take_label(cc_ingest *ing, const char *source, const cc_line *ln, cc_error *err)
 {
     char why[256];
     cc_label_line lab;
-    int fatal = 0, label;
-    if (cc_parse_label(ing->parser, ln->text, ln->len, &lab, why, sizeof why))
+    if (parse_label(ing->parser, ln, &lab, why, sizeof why))
         return reject(ing, "label", source, ln, why, err);
-    const char *name = lab.model ? lab.model : ing->opts.model;
-    model_state *ms = model_for(ing, name, 0, 0, why, sizeof why, &fatal, err);
-    if (!ms)
-        return fatal ? -1 : reject(ing, "label", source, ln, why, err);
-    if (resolve_label(ms->model, lab.label, lab.label_name, &label, why, sizeof why))
-        return reject(ing, "label", source, ln, why, err);
-    return apply_label(ing, ms, lab.id, lab.id_len, label, ing->now, err);
+    return store_label(ing, source, ln, &lab, err);
 }
 
 static int is_blank(const char *s, size_t n)
@@ -634,10 +665,55 @@ static int is_blank(const char *s, size_t n)
     return 1;
 }
 
+/* One line of either kind: counted unless blank, refused when too long,
+ * taken, and the batch committed when it is full. */
+static int take_record(cc_ingest *ing, const char *source, const cc_line *ln,
+                       cc_record_kind kind, cc_error *err)
+{
+    const char *kind_name = kind == CC_RECORD_EVENTS ? "event" : "label";
+    if (ln->too_long) {
+        char why[160];
+        snprintf(why, sizeof why, "line is %zu bytes, longer than the limit of %u bytes",
+                 ln->full_len, CC_LINE_MAX);
+        ing->stats.lines++;
+        return reject(ing, kind_name, source, ln, why, err);
+    }
+    if (is_blank(ln->text, ln->len))
+        return 0;
+    ing->stats.lines++;
+    int rc = kind == CC_RECORD_EVENTS ? take_event(ing, source, ln, err)
+                                      : take_label(ing, source, ln, err);
+    if (!rc && !ing->opts.strict && ++ing->since_commit >= ing->opts.batch)
+        rc = commit_batch(ing, err);
+    return rc;
+}
+
+int cc_ingest_line(cc_ingest *ing, const char *text, size_t len, const char *source,
+                   int64_t line, cc_record_kind kind, cc_error *err)
+{
+    if (!ing->in_tx) {
+        int rc = begin(ing, err);
+        if (rc)
+            return rc;
+    }
+    if (len > 0 && text[len - 1] == '\n')
+        len--;
+    cc_line ln = {text, len, len, line, 0, 0};
+    if (len > CC_LINE_MAX) {
+        ln.len = 0;
+        ln.too_long = 1;
+    }
+    return take_record(ing, source, &ln, kind, err);
+}
+
+void cc_ingest_set_model(cc_ingest *ing, const char *model)
+{
+    ing->opts.model = model ? model : "default";
+}
+
 int cc_ingest_stream(cc_ingest *ing, FILE *f, const char *source, int64_t first_line,
                      cc_record_kind kind, cc_error *err)
 {
-    const char *kind_name = kind == CC_RECORD_EVENTS ? "event" : "label";
     if (!ing->in_tx) {
         int rc = begin(ing, err);
         if (rc)
@@ -665,23 +741,9 @@ int cc_ingest_stream(cc_ingest *ing, FILE *f, const char *source, int64_t first_
             ing->file_failed = 1;
             break;
         }
-        if (ln.too_long) {
-            char why[160];
-            snprintf(why, sizeof why, "line is %zu bytes, longer than the limit of %u bytes",
-                     ln.full_len, CC_LINE_MAX);
-            ing->stats.lines++;
-            lines_here++;
-            rc = reject(ing, kind_name, source, &ln, why, err);
-            continue;
-        }
-        if (is_blank(ln.text, ln.len))
-            continue;
-        ing->stats.lines++;
-        lines_here++;
-        rc = kind == CC_RECORD_EVENTS ? take_event(ing, source, &ln, err)
-                                      : take_label(ing, source, &ln, err);
-        if (!rc && !ing->opts.strict && ++ing->since_commit >= ing->opts.batch)
-            rc = commit_batch(ing, err);
+        int64_t before = ing->stats.lines;
+        rc = take_record(ing, source, &ln, kind, err);
+        lines_here += ing->stats.lines - before;
     }
     if (!rc && lines_here == 0)
         ing->stats.empty_files++;

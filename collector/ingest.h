@@ -68,6 +68,21 @@ int cc_ingest_create(cc_ingest **out, cc_store *store, const cc_ingest_opts *opt
  * recorded; only I/O and database failures return an error. */
 int cc_ingest_file(cc_ingest *ing, const char *path, cc_record_kind kind, cc_error *err);
 
+/* One record: text (len bytes, a final newline is dropped) is taken as
+ * line number line of source, exactly as cc_ingest_stream takes each line of
+ * a file: blank lines are skipped, lines over CC_LINE_MAX and bad lines are
+ * rejected and recorded, good ones stored, and the batch committed when it
+ * holds opts.batch lines. Only database failures (and out of memory) return
+ * an error. Inside, the record is parsed and checked by steps that need no
+ * store (the parser only), then stored. For callers that receive records
+ * from elsewhere (an HTTP request body). */
+int cc_ingest_line(cc_ingest *ing, const char *text, size_t len, const char *source,
+                   int64_t line, cc_record_kind kind, cc_error *err);
+
+/* The default model of lines without "model" from now on (the string is
+ * borrowed: it must outlive its use). NULL means "default". */
+void cc_ingest_set_model(cc_ingest *ing, const char *model);
+
 /* The same for an open stream (not closed here): lines are numbered from
  * first_line and reported, and recorded as rejects, under the name source.
  * For readers that hand over complete lines from elsewhere (follow mode). */

@@ -392,12 +392,14 @@ static int scan_one(void *ctx, const char *id, int64_t ts, int label, const floa
     return 0;
 }
 
-/* The scan: every event of the range, once, in the store's time order. */
+/* The scan: every event of the range (or the store's sample of one in
+ * sample_every), once, in the store's time order. */
 static int scan(cc_review *rv, cc_store *s, const cc_model *m, scan_state *st, cc_error *err)
 {
     const cc_review_opts *o = &rv->opts;
     scan_ctx c = {rv, s, m, st, err, 0};
-    int rc = cc_store_events_scan(s, m, o->from, o->to, o->segment, scan_one, &c, err);
+    int rc = cc_store_events_sample(s, m, o->from, o->to, o->segment, o->sample_every, scan_one,
+                                    &c, err);
     return c.rc ? c.rc : rc;
 }
 

@@ -42,9 +42,12 @@ typedef struct cc_review_opts {
     int deferred;         /* 1: keep each list's ranked ids only and read the events
                              one at a time in cc_review_each (memory: about 50 bytes
                              per kept id instead of a few KiB per event) */
+    int64_t sample_every; /* > 1: read only the events whose rowid (arrival order) is a
+                             multiple of it, a deterministic sample spread over the range;
+                             summary, counts and lists are then of those events only */
 } cc_review_opts;
 
-#define CC_REVIEW_OPTS_INIT {0, 0, NULL, 1u << CC_REVIEW_WRONG, 20, -1, -1, 0}
+#define CC_REVIEW_OPTS_INIT {0, 0, NULL, 1u << CC_REVIEW_WRONG, 20, -1, -1, 0, 1}
 
 typedef struct cc_review_event {
     char *id;

@@ -1527,4 +1527,5 @@ const cc_store_backend cc_sq_backend = {
     .events_between = sq_events_between,
     .model_totals = cc_sq_model_totals,
     .slice_add = cc_sq_slice_add,
+    .events_sample = cc_sq_events_sample,
 };

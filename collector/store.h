@@ -217,6 +217,14 @@ typedef int (*cc_event_scan_fn)(void *ctx, const char *id, int64_t ts, int label
  * segment unless segment is NULL, through the index on (model, day, ts). */
 int cc_store_events_scan(cc_store *s, const cc_model *m, int64_t from, int64_t to,
                          const char *segment, cc_event_scan_fn fn, void *ctx, cc_error *err);
+/* The same events thinned to about one in `every` (every <= 1: all of
+ * them, as cc_store_events_scan): SQLite keeps those whose rowid (arrival
+ * order) is a multiple of every, read through the index entries so the rows
+ * left out are never read; a backend without this op gives every every-th
+ * event of its scan. Deterministic: the same rows give the same sample. */
+int cc_store_events_sample(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+                           const char *segment, int64_t every, cc_event_scan_fn fn, void *ctx,
+                           cc_error *err);
 
 typedef struct cc_event_rec {
     int64_t ts;

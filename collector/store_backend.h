@@ -169,6 +169,11 @@ typedef struct cc_store_backend {
     int (*model_totals)(cc_store *s, const cc_model *m, cc_model_totals *out, cc_error *err);
     int (*slice_add)(cc_store *s, const cc_model *m, int kind, const char *segment, int len,
                      int64_t *slice, cc_error *err);
+    /* Review's bounded sample (cc_store_events_sample; NULL: the dispatch
+     * thins events_scan). */
+    int (*events_sample)(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+                         const char *segment, int64_t every, cc_event_scan_fn fn, void *ctx,
+                         cc_error *err);
     /* (new ops go here, at the end) */
 } cc_store_backend;
 

@@ -234,6 +234,34 @@ int cc_store_events_scan(cc_store *s, const cc_model *m, int64_t from, int64_t t
     return CALL(s, events_scan, "scan events", 0, m, from, to, segment, fn, ctx, err);
 }
 
+/* events_sample's stand-in for a backend without it: every every-th event
+ * of the full scan. */
+typedef struct thin_ctx {
+    cc_event_scan_fn fn;
+    void *ctx;
+    int64_t every, seen;
+} thin_ctx;
+
+static int thin_one(void *ctx, const char *id, int64_t ts, int label, const float *probs)
+{
+    thin_ctx *t = ctx;
+    if (++t->seen % t->every)
+        return 0;
+    return t->fn(t->ctx, id, ts, label, probs);
+}
+
+int cc_store_events_sample(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+                           const char *segment, int64_t every, cc_event_scan_fn fn, void *ctx,
+                           cc_error *err)
+{
+    if (every <= 1)
+        return cc_store_events_scan(s, m, from, to, segment, fn, ctx, err);
+    if (HAS(s, events_sample))
+        return s->be->events_sample(s, m, from, to, segment, every, fn, ctx, err);
+    thin_ctx t = {fn, ctx, every, 0};
+    return cc_store_events_scan(s, m, from, to, segment, thin_one, &t, err);
+}
+
 int cc_store_event_read(cc_store *s, const cc_model *m, const char *id, int *found,
                         cc_event_rec *out, float *probs, cc_error *err)
 {

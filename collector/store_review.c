@@ -7,8 +7,12 @@
 #include "date.h"
 #include "store_sqlite.h"
 
-int cc_sq_events_scan(cc_store *store, const cc_model *m, int64_t from, int64_t to,
-                      const char *segment, cc_event_scan_fn fn, void *ctx, cc_error *err)
+/* The range's events, or (every > 1) those whose rowid is a multiple of
+ * every: the rowid is in the index entries, so the rows left out are not
+ * read. */
+static int scan_rows(cc_store *store, const cc_model *m, int64_t from, int64_t to,
+                     const char *segment, int64_t every, cc_event_scan_fn fn, void *ctx,
+                     cc_error *err)
 {
     sq_store *s = SQ(store);
     sqlite3_stmt *q = NULL;
@@ -20,7 +24,8 @@ int cc_sq_events_scan(cc_store *store, const cc_model *m, int64_t from, int64_t 
     if (sqlite3_prepare_v2(s->db,
                            "SELECT id, ts, label, probs FROM events "
                            "WHERE model_id = ?1 AND day BETWEEN ?2 AND ?3 AND ts BETWEEN ?4 "
-                           "AND ?5 AND (?6 IS NULL OR segment = ?6)",
+                           "AND ?5 AND (?6 IS NULL OR segment = ?6) "
+                           "AND (?7 <= 1 OR rowid % ?7 = 0)",
                            -1, &q, NULL) != SQLITE_OK) {
         free(probs);
         return cc_sq_error(s, err, "preparing the review query");
@@ -32,6 +37,7 @@ int cc_sq_events_scan(cc_store *store, const cc_model *m, int64_t from, int64_t 
     sqlite3_bind_int64(q, 5, to);
     if (segment)
         sqlite3_bind_text(q, 6, segment, -1, SQLITE_STATIC);
+    sqlite3_bind_int64(q, 7, every);
     while (!rc && (step = sqlite3_step(q)) == SQLITE_ROW) {
         const char *id = (const char *)sqlite3_column_text(q, 0);
         int label = sqlite3_column_type(q, 2) == SQLITE_NULL ? -1 : sqlite3_column_int(q, 2);
@@ -48,6 +54,19 @@ int cc_sq_events_scan(cc_store *store, const cc_model *m, int64_t from, int64_t 
     sqlite3_finalize(q);
     free(probs);
     return rc;
+}
+
+int cc_sq_events_scan(cc_store *store, const cc_model *m, int64_t from, int64_t to,
+                      const char *segment, cc_event_scan_fn fn, void *ctx, cc_error *err)
+{
+    return scan_rows(store, m, from, to, segment, 1, fn, ctx, err);
+}
+
+int cc_sq_events_sample(cc_store *store, const cc_model *m, int64_t from, int64_t to,
+                        const char *segment, int64_t every, cc_event_scan_fn fn, void *ctx,
+                        cc_error *err)
+{
+    return scan_rows(store, m, from, to, segment, every, fn, ctx, err);
 }
 
 int cc_sq_event_read(cc_store *store, const cc_model *m, const char *id, int *found,

@@ -58,6 +58,9 @@ int cc_sq_has_table(sq_store *s, const char *name);
  * the contracts of the store.h functions of the same names. */
 int cc_sq_events_scan(cc_store *s, const cc_model *m, int64_t from, int64_t to,
                       const char *segment, cc_event_scan_fn fn, void *ctx, cc_error *err);
+int cc_sq_events_sample(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+                        const char *segment, int64_t every, cc_event_scan_fn fn, void *ctx,
+                        cc_error *err);
 int cc_sq_event_read(cc_store *s, const cc_model *m, const char *id, int *found,
                      cc_event_rec *out, float *probs, cc_error *err);
 int cc_sq_labeled_day_last(cc_store *s, const cc_model *m, int64_t day, int *found,

@@ -54,8 +54,14 @@ static cc_ks ks_of(const int64_t *a, const int64_t *b)
  * posterior is the baseline's label distribution in that cell (histogram
  * binning, Zadrozny & Elkan 2001), shrunk toward the cell's mean averaged
  * output with EM_PRIOR_WEIGHT pseudo-events. Cells the baseline never saw
- * keep their own mean averaged output. Each cell weighs its window count. */
+ * keep their own mean averaged output. Each cell weighs its window count.
+ * SQUAREM-accelerated, and stopped when three steps raise the log-likelihood
+ * by less than EM_LL_TOL per event: plain EM hit its 2,000-step cap in most
+ * windows at 64 x 256 (5,000 events over 28 days) and took most of a by-day
+ * report's time. On seven such windows the answers lie within 2e-4 (L1) of
+ * 100,000 plain steps, closer than 2,000 plain steps came (5e-4). */
 #define EM_PRIOR_WEIGHT 5.0
+#define EM_LL_TOL 1e-11
 
 static int em_from_cells(cc_comparison *out, const cc_layout *L, const int64_t *v,
                          const int64_t *bv, const double *source_priors)
@@ -89,7 +95,8 @@ static int em_from_cells(cc_comparison *out, const cc_layout *L, const int64_t *
         wt[n++] = (double)cell[0];
     }
     cc_em em = {out->em, 0, 0, 0};
-    if (n > 0 && cc_em_estimate(&em, post, wt, n, k, source_priors, 1e-10, 2000) != 0)
+    if (n > 0 && cc_em_estimate_squarem(&em, post, wt, n, k, source_priors, 1e-10, EM_LL_TOL,
+                                        2000) != 0)
         rc = -1;
     out->em_iterations = em.iterations;
     out->em_converged = em.converged;
@@ -100,7 +107,45 @@ done:
     return rc;
 }
 
+struct cc_comparison_cache {
+    const cc_summary *baseline; /* what the plan was made from, checked on use */
+    cc_bbse_plan *bbse;
+};
+
+int cc_comparison_cache_create(cc_comparison_cache **out, const cc_summary *b)
+{
+    *out = NULL;
+    if (!b)
+        return 0;
+    const cc_layout *BL = cc_summary_layout(b);
+    const int64_t *bv = cc_summary_data(b);
+    if (bv[BL->n_labeled] < CC_DRIFT_MIN_EVENTS)
+        return 0;
+    cc_comparison_cache *c = calloc(1, sizeof *c);
+    if (!c || cc_bbse_plan_create(&c->bbse, bv + BL->confusion, BL->k) != 0) {
+        free(c);
+        return -1;
+    }
+    c->baseline = b;
+    *out = c;
+    return 0;
+}
+
+void cc_comparison_cache_free(cc_comparison_cache *c)
+{
+    if (!c)
+        return;
+    cc_bbse_plan_free(c->bbse);
+    free(c);
+}
+
 int cc_comparison_compute(cc_comparison *out, const cc_summary *w, const cc_summary *b)
+{
+    return cc_comparison_compute_cached(out, w, b, NULL);
+}
+
+int cc_comparison_compute_cached(cc_comparison *out, const cc_summary *w, const cc_summary *b,
+                                 const cc_comparison_cache *cache)
 {
     const cc_layout *L = cc_summary_layout(w);
     const int64_t *v = cc_summary_data(w);
@@ -186,7 +231,10 @@ int cc_comparison_compute(cc_comparison *out, const cc_summary *w, const cc_summ
             source[c] = (double)bv[BL->label_counts + c] / (double)base_labeled;
     if (base_labeled >= CC_DRIFT_MIN_EVENTS && events > 0) {
         cc_bbse bb = {out->bbse, NAN, 0, 0, 0};
-        if (cc_bbse_estimate(&bb, bv + BL->confusion, v + L->pred_counts, k) != 0) {
+        const int brc = cache && cache->baseline == b && cache->bbse
+                            ? cc_bbse_plan_apply(cache->bbse, &bb, v + L->pred_counts)
+                            : cc_bbse_estimate(&bb, bv + BL->confusion, v + L->pred_counts, k);
+        if (brc != 0) {
             cc_comparison_free(out);
             return -1;
         }

@@ -52,4 +52,17 @@ typedef struct cc_comparison {
 int cc_comparison_compute(cc_comparison *out, const cc_summary *w, const cc_summary *b);
 void cc_comparison_free(cc_comparison *c);
 
+/* What every comparison against one baseline shares (the SVD of its labelled
+ * confusion, for BBSE), computed once: for reports that compare many windows
+ * with the same baseline. *out is NULL (return 0) when b has too few labels
+ * for BBSE. Returns 0 or -1 (out of memory). */
+typedef struct cc_comparison_cache cc_comparison_cache;
+int cc_comparison_cache_create(cc_comparison_cache **out, const cc_summary *b);
+void cc_comparison_cache_free(cc_comparison_cache *c);
+
+/* cc_comparison_compute with a cache made from the same b (NULL: none); the
+ * figures are the same bit for bit. */
+int cc_comparison_compute_cached(cc_comparison *out, const cc_summary *w, const cc_summary *b,
+                                 const cc_comparison_cache *cache);
+
 #endif

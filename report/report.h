@@ -64,6 +64,7 @@ typedef struct cc_report {
     cc_report_window *windows;  /* cc_report_build only; none when streamed */
     int n_windows, cap_windows;
     cc_summary *range;          /* cc_report_build only: all windows merged */
+    cc_comparison_cache *cmp_cache; /* shared by the comparisons with baseline; NULL without */
     /* slices (empty for a schema-3 file read as it is) */
     cc_slice *slices;           /* loaded for --segment and --by-segment only */
     int n_slices, slice_limit;
@@ -173,9 +174,10 @@ typedef struct cc_html_extras {
     double band_k;              /* band = baseline mean +- band_k sd of its days */
     const char *note;           /* a line under the title, or NULL */
     const cc_report_timeline *timeline; /* rules evaluated over the range, or NULL */
+    int64_t review_range_events; /* events of the range, said when the review read a sample */
 } cc_html_extras;
 
-#define CC_HTML_EXTRAS_INIT {NULL, 0, NULL, 0, 3.0, NULL, NULL}
+#define CC_HTML_EXTRAS_INIT {NULL, 0, NULL, 0, 3.0, NULL, NULL, 0}
 
 /* One self-contained HTML page (inline CSS and SVG, no script); extras may
  * be NULL. Strings from the logs are escaped. */

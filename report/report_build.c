@@ -43,6 +43,7 @@ void cc_report_free(cc_report *r)
     free(r->windows);
     free(r->stats);
     cc_summary_free(r->baseline);
+    cc_comparison_cache_free(r->cmp_cache);
     cc_summary_free(r->range);
     for (int i = 0; r->slice_baselines && i < r->n_slices; i++)
         cc_summary_free(r->slice_baselines[i]);
@@ -163,6 +164,10 @@ static int load_baseline(cc_report *r, cc_store *store, cc_summary *day_sum, cc_
             goto done;
         cc_summary_merge(r->baseline, day_sum);
     }
+    if (cc_comparison_cache_create(&r->cmp_cache, r->baseline) != 0) {
+        rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+        goto done;
+    }
     const cc_layout *L = cc_summary_layout(r->baseline);
     r->baseline_events = cc_summary_data(r->baseline)[L->n_events];
     r->baseline_labeled = cc_summary_data(r->baseline)[L->n_labeled];
@@ -173,7 +178,7 @@ static int load_baseline(cc_report *r, cc_store *store, cc_summary *day_sum, cc_
         if ((rc = src_get(r, store, days[i], day_sum, err)))
             goto done;
         if (cc_window_metrics_compute(&wm, day_sum) ||
-            cc_comparison_compute(&cmp, day_sum, r->baseline)) {
+            cc_comparison_compute_cached(&cmp, day_sum, r->baseline, r->cmp_cache)) {
             cc_window_metrics_free(&wm);
             rc = cc_error_set(err, CC_ENOMEM, "out of memory");
             goto done;
@@ -213,15 +218,16 @@ static int score_window(const cc_report *r, cc_report_window *w, double *level)
 }
 
 /* A window's figures from its complete summary, against baseline (may be
- * NULL). The window owns copies of its class counts, so it outlives the
- * summary. -1 on out of memory. */
-static int window_figures(cc_report_window *w, const cc_summary *sum, const cc_summary *baseline)
+ * NULL; cache made from it, or NULL). The window owns copies of its class
+ * counts, so it outlives the summary. -1 on out of memory. */
+static int window_figures(cc_report_window *w, const cc_summary *sum, const cc_summary *baseline,
+                          const cc_comparison_cache *cache)
 {
     const cc_layout *L = cc_summary_layout(sum);
     const int64_t *v = cc_summary_data(sum);
     const size_t k = (size_t)L->k;
     if (cc_window_metrics_compute(&w->metrics, sum) ||
-        cc_comparison_compute(&w->cmp, sum, baseline) ||
+        cc_comparison_compute_cached(&w->cmp, sum, baseline, cache) ||
         !(w->counts = malloc((2 + k) * k * sizeof *w->counts)))
         return -1;
     memcpy(w->counts, v + L->pred_counts, k * sizeof *w->counts);
@@ -246,7 +252,8 @@ static int segment_rows(const cc_report *r, cc_report_window *w, const cc_summar
         sw->from = w->from;
         sw->to = w->to;
         sw->slice = i;
-        if (window_figures(sw, seg[i], r->slice_baselines ? r->slice_baselines[i] : NULL) ||
+        if (window_figures(sw, seg[i], r->slice_baselines ? r->slice_baselines[i] : NULL,
+                           NULL) ||
             cc_comparison_compute(&sw->vs_model, seg[i], whole))
             return -1;
     }
@@ -259,7 +266,7 @@ static int finish_window(cc_report *r, cc_report_window *w, cc_summary *sum,
                          cc_summary *const *seg, double *level, cc_report_window_fn fn,
                          void *payload, cc_error *err)
 {
-    if (window_figures(w, sum, r->baseline) || score_window(r, w, level) ||
+    if (window_figures(w, sum, r->baseline, r->cmp_cache) || score_window(r, w, level) ||
         (seg && segment_rows(r, w, sum, seg)))
         return cc_error_set(err, CC_ENOMEM, "out of memory");
     w->summary = sum;

@@ -137,7 +137,8 @@ static int whole_build(whole *w, const cc_report *r)
     w->sum = r->range;
     if (cc_window_metrics_compute(&w->wm, w->sum))
         return -1;
-    if (cc_comparison_compute(&w->cmp, w->sum, r->has_baseline ? r->baseline : NULL)) {
+    if (cc_comparison_compute_cached(&w->cmp, w->sum, r->has_baseline ? r->baseline : NULL,
+                                     r->cmp_cache)) {
         cc_window_metrics_free(&w->wm);
         return -1;
     }
@@ -682,6 +683,16 @@ static void review_section(page *p)
                 s->ensemble_accuracy);
     }
     fputs(" &#10003; right, &#10007; wrong.</p>\n", f);
+    if (o->sample_every > 1)
+        fprintf(f, "<p class=\"note\" id=\"review-sample\"><b>A sample.</b> The range has "
+                   "%lld events; to keep this page quick to write, its review read the %lld "
+                   "whose storage number (SQLite rowid, given in arrival order) is a multiple "
+                   "of %lld, about one in %lld, spread over the range. The counts and lists "
+                   "below are of these events only. <code>concord review</code> reads every "
+                   "event of a range, and <code>concord report --format html --review-max "
+                   "all</code> writes this page from all of them.</p>\n",
+                (long long)p->x->review_range_events, (long long)s->events,
+                (long long)o->sample_every, (long long)o->sample_every);
     fprintf(f, "<table class=\"counts\"><tbody>"
                "<tr><td>wrong: the ensemble wrong</td><td class=\"num\">%lld</td></tr>"
                "<tr><td>helped: the ensemble right, the best member wrong</td>"

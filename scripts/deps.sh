@@ -11,14 +11,18 @@
 set -euo pipefail
 
 build=(build-essential cmake pkg-config libsqlite3-dev libcjson-dev libgsl-dev
-       libcurl4-openssl-dev libssl-dev ca-certificates)
+       libcurl4-openssl-dev libssl-dev ca-certificates libmicrohttpd-dev zlib1g-dev)
 # the test suite: reference libraries (numpy, scipy, scikit-learn, statsmodels),
 # the sqlite3 shell, openssl (signatures, a self-signed certificate), headless
 # Chromium for the page, GNU time for memory bounds, clang and its runtime for
-# the fuzz targets, ClickHouse (18.16 in Debian 12) and curl for the cluster tests
+# the fuzz targets, ClickHouse (18.16 in Debian 12) and curl for the cluster
+# tests and the HTTP server's tests; pandas, venv, pip, setuptools and wheel
+# for the Python client's tests (its DataFrames, and `pip install
+# clients/python` offline)
 test=(sqlite3 openssl python3 python3-numpy python3-scipy python3-sklearn python3-statsmodels
       chromium fonts-dejavu-core time clang libclang-rt-14-dev
-      clickhouse-server clickhouse-client curl)
+      clickhouse-server clickhouse-client curl
+      python3-pandas python3-venv python3-pip python3-setuptools python3-wheel)
 
 pkgs=("${build[@]}")
 case "${1:-}" in

@@ -3,7 +3,8 @@
 # outside collector/store*.c (and their private header store_sqlite.h) no
 # source file includes sqlite3.h or the private header, calls sqlite3_* or
 # reaches for the connection (cc_store_db); metrics/ does not know the store
-# at all. tests/ and bench/ are not checked: they inspect or measure the
+# at all. Every top-level source folder is checked (serve/ and cluster/
+# included, and required to be there). tests/ and bench/ are not checked: they inspect or measure the
 # SQLite file directly (tests/alerts/test_deliver.c, tests/collector/
 # test_store_access.c, test_pending_drain.c, test_store_backend.c,
 # tests/review/test_review.c, bench/bench_ingest.c, bench/bench_slices.c).
@@ -21,6 +22,11 @@ for d in "$S"/*/; do
   dirs+=("$d")
 done
 [ ${#dirs[@]} -gt 0 ] || { echo "FAIL: no source folders under $S" >&2; exit 1; }
+# the folders that run a store for a long time or talk to another database
+# must be among those checked
+for need in serve cluster alerts report cli; do
+  [ -d "$S/$need" ] || fail "$need/ is missing: it should be checked"
+done
 checked=0
 while IFS= read -r f; do
   checked=$((checked + 1))

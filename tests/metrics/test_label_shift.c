@@ -26,6 +26,11 @@
 #define CELL_B_GAP_BOUND 0.08    /* EM on the baseline's cell means vs EM on raw rows (max 0.061) */
 #define CELL_W_GAP_FIXTURE 0.10  /* EM on the window's cell means vs raw, fixture's random shifts */
 
+/* SQUAREM vs numpy's plain EM on the reference cases: both stop when a step
+ * moves less than tol = 1e-12, each some way short of the same fixed point
+ * (the largest gap in this file passes at 1e-10) */
+#define SQUAREM_VS_PLAIN 1e-9
+
 #define SYNTHETIC_BOUND \
     "synthetic known-prior case; bound from gen_label_shift_reference.py --measure"
 
@@ -289,7 +294,21 @@ static void bbse_edge_checks(check_log *log)
     check_int(log, "BBSE perfect classifier: regularized", r.regularized, 0, hand);
 }
 
-static void em_edge_checks(check_log *log)
+typedef int (*em_fn)(cc_em *, const double *, const double *, int, int, const double *, double,
+                     int);
+
+/* "tag what" in one of four rotating buffers, for check names */
+static const char *tagged(const char *tag, const char *what)
+{
+    static char buf[4][200];
+    static int i;
+    i = (i + 1) % 4;
+    snprintf(buf[i], sizeof buf[i], "%s %s", tag, what);
+    return buf[i];
+}
+
+/* Edge cases of either estimator (fn, named tag in the check names). */
+static void em_edge_checks(check_log *log, em_fn fn, const char *tag)
 {
     double q[3];
     cc_em e = {q, 0, 0, 0};
@@ -297,33 +316,33 @@ static void em_edge_checks(check_log *log)
     const double p2[2] = {0.5, 0.5};
     const double rows[8] = {0.9, 0.1, 0.3, 0.7, 0.6, 0.4, 0.2, 0.8};
 
-    cc_em_estimate(&e, rows, NULL, 0, 2, p2, 1e-10, 100);
-    check_int(log, "EM no rows: ok", e.ok, 0, "metrics/label_shift.h: empty inputs");
-    check_all_nan(log, "EM no rows: priors NAN", q, 2);
-    cc_em_estimate(&e, rows, (const double[4]){0, 0, -1, NAN}, 4, 2, p2, 1e-10, 100);
-    check_int(log, "EM all weights <= 0: ok", e.ok, 0, "metrics/label_shift.c: no usable row");
-    cc_em_estimate(&e, rows, NULL, 4, 2, (const double[2]){0, 0}, 1e-10, 100);
-    check_int(log, "EM source priors all 0: ok", e.ok, 0, "metrics/label_shift.c");
+    fn(&e, rows, NULL, 0, 2, p2, 1e-10, 100);
+    check_int(log, tagged(tag, "no rows: ok"), e.ok, 0, "metrics/label_shift.h: empty inputs");
+    check_all_nan(log, tagged(tag, "no rows: priors NAN"), q, 2);
+    fn(&e, rows, (const double[4]){0, 0, -1, NAN}, 4, 2, p2, 1e-10, 100);
+    check_int(log, tagged(tag, "all weights <= 0: ok"), e.ok, 0, "metrics/label_shift.c: no usable row");
+    fn(&e, rows, NULL, 4, 2, (const double[2]){0, 0}, 1e-10, 100);
+    check_int(log, tagged(tag, "source priors all 0: ok"), e.ok, 0, "metrics/label_shift.c");
 
     /* max_iter 0: the source priors, not converged */
-    cc_em_estimate(&e, rows, NULL, 4, 2, (const double[2]){0.3, 0.7}, 1e-10, 0);
-    check_int(log, "EM max_iter 0: ok", e.ok, 1, hand);
-    check_int(log, "EM max_iter 0: iterations", e.iterations, 0, hand);
-    check_int(log, "EM max_iter 0: converged", e.converged, 0, hand);
-    check_close(log, "EM max_iter 0: q0 = p0", q[0], 0.3, 1e-15, 0, hand);
+    fn(&e, rows, NULL, 4, 2, (const double[2]){0.3, 0.7}, 1e-10, 0);
+    check_int(log, tagged(tag, "max_iter 0: ok"), e.ok, 1, hand);
+    check_int(log, tagged(tag, "max_iter 0: iterations"), e.iterations, 0, hand);
+    check_int(log, tagged(tag, "max_iter 0: converged"), e.converged, 0, hand);
+    check_close(log, tagged(tag, "max_iter 0: q0 = p0"), q[0], 0.3, 1e-15, 0, hand);
 
     /* mean posterior = p: q = p is a fixed point, one step */
     const double fixed[4] = {0.8, 0.2, 0.2, 0.8};
-    cc_em_estimate(&e, fixed, NULL, 2, 2, p2, 1e-12, 100);
-    check_int(log, "EM no shift: iterations", e.iterations, 1, hand);
-    check_int(log, "EM no shift: converged", e.converged, 1, hand);
-    check_close(log, "EM no shift: q0", q[0], 0.5, 1e-15, 0, hand);
+    fn(&e, fixed, NULL, 2, 2, p2, 1e-12, 100);
+    check_int(log, tagged(tag, "no shift: iterations"), e.iterations, 1, hand);
+    check_int(log, tagged(tag, "no shift: converged"), e.converged, 1, hand);
+    check_close(log, tagged(tag, "no shift: q0"), q[0], 0.5, 1e-15, 0, hand);
 
     /* one-hot posteriors: q = class fractions after one step */
     const double onehot[8] = {1, 0, 0, 1, 0, 1, 0, 1};
-    cc_em_estimate(&e, onehot, NULL, 4, 2, p2, 1e-12, 100);
-    check_close(log, "EM one-hot rows: q1 = 3/4", q[1], 0.75, 1e-15, 0, hand);
-    check_int(log, "EM one-hot rows: iterations", e.iterations, 2, hand);
+    fn(&e, onehot, NULL, 4, 2, p2, 1e-12, 100);
+    check_close(log, tagged(tag, "one-hot rows: q1 = 3/4"), q[1], 0.75, 1e-15, 0, hand);
+    check_int(log, tagged(tag, "one-hot rows: iterations"), e.iterations, 2, hand);
 
     /* a weight of 3 equals the row repeated 3 times */
     double twice[2], rep_rows[12];
@@ -332,37 +351,121 @@ static void em_edge_checks(check_log *log)
         rep_rows[2 * i] = rows[2 * src];
         rep_rows[2 * i + 1] = rows[2 * src + 1];
     }
-    cc_em_estimate(&e, rep_rows, NULL, 6, 2, p2, 1e-13, 10000);
+    fn(&e, rep_rows, NULL, 6, 2, p2, 1e-13, 10000);
     twice[0] = q[0];
     twice[1] = q[1];
-    cc_em_estimate(&e, rows, (const double[4]){3, 1, 1, 1}, 4, 2, p2, 1e-13, 10000);
-    check_vec(log, "EM weight 3 = row repeated 3 times", q, twice, 2, 1e-12, hand);
+    fn(&e, rows, (const double[4]){3, 1, 1, 1}, 4, 2, p2, 1e-13, 10000);
+    check_vec(log, tagged(tag, "weight 3 = row repeated 3 times"), q, twice, 2, 1e-12, hand);
 
     /* source priors not normalised: same as normalised */
-    cc_em_estimate(&e, rows, NULL, 4, 2, (const double[2]){2, 2}, 1e-13, 10000);
+    fn(&e, rows, NULL, 4, 2, (const double[2]){2, 2}, 1e-13, 10000);
     twice[0] = q[0];
     twice[1] = q[1];
-    cc_em_estimate(&e, rows, NULL, 4, 2, p2, 1e-13, 10000);
-    check_vec(log, "EM source priors [2,2] = [0.5,0.5]", q, twice, 2, 1e-15, hand);
+    fn(&e, rows, NULL, 4, 2, p2, 1e-13, 10000);
+    check_vec(log, tagged(tag, "source priors [2,2] = [0.5,0.5]"), q, twice, 2, 1e-15, hand);
 
     /* a class with source prior 0 stays 0; a row all on it is left out */
     const double p3[3] = {0.5, 0.0, 0.5};
     const double rows3[12] = {0.7, 0.1, 0.2, 0.2, 0.3, 0.5, 0.0, 1.0, 0.0, 0.4, 0.2, 0.4};
-    cc_em_estimate(&e, rows3, NULL, 4, 3, p3, 1e-12, 10000);
-    check_int(log, "EM zero source prior: ok", e.ok, 1, hand);
-    check_close(log, "EM zero source prior: q1 stays 0", q[1], 0.0, 0, 0,
+    fn(&e, rows3, NULL, 4, 3, p3, 1e-12, 10000);
+    check_int(log, tagged(tag, "zero source prior: ok"), e.ok, 1, hand);
+    check_close(log, tagged(tag, "zero source prior: q1 stays 0"), q[1], 0.0, 0, 0,
                 "METHODS.md section 5: p_j = 0 -> drop class");
-    check_simplex(log, "EM zero source prior", q, 3);
+    check_simplex(log, tagged(tag, "zero source prior"), q, 3);
     double q_without[3];
     cc_em e2 = {q_without, 0, 0, 0};
-    cc_em_estimate(&e2, rows3, (const double[4]){1, 1, 0, 1}, 4, 3, p3, 1e-12, 10000);
-    check_vec(log, "EM row all on a zero-prior class = row left out", q, q_without, 3, 1e-15, hand);
+    fn(&e2, rows3, (const double[4]){1, 1, 0, 1}, 4, 3, p3, 1e-12, 10000);
+    check_vec(log, tagged(tag, "row all on a zero-prior class = row left out"), q, q_without, 3, 1e-15, hand);
 
     /* not converged within max_iter */
-    cc_em_estimate(&e, rows, NULL, 4, 2, (const double[2]){0.05, 0.95}, 1e-15, 3);
-    check_int(log, "EM max_iter 3: iterations", e.iterations, 3, hand);
-    check_int(log, "EM max_iter 3: converged", e.converged, 0, hand);
-    check_int(log, "EM max_iter 3: ok", e.ok, 1, hand);
+    fn(&e, rows, NULL, 4, 2, (const double[2]){0.05, 0.95}, 1e-15, 3);
+    check_int(log, tagged(tag, "max_iter 3: iterations"), e.iterations, 3, hand);
+    check_int(log, tagged(tag, "max_iter 3: converged"), e.converged, 0, hand);
+    check_int(log, tagged(tag, "max_iter 3: ok"), e.ok, 1, hand);
+}
+
+/* cc_em_estimate_squarem without, and with, the log-likelihood stop */
+static int squarem_exact(cc_em *out, const double *post, const double *w, int n, int k,
+                         const double *p, double tol, int max_iter)
+{
+    return cc_em_estimate_squarem(out, post, w, n, k, p, tol, 0.0, max_iter);
+}
+
+static int squarem_ll(cc_em *out, const double *post, const double *w, int n, int k,
+                      const double *p, double tol, int max_iter)
+{
+    return cc_em_estimate_squarem(out, post, w, n, k, p, tol, 1e-11, max_iter);
+}
+
+/* Score of the two-class log-likelihood sum_r ln((1 - t) s_r0/p0 + t s_r1/p1)
+ * with p = (1/2, 1/2), in t = q(y = 1); its root is the EM fixed point. */
+static double score2(const double *s1, int n, double t)
+{
+    double f = 0.0;
+    for (int r = 0; r < n; r++)
+        f += (2.0 * s1[r] - 1.0) / ((1.0 - t) * (1.0 - s1[r]) + t * s1[r]);
+    return f;
+}
+
+/* SQUAREM against values found without EM: METHODS.md section 5's checks,
+ * and a nearly uninformative two-class case where plain EM needs about
+ * 10,000 steps at tol 1e-12 (numpy: 10,173) and stops 2,000 steps short of
+ * its fixed point, whose q(y = 1) is the root of the score, found here by
+ * bisection (scipy.optimize.brentq on the same score: 0.956651778982921). */
+static void squarem_checks(check_log *log)
+{
+    const char *vr = "Varadhan & Roland (2008): same fixed point as EM";
+    double q[2], qp[2];
+    cc_em e = {q, 0, 0, 0}, ep = {qp, 0, 0, 0};
+    const double p[2] = {0.5, 0.5};
+
+    const double m1[8] = {0.9, 0.8, 0.7, 0.6, 0.4, 0.3, 0.2, 0.95};
+    double rows[16];
+    for (int i = 0; i < 8; i++) {
+        rows[2 * i] = 1.0 - m1[i];
+        rows[2 * i + 1] = m1[i];
+    }
+    cc_em_estimate_squarem(&e, rows, NULL, 8, 2, p, 1e-10, 0.0, 10000);
+    check_int(log, "EM (SQUAREM) 8 items: converged", e.converged, 1, METHODS5);
+    check_close(log, "EM (SQUAREM) 8 items: q1", q[1], 0.882238, 1e-6, 0, METHODS5);
+
+    const double s1[6] = {0.45, 0.58, 0.48, 0.56, 0.52, 0.44};
+    for (int i = 0; i < 6; i++) {
+        rows[2 * i] = 1.0 - s1[i];
+        rows[2 * i + 1] = s1[i];
+    }
+    double lo = 0.0, hi = 1.0; /* score(0) > 0 > score(1) */
+    for (int i = 0; i < 200 && hi - lo > 1e-16; i++) {
+        const double mid = 0.5 * (lo + hi);
+        if (score2(s1, 6, mid) > 0.0)
+            lo = mid;
+        else
+            hi = mid;
+    }
+    const double root = 0.5 * (lo + hi);
+    check_close(log, "score root by bisection = scipy brentq", root, 0.956651778982921, 1e-12, 0,
+                "computed (scipy.optimize.brentq on the score)");
+    cc_em_estimate_squarem(&e, rows, NULL, 6, 2, p, 1e-12, 0.0, 2000);
+    cc_em_estimate(&ep, rows, NULL, 6, 2, p, 1e-12, 2000);
+    check_int(log, "slow case, cap 2000: plain EM converged", ep.converged, 0,
+              "computed (numpy: 10,173 steps at tol 1e-12)");
+    check_int(log, "slow case, cap 2000: EM (SQUAREM) converged", e.converged, 1, vr);
+    check_close(log, "slow case: EM (SQUAREM) q1 = root of the score", q[1], root, 1e-9, 0, vr);
+    check_int(log, "slow case: plain EM at the cap is more than 1e-6 short of the root",
+              fabs(root - qp[1]) > 1e-6, 1, "computed (numpy: 10,173 steps at tol 1e-12)");
+    printf("  slow case: root %.12f, SQUAREM %.12f in %d steps, plain EM %.12f after %d steps\n",
+           root, q[1], e.iterations, qp[1], ep.iterations);
+
+    /* stopped by the log-likelihood: a rise of 1e-11 per row over three steps
+     * leaves q within sqrt(2 * 1e-11 / curvature) of the root, the
+     * curvature (minus the score's slope per row) being about 0.02 here */
+    double slope = (score2(s1, 6, root + 1e-6) - score2(s1, 6, root - 1e-6)) / 2e-6 / 6.0;
+    cc_em_estimate_squarem(&e, rows, NULL, 6, 2, p, 1e-12, 1e-11, 2000);
+    check_int(log, "slow case, ll_tol 1e-11: converged", e.converged, 1, vr);
+    check_close(log, "slow case, ll_tol 1e-11: q1 near the root", q[1], root,
+                sqrt(2.0 * 1e-11 / fabs(slope)), 0, "hand-derived (quadratic model of ln L)");
+    printf("  slow case, ll_tol 1e-11: %.12f in %d steps (curvature per row %.4f)\n", q[1],
+           e.iterations, -slope);
 }
 
 /* ---------------------------------------------------------------- reference file */
@@ -404,6 +507,7 @@ static int read_counts(const cJSON *arr, int64_t *out, int n)
 
 /* largest errors over the reference cases, printed at the end */
 static double em_max_gap_window, em_max_gap_baseline, em_max_raw, bbse_max_l1;
+static long sq_steps, plain_steps; /* EM steps over the reference cases */
 
 static void bbse_reference_case(check_log *log, const cJSON *c, const char *section, int idx,
                                 int synthetic)
@@ -426,6 +530,23 @@ static void bbse_reference_case(check_log *log, const cJSON *c, const char *sect
     const char *src = ref_function(c, "priors");
     cc_bbse r = {q, 0, 0, 0, 0};
     cc_bbse_estimate(&r, conf, tgt, k);
+
+    /* the plan (SVD once, solve per target) gives the same bits */
+    double qp[MAXK];
+    cc_bbse rp = {qp, 0, 0, 0, 0};
+    cc_bbse_plan *plan = NULL;
+    if (cc_bbse_plan_create(&plan, conf, k) == 0 && cc_bbse_plan_apply(plan, &rp, tgt) == 0) {
+        snprintf(what, sizeof what, "cc_bbse_plan_apply %s[%d] = cc_bbse_estimate", section, idx);
+        check_vec(log, what, qp, q, k, 0.0, "label_shift.h: same computation");
+        check_int(log, what, rp.ok == r.ok && rp.clipped == r.clipped &&
+                                 rp.regularized == r.regularized &&
+                                 (rp.condition_number == r.condition_number ||
+                                  (isnan(rp.condition_number) && isnan(r.condition_number))),
+                  1, "label_shift.h: same computation");
+    } else {
+        log->failed++;
+    }
+    cc_bbse_plan_free(plan);
     snprintf(what, sizeof what, "cc_bbse_estimate, reference %s[%d] (%s)", section, idx,
              cJSON_GetStringValue(ref_get(c, "name")));
     check_int(log, what, r.ok, 1, src);
@@ -526,6 +647,23 @@ static void em_reference_case(check_log *log, const cJSON *c, int idx)
         else
             check_vec(log, what, out[v], want, k, 1e-9, src);
         check_simplex(log, what, out[v], k);
+
+        /* SQUAREM lands on the same fixed point; its own stopping point differs
+         * from plain EM's by about tol / (1 - rate) */
+        double q_sq[MAXK];
+        cc_em es = {q_sq, 0, 0, 0};
+        cc_em_estimate_squarem(&es, post, v == 0 ? NULL : counts, v == 0 ? n : cells, k, p, tol, 0.0,
+                               max_iter);
+        snprintf(what, sizeof what, "cc_em_estimate_squarem on %s, reference em[%d] (%s)",
+                 variant[v].label, idx, name);
+        check_int(log, what, es.ok, 1, src);
+        snprintf(sub, sizeof sub, "%s: converged", what);
+        check_int(log, sub, es.converged, 1, src);
+        if (!read_doubles(ref_get(ex, variant[v].prior_key), want, k))
+            check_vec(log, what, q_sq, want, k, SQUAREM_VS_PLAIN, src);
+        check_simplex(log, what, q_sq, k);
+        sq_steps += es.iterations;
+        plain_steps += e.iterations;
     }
 
     const double e_raw = l1(q_raw, truth, k), e_b = l1(q_b, truth, k);
@@ -586,6 +724,7 @@ static void reference_checks(check_log *log, const cJSON *root)
     printf("  max over cases: BBSE L1 %.4f; EM raw L1 %.4f; EM cell-vs-raw gap: "
            "window means %.4f (random shifts), baseline means %.4f\n",
            bbse_max_l1, em_max_raw, em_max_gap_window, em_max_gap_baseline);
+    printf("  EM steps over the reference cases: plain %ld, SQUAREM %ld\n", plain_steps, sq_steps);
 }
 
 int main(int argc, char **argv)
@@ -595,7 +734,10 @@ int main(int argc, char **argv)
     consistency_checks(&log);
     em_methods_checks(&log);
     bbse_edge_checks(&log);
-    em_edge_checks(&log);
+    em_edge_checks(&log, cc_em_estimate, "EM");
+    em_edge_checks(&log, squarem_exact, "EM (SQUAREM)");
+    em_edge_checks(&log, squarem_ll, "EM (SQUAREM, ll_tol 1e-11)");
+    squarem_checks(&log);
     reference_run(&log, argc, argv, reference_checks);
     return check_finish(&log);
 }

@@ -5,8 +5,8 @@
  * (the file shrank: read again from the start), runs the check when a UTC
  * day closes, and drains the outbox now and then. It stops between chunks
  * when *stop becomes nonzero, after committing what it has read. */
-#ifndef CC_ALERTS_FOLLOW_H
-#define CC_ALERTS_FOLLOW_H
+#ifndef CC_SERVE_FOLLOW_H
+#define CC_SERVE_FOLLOW_H
 
 #include <signal.h>
 #include <stdint.h>
@@ -49,6 +49,22 @@ typedef struct cc_follow_stats {
     int64_t lines, accepted, duplicates, rejected, labels_set;
     int64_t chunks, rotations, truncations, checks;
 } cc_follow_stats;
+
+/* Where the day-close step stands: the last day checked, the last delivery. */
+typedef struct cc_follow_clock {
+    int64_t last_checked, last_deliver;
+    int deliver_now;
+} cc_follow_clock;
+#define CC_FOLLOW_CLOCK_INIT {INT64_MIN, 0, 1}
+
+/* The day-close step of follow mode, for any driver that owns a store
+ * connection (follow's loop, and serve's rules thread): with o->rules,
+ * checks each UTC day once it has been closed for o->grace_s, and drains
+ * the outbox after a check and every o->deliver_every_s. Uses o->rules,
+ * extra, check_model, grace_s, deliver_every_s, now, on_check, on_deliver
+ * and ctx. */
+int cc_follow_day_close(cc_store *s, const cc_follow_opts *o, cc_follow_clock *clock,
+                        cc_follow_stats *stats, cc_error *err);
 
 int cc_follow_run(cc_store *s, const cc_follow_opts *o, cc_follow_stats *stats, cc_error *err);
 

@@ -333,6 +333,31 @@ static int busy_backoff(follower *f, int *tries, cc_error *err)
     return 1;
 }
 
+int cc_follow_day_close(cc_store *s, const cc_follow_opts *o, cc_follow_clock *clk,
+                        cc_follow_stats *stats, cc_error *err)
+{
+    if (!o->rules)
+        return 0;
+    follower f = {.store = s, .o = o, .stats = stats};
+    int64_t now = o->now(o->ctx);
+    int64_t closed = cc_day_of_unix(now - o->grace_s) - 1;
+    if (closed > clk->last_checked) {
+        int rc = run_check(&f, closed, now, err);
+        if (rc)
+            return rc;
+        clk->last_checked = closed;
+        clk->deliver_now = 1;
+    }
+    if (clk->deliver_now || now - clk->last_deliver >= o->deliver_every_s) {
+        int rc = run_deliver(&f, now, err);
+        if (rc)
+            return rc;
+        clk->last_deliver = now;
+        clk->deliver_now = 0;
+    }
+    return 0;
+}
+
 /* The store's schema holds follow_offsets and the alert tables; a store
  * that cannot write them is refused here rather than after the first read. */
 static int setup(follower *f, cc_error *err)
@@ -373,8 +398,7 @@ int cc_follow_run(cc_store *s, const cc_follow_opts *o, cc_follow_stats *stats, 
     for (int i = 0; !rc && i < n; i++)
         rc = open_tail(f, &tails[i], 1, err);
 
-    int64_t last_checked = INT64_MIN, last_deliver = 0;
-    int deliver_now = 1;
+    cc_follow_clock clk = CC_FOLLOW_CLOCK_INIT;
     while (!rc && !*o->stop) {
         for (int i = 0; !rc && i < n && !*o->stop; i++) {
             tail *t = &tails[i];
@@ -389,23 +413,8 @@ int cc_follow_run(cc_store *s, const cc_follow_opts *o, cc_follow_stats *stats, 
             if (!rc && !*o->stop)
                 rc = watch(f, t, got, err);
         }
-        if (rc || *o->stop || !o->rules)
-            goto next;
-        int64_t now = o->now(o->ctx);
-        int64_t closed = cc_day_of_unix(now - o->grace_s) - 1;
-        if (closed > last_checked) {
-            if ((rc = run_check(f, closed, now, err)))
-                goto next;
-            last_checked = closed;
-            deliver_now = 1;
-        }
-        if (deliver_now || now - last_deliver >= o->deliver_every_s) {
-            if ((rc = run_deliver(f, now, err)))
-                goto next;
-            last_deliver = now;
-            deliver_now = 0;
-        }
-    next:
+        if (!rc && !*o->stop && o->rules)
+            rc = cc_follow_day_close(s, o, &clk, stats, err);
         if (rc && !*o->stop && busy_backoff(f, &tries, err)) {
             rc = 0;
             continue;
