@@ -337,6 +337,29 @@ static void review_reads(cc_store *s, const cc_model *m)
     CHECK(cc_store_events_scan(s, m, d0, d0 + 2 * 86400, NULL, on_event, &stopped, &err) == 7);
     CHECK(stopped.n == 2);
 
+    /* the review's bounded sample (cc_store_events_sample): every 1 is the
+     * whole scan; every 2 is exactly the rows whose rowid is even, as the
+     * file itself says (SQLite's rowid, arrival order) */
+    scan_seen whole = {0};
+    CHECK(cc_store_events_sample(s, m, d0, d0 + 2 * 86400, NULL, 1, on_event, &whole, &err) ==
+              0 &&
+          whole.n == 7);
+    scan_seen half = {0};
+    CHECK(cc_store_events_sample(s, m, d0, d0 + 2 * 86400, NULL, 2, on_event, &half, &err) ==
+          0);
+    char sql[256];
+    snprintf(sql, sizeof sql,
+             "SELECT count(*) FROM events WHERE model_id = %lld AND ts BETWEEN %lld AND %lld "
+             "AND rowid %% 2 = 0",
+             (long long)m->id, (long long)d0, (long long)(d0 + 2 * 86400));
+    CHECK(half.n == query_int(s, sql) && half.n > 0 && half.n < 7);
+    for (int i = 0; i < half.n && i < 8; i++) {
+        snprintf(sql, sizeof sql,
+                 "SELECT rowid %% 2 FROM events WHERE model_id = %lld AND id = '%s'",
+                 (long long)m->id, half.ids[i]);
+        CHECK(query_int(s, sql) == 0);
+    }
+
     cc_event_rec rec;
     float back[4];
     int found = 0;
@@ -448,6 +471,22 @@ static int past_end_scan(cc_store *s, const cc_model *m, int64_t from, int64_t t
     return 0;
 }
 
+/* A scan of seven events e1..e7, for the dispatch's thinning. */
+static int seven_scan(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+                      const char *segment, cc_event_scan_fn fn, void *ctx, cc_error *err)
+{
+    (void)s, (void)m, (void)from, (void)to, (void)segment, (void)err;
+    const float p[4] = {0.5f, 0.5f, 0.5f, 0.5f};
+    for (int i = 1; i <= 7; i++) {
+        char id[4];
+        snprintf(id, sizeof id, "e%d", i);
+        int rc = fn(ctx, id, i, -1, p);
+        if (rc)
+            return rc;
+    }
+    return 0;
+}
+
 static void missing_ops(void)
 {
     cc_store_backend be;
@@ -507,6 +546,19 @@ static void missing_ops(void)
     be.size = sizeof be;
     CHECK(cc_store_events_scan(s, &m, 0, 1, NULL, on_event, NULL, &err) == 0 &&
           called_past_end);
+
+    /* a backend without events_sample: the dispatch keeps every every-th
+     * event of its scan (here e3 and e6 of e1..e7 for every 3) */
+    be.events_scan = seven_scan;
+    be.events_sample = NULL;
+    scan_seen thinned = {0};
+    CHECK(cc_store_events_sample(s, &m, 0, 10, NULL, 3, on_event, &thinned, &err) == 0 &&
+          thinned.n == 2 && strcmp(thinned.ids[0], "e3") == 0 &&
+          strcmp(thinned.ids[1], "e6") == 0);
+    scan_seen all7 = {0};
+    CHECK(cc_store_events_sample(s, &m, 0, 10, NULL, 1, on_event, &all7, &err) == 0 &&
+          all7.n == 7);
+    be.events_scan = past_end_scan;
 
     /* a version 1 table (before the slice ops): keeps no slices, slice reads
      * name what is missing, a slice write is refused as read-only */
