@@ -9,6 +9,7 @@
 
 #include "date.h"
 #include "payload.h"
+#include "store_slices.h"
 
 const char *cc_check_outcome_name(cc_outcome o)
 {
@@ -27,7 +28,113 @@ void cc_check_result_free(cc_check_result *r)
         free(r->items[i].sentence);
     }
     free(r->items);
+    for (int b = 0; b < r->n_blocks; b++) {
+        for (int i = 0; i < r->block_len[b]; i++)
+            if (r->blocks[b][i].slice)
+                free(r->blocks[b][i].name); /* the key; the slice's name shares its buffer */
+        free(r->blocks[b]);
+    }
+    free(r->blocks);
+    free(r->block_len);
     free(r);
+}
+
+/* The state key of a rule's copy for one slice, "<rule>@<slice>" ('/' and
+ * '%' in the slice as %2F and %25, so notice ids stay readable from the
+ * right), followed in the same buffer by the slice's name. */
+static char *slice_key(const char *rule, const char *slice, const char **slice_out)
+{
+    size_t rl = strlen(rule), sl = strlen(slice), n = 0;
+    for (size_t i = 0; i < sl; i++)
+        n += slice[i] == '/' || slice[i] == '%' ? 3 : 1;
+    char *buf = malloc(rl + 1 + n + 1 + sl + 1);
+    if (!buf)
+        return NULL;
+    char *p = buf;
+    memcpy(p, rule, rl);
+    p += rl;
+    *p++ = '@';
+    for (size_t i = 0; i < sl; i++) {
+        if (slice[i] == '/' || slice[i] == '%') {
+            memcpy(p, slice[i] == '/' ? "%2F" : "%25", 3);
+            p += 3;
+        } else {
+            *p++ = slice[i];
+        }
+    }
+    *p++ = '\0';
+    memcpy(p, slice, sl + 1);
+    *slice_out = p;
+    return buf;
+}
+
+/* The rules that apply to model, as evaluated: a new block in res holding
+ * the model-scope rules (shallow copies), then for each slice of the model
+ * (the "pruned, unsliced" part excepted) a copy of every each-slice rule.
+ * Slice-major order, so each (day, slice) report is built once a day. A
+ * file without slices (schema 3, read as it is) gets no slice copies. */
+static int rule_block(cc_store *s, const cc_ruleset *rs, const char *model,
+                      cc_check_result *res, cc_rule **out, int *n_out, cc_error *err)
+{
+    cc_model *m = NULL;
+    cc_slice *slices = NULL;
+    int n_slices = 0, n_rules = cc_rules_count(rs), n = 0, rc = 0;
+    *out = NULL;
+    *n_out = 0;
+    int sliced = 0;
+    for (int i = 0; i < n_rules; i++)
+        sliced += cc_rules_get(rs, i)->each_slice && cc_rules_applies(cc_rules_get(rs, i), model);
+    if (sliced && cc_store_slices_kept(s) &&
+        ((rc = cc_store_model_get(s, model, &m, err)) ||
+         (rc = cc_store_slice_list(s, m, &slices, &n_slices, err))))
+        goto done;
+    cc_rule **blocks = realloc(res->blocks, (size_t)(res->n_blocks + 1) * sizeof *blocks);
+    if (blocks)
+        res->blocks = blocks;
+    int *lens = realloc(res->block_len, (size_t)(res->n_blocks + 1) * sizeof *lens);
+    if (lens)
+        res->block_len = lens;
+    /* one slice is the whole model again: slice copies only from two slices on */
+    int n_live = 0;
+    for (int j = 0; j < n_slices; j++)
+        n_live += slices[j].kind != CC_SLICE_PRUNED;
+    int n_use = n_live < 2 ? 0 : n_slices;
+    cc_rule *b = calloc((size_t)n_rules * (size_t)(n_use + 1) + 1, sizeof *b);
+    if (!blocks || !lens || !b) {
+        free(b);
+        rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+        goto done;
+    }
+    res->blocks[res->n_blocks] = b;
+    res->block_len[res->n_blocks++] = 0;
+    for (int i = 0; i < n_rules; i++) {
+        const cc_rule *r = cc_rules_get(rs, i);
+        if (!r->each_slice && cc_rules_applies(r, model))
+            b[n++] = *r;
+    }
+    for (int j = 0; j < n_use; j++) {
+        if (slices[j].kind == CC_SLICE_PRUNED)
+            continue;
+        for (int i = 0; i < n_rules; i++) {
+            const cc_rule *r = cc_rules_get(rs, i);
+            if (!r->each_slice || !cc_rules_applies(r, model))
+                continue;
+            b[n] = *r;
+            b[n].rule_name = r->name;
+            if (!(b[n].name = slice_key(r->name, cc_slice_name(&slices[j]), &b[n].slice))) {
+                rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+                goto done;
+            }
+            res->block_len[res->n_blocks - 1] = ++n;
+        }
+    }
+    res->block_len[res->n_blocks - 1] = n;
+    *out = b;
+    *n_out = n;
+done:
+    cc_slice_list_free(slices, n_slices);
+    cc_model_free(m);
+    return rc;
 }
 
 static cc_outcome outcome_of(cc_transition tr, cc_state_kind after, cc_eval_status status)
@@ -51,7 +158,7 @@ static int notify(cc_store *s, const cc_ruleset *rs, int dry_run, cc_evaluator *
                   const cc_receiver *recv, int n_recv, cc_check_result *res, cc_error *err)
 {
     const cc_report *rep = NULL;
-    int rc = cc_eval_report(ev, it->ev.window_day, &rep, err);
+    int rc = cc_eval_report_slice(ev, it->ev.window_day, it->rule->slice, &rep, err);
     if (rc)
         return rc;
     cc_payload_in pin = {it->model, it->rule, tr, it->day, &it->ev, st, rep, now};
@@ -95,10 +202,24 @@ static int check_model(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o
                        cc_check_result *res, cc_error *err)
 {
     cc_evaluator *ev = NULL;
-    int n_rules = cc_rules_count(rs);
-    cc_rule_state *states = calloc((size_t)(n_rules ? n_rules : 1), sizeof *states);
-    int rc = states ? cc_eval_create(&ev, s, model, res->day, err)
-                    : cc_error_set(err, CC_ENOMEM, "out of memory");
+    cc_rule *rules = NULL;
+    int n_rules = 0;
+    cc_rule_state *states = NULL;
+    int rc = rule_block(s, rs, model, res, &rules, &n_rules, err);
+    if (!rc) {
+        /* room for every item of this model */
+        int64_t want = res->n_items + (int64_t)n_rules * (res->last_day - res->day + 1);
+        if (want > res->cap_items) {
+            cc_check_item *grown = realloc(res->items, (size_t)want * sizeof *grown);
+            if (grown) {
+                res->items = grown;
+                res->cap_items = (int)want;
+            }
+        }
+        states = calloc((size_t)(n_rules ? n_rules : 1), sizeof *states);
+        rc = states && res->cap_items >= want ? cc_eval_create(&ev, s, model, res->day, err)
+                                              : cc_error_set(err, CC_ENOMEM, "out of memory");
+    }
     /* a dry run (a replay, `report --rules`, `rules validate`) only reads:
      * one snapshot, no write lock, so it works on a read-only store */
     if (!rc)
@@ -110,7 +231,7 @@ static int check_model(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o
     }
     for (int i = 0; !rc && i < n_rules; i++) {
         if (!o->fresh) {
-            rc = cc_state_load(s, model, cc_rules_get(rs, i)->name, &states[i], err);
+            rc = cc_state_load(s, model, rules[i].name, &states[i], err);
             continue;
         }
         memset(&states[i], 0, sizeof states[i]);
@@ -119,9 +240,7 @@ static int check_model(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o
     for (int64_t day = res->day; !rc && day <= res->last_day; day++) {
         cc_eval_set_day(ev, day);
         for (int i = 0; !rc && i < n_rules; i++) {
-            const cc_rule *rule = cc_rules_get(rs, i);
-            if (!cc_rules_applies(rule, model))
-                continue;
+            const cc_rule *rule = &rules[i];
             cc_check_item *it = &res->items[res->n_items];
             memset(it, 0, sizeof *it);
             if (!(it->model = strdup(model))) {
@@ -206,10 +325,8 @@ int cc_check_run(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o,
         goto done;
     }
     int n_recv = cc_rules_receiver_count(rs) + o->n_extra;
-    int64_t n_days = res->last_day - res->day + 1;
     recv = calloc((size_t)(n_recv ? n_recv : 1), sizeof *recv);
-    res->items = calloc((size_t)(n_models * cc_rules_count(rs) * n_days + 1), sizeof *res->items);
-    if (!recv || !res->items) {
+    if (!recv) {
         rc = cc_error_set(err, CC_ENOMEM, "out of memory");
         goto done;
     }

@@ -62,6 +62,12 @@ typedef struct cc_check_result {
     int raised_now, building;   /* states after the last day */
     int queued;                 /* outbox rows added */
     int receivers;
+    int cap_items;
+    /* the rules as evaluated, one block per model: the model-scope rules,
+     * then the per-slice copies of each-slice rules (items point here) */
+    cc_rule **blocks;
+    int *block_len;
+    int n_blocks;
 } cc_check_result;
 
 int cc_check_run(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o,

@@ -14,10 +14,14 @@
 #include "report.h"
 #include "tracked.h"
 
-#define CACHE_MAX 8
+#define CACHE_MAX 16
+
+/* Reports are kept by (day, slice); a base report by slice (day BASE_DAY). */
+#define BASE_DAY INT64_MIN
 
 typedef struct cached {
     int64_t day;
+    char *slice;                /* NULL: the whole model */
     cc_report *report;          /* NULL when the day has no events */
 } cached;
 
@@ -28,23 +32,29 @@ struct cc_evaluator {
     int64_t day;
     cached cache[CACHE_MAX];
     int n_cache;
-    cc_report *base;            /* a report without windows, for the baseline's figures */
 };
 
-void cc_eval_set_day(cc_evaluator *ev, int64_t day) { ev->day = day; }
-
-/* The baseline's statistics when the window day has no events. */
-static int baseline_report(cc_evaluator *ev, const cc_report **out, cc_error *err)
+static int same_slice(const char *a, const char *b)
 {
-    if (!ev->base) {
-        cc_report_opts ro = {ev->model, 1, 1, 1, 0, CC_BY_DAY};   /* an empty range */
-        int rc = cc_report_build(&ev->base, ev->store, &ro, err);
-        if (rc)
-            return rc;
-    }
-    *out = ev->base;
-    return 0;
+    return a == b || (a && b && strcmp(a, b) == 0);
 }
+
+/* A rule's report options for a range of days: the whole model, or the
+ * rule's slice alone (its window and baseline days from that slice's
+ * summaries). */
+static void report_opts(cc_report_opts *ro, const char *model, const char *slice, int64_t from,
+                        int64_t to)
+{
+    memset(ro, 0, sizeof *ro);
+    ro->model = model;
+    ro->has_from = ro->has_to = 1;
+    ro->from = from;
+    ro->to = to;
+    ro->by = CC_BY_DAY;
+    ro->segment = slice;
+}
+
+void cc_eval_set_day(cc_evaluator *ev, int64_t day) { ev->day = day; }
 
 int cc_eval_create(cc_evaluator **out, cc_store *store, const char *model, int64_t day,
                    cc_error *err)
@@ -74,33 +84,48 @@ void cc_eval_free(cc_evaluator *ev)
         return;
     for (int i = 0; i < ev->n_cache; i++) {
         cc_report_free(ev->cache[i].report);
+        free(ev->cache[i].slice);
     }
-    cc_report_free(ev->base);
     free(ev->model);
     free(ev);
 }
 
-static int get_cached(cc_evaluator *ev, int64_t day, cached **out, cc_error *err)
+/* The one-day report of (day, slice), built on first use; day BASE_DAY:
+ * a report without windows, for the baseline's figures when the window
+ * day has no events. */
+static int get_cached(cc_evaluator *ev, int64_t day, const char *slice, cached **out,
+                      cc_error *err)
 {
     for (int i = 0; i < ev->n_cache; i++)
-        if (ev->cache[i].day == day) {
+        if (ev->cache[i].day == day && same_slice(ev->cache[i].slice, slice)) {
             *out = &ev->cache[i];
             return 0;
         }
     if (ev->n_cache == CACHE_MAX) {
         cc_report_free(ev->cache[0].report);
+        free(ev->cache[0].slice);
         memmove(ev->cache, ev->cache + 1, sizeof *ev->cache * (CACHE_MAX - 1));
         ev->n_cache--;
     }
-    cc_report_opts ro = {ev->model, 1, 1, day, day, CC_BY_DAY};
+    cc_report_opts ro;
+    if (day == BASE_DAY)
+        report_opts(&ro, ev->model, slice, 1, 0);   /* an empty range */
+    else
+        report_opts(&ro, ev->model, slice, day, day);
     cc_report *r = NULL;
+    char *copy = slice ? strdup(slice) : NULL;
+    if (slice && !copy)
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
     int rc = cc_report_build(&r, ev->store, &ro, err);
-    if (rc)
+    if (rc) {
+        free(copy);
         return rc;
+    }
     cached *c = &ev->cache[ev->n_cache++];
     c->day = day;
+    c->slice = copy;
     c->report = r;
-    if (r->n_windows == 0) {
+    if (day != BASE_DAY && r->n_windows == 0) {
         cc_report_free(r);
         c->report = NULL;
     }
@@ -110,8 +135,14 @@ static int get_cached(cc_evaluator *ev, int64_t day, cached **out, cc_error *err
 
 int cc_eval_report(cc_evaluator *ev, int64_t day, const cc_report **out, cc_error *err)
 {
+    return cc_eval_report_slice(ev, day, NULL, out, err);
+}
+
+int cc_eval_report_slice(cc_evaluator *ev, int64_t day, const char *slice,
+                         const cc_report **out, cc_error *err)
+{
     cached *c;
-    int rc = get_cached(ev, day, &c, err);
+    int rc = get_cached(ev, day, slice, &c, err);
     *out = rc ? NULL : c->report;
     return rc;
 }
@@ -255,7 +286,7 @@ int cc_eval_rule(cc_evaluator *ev, const cc_rule *rule, cc_eval_result *out, cc_
         return cc_error_set(err, CC_EINPUT, "rule '%s': key 'metric': unknown path '%s'",
                             rule->name, rule->metric);
     cached *c;
-    int rc = get_cached(ev, out->window_day, &c, err);
+    int rc = get_cached(ev, out->window_day, rule->slice, &c, err);
     if (rc)
         return rc;
     const cc_report *r = c->report;
@@ -265,8 +296,13 @@ int cc_eval_rule(cc_evaluator *ev, const cc_rule *rule, cc_eval_result *out, cc_
 
     /* the minimum counts, scaled to traffic unless the rule sets them */
     const cc_report *base = r;
-    if (!base && (rc = baseline_report(ev, &base, err)))
-        return rc;
+    if (!base) {
+        /* the cache may drop the window's entry, but r is NULL here */
+        cached *b;
+        if ((rc = get_cached(ev, BASE_DAY, rule->slice, &b, err)))
+            return rc;
+        base = b->report;
+    }
     out->min_events = rule->min_events != CC_RULE_MIN_AUTO ? rule->min_events
                       : pi.kind == CC_PATH_DERIVED || !strcmp(rule->metric, "events") ||
                               !strcmp(rule->metric, "labeled") || pi.needs_labels

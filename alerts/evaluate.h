@@ -50,5 +50,8 @@ int cc_eval_rule(cc_evaluator *ev, const cc_rule *rule, cc_eval_result *out, cc_
 /* The one-day report of a window day, built on first use and owned by ev;
  * *out is NULL when that day has no events. Its window is windows[0]. */
 int cc_eval_report(cc_evaluator *ev, int64_t day, const cc_report **out, cc_error *err);
+/* The same for one slice alone (slice: cc_slice_name; NULL: the model). */
+int cc_eval_report_slice(cc_evaluator *ev, int64_t day, const char *slice,
+                         const cc_report **out, cc_error *err);
 
 #endif

@@ -53,7 +53,12 @@ void cc_payload_sentence(char *out, size_t cap, const cc_payload_in *in)
                  pi.scope == CC_SCOPE_MEMBER ? "member" : "class", ev->subject, w0);
     else
         snprintf(what, sizeof what, "%s", w0);
-    char v[32], b[32], m[32], s[32], day[11], fired[11], base[128] = "";
+    char v[32], b[32], m[32], s[32], day[11], fired[11], base[128] = "", who[640];
+    /* a slice's rule names the slice after the model */
+    if (r->slice)
+        snprintf(who, sizeof who, "%.250s, segment '%.250s'", in->model, r->slice);
+    else
+        snprintf(who, sizeof who, "%s", in->model);
     fmt_num(v, sizeof v, ev->value);
     fmt_num(b, sizeof b, ev->bound);
     cc_format_date(ev->window_day, day);
@@ -71,21 +76,21 @@ void cc_payload_sentence(char *out, size_t cap, const cc_payload_in *in)
     if (in->kind == CC_TR_CLEARED && r->each && ev->subject[0]) {
         snprintf(out, cap, "%s: every %s's %s is back %s its bound for %d day(s) (closest: %s, "
                            "%s on %s, bound %s); the alert was raised on %s.",
-                 in->model, pi.scope == CC_SCOPE_MEMBER ? "member" : "class", w0,
+                 who, pi.scope == CC_SCOPE_MEMBER ? "member" : "class", w0,
                  above ? "below" : "above", r->clear_after, ev->subject, v, day, b, fired);
         return;
     }
     switch (in->kind) {
     case CC_TR_CLEARED:
         snprintf(out, cap, "%s: %s is back %s %s (%s on %s) for %d day(s); the alert was raised on %s.",
-                 in->model, what, above ? "below" : "above", b, v, day, r->clear_after, fired);
+                 who, what, above ? "below" : "above", b, v, day, r->clear_after, fired);
         break;
     case CC_TR_REMINDER:
-        snprintf(out, cap, "%s: still raised since %s: %s %s on %s is %s %s%s.", in->model,
+        snprintf(out, cap, "%s: still raised since %s: %s %s on %s is %s %s%s.", who,
                  fired, what, v, day, above ? "above" : "below", b, base);
         break;
     default:
-        snprintf(out, cap, "%s: %s %s on %s is %s %s%s.", in->model, what, v, day,
+        snprintf(out, cap, "%s: %s %s on %s is %s %s%s.", who, what, v, day,
                  above ? "above" : "below", b, base);
         break;
     }
@@ -124,9 +129,15 @@ char *cc_payload_build(const cc_payload_in *in)
     cc_format_date(since, sd);
     snprintf(episode, sizeof episode, "%s/%s/%s", in->model, r->name, sd);
     cJSON_AddStringToObject(o, "episode", episode);
-    cJSON_AddStringToObject(o, "rule", r->name);
+    cJSON_AddStringToObject(o, "rule", cc_rule_display_name(r));
     cJSON_AddStringToObject(o, "urgency", cc_rules_urgency_name(r->urgency));
     cJSON_AddStringToObject(o, "model", in->model);
+    if (r->slice) {
+        /* an each-slice rule: the slice judged alone, and its own state */
+        cJSON_AddStringToObject(o, "scope", "each-slice");
+        cJSON_AddStringToObject(o, "slice", r->slice);
+        cJSON_AddStringToObject(o, "state_key", r->name);
+    }
     if (ev->subject[0]) {
         cc_path_info pi;
         cc_paths_lookup(r->metric, &pi);

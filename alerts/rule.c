@@ -381,13 +381,37 @@ static int parse_scope(const where *w, const cJSON *obj, cc_rule *r, const cc_pa
     return 0;
 }
 
+/* "scope": "model" (the default) or "each-slice". A figure the store
+ * derives for the whole model only (labels.age_days) cannot be sliced. */
+static int parse_slice_scope(const where *w, const cJSON *obj, cc_rule *r,
+                             const cc_path_info *pi)
+{
+    const cJSON *v = cJSON_GetObjectItemCaseSensitive(obj, "scope");
+    if (!v)
+        return 0;
+    if (!cJSON_IsString(v) ||
+        (strcmp(v->valuestring, "model") != 0 && strcmp(v->valuestring, "each-slice") != 0))
+        return fail(w, "scope", "must be \"model\" (the whole model, the default) or "
+                                "\"each-slice\" (every segment of the model alone)");
+    r->each_slice = strcmp(v->valuestring, "each-slice") == 0;
+    if (r->each_slice && pi->kind == CC_PATH_DERIVED)
+        return fail(w, "scope", "'%s' is kept for the whole model only; use \"model\"",
+                    r->metric);
+    return 0;
+}
+
+const char *cc_rule_display_name(const cc_rule *r)
+{
+    return r->rule_name ? r->rule_name : r->name;
+}
+
 static int parse_rule(where *w, const cJSON *obj, cc_rule *r)
 {
     static const char *const known[] = {
         "name", "metric", "member", "class", "above", "below", "sigmas_above", "sigmas_below",
         "min_shift", "min_relative_shift", "min_events", "min_labels", "days", "clear_days",
         "remind_after_days", "lag_days", "urgency", "action", "what_to_do", "about",
-        "models", "enabled", NULL};
+        "models", "enabled", "scope", NULL};
     int rc;
     if (!cJSON_IsObject(obj))
         return fail(w, "name", "each rule must be an object");
@@ -404,7 +428,8 @@ static int parse_rule(where *w, const cJSON *obj, cc_rule *r)
         return fail(w, "metric", "unknown metric path '%s' (allowed: the tracked figures, "
                                  "other numbers of a report window, events, labeled, "
                                  "labels.age_days; see 'concord rules paths')", r->metric);
-    if ((rc = parse_scope(w, obj, r, &pi)) || (rc = parse_condition(w, obj, r, &pi)))
+    if ((rc = parse_scope(w, obj, r, &pi)) || (rc = parse_condition(w, obj, r, &pi)) ||
+        (rc = parse_slice_scope(w, obj, r, &pi)))
         return rc;
     int64_t me = CC_RULE_MIN_AUTO, ml = CC_RULE_MIN_AUTO, fa = 1, ca = 1, ra = 0, lag = 0;
     if ((rc = get_int(w, obj, "min_events", "min_events", 0, INT64_C(1) << 40, &me)) ||

@@ -45,7 +45,20 @@ typedef struct cc_rule {
     char *description;           /* "about": may be NULL */
     char **models;               /* NULL: every model */
     int n_models;
+    int each_slice;              /* "scope": "each-slice": the rule is evaluated on every
+                                    slice (segment) of the model alone, each slice with
+                                    its own state; 0 ("model"): on the whole model */
+    /* Set only on the per-slice copies of an each-slice rule that a check
+     * makes (alerts/check.c): the slice's name (cc_slice_name), and the
+     * rule's own name; name is then the copy's state key, "<rule>@<slice>"
+     * with '/' and '%' in the slice written %2F and %25. */
+    const char *slice;
+    const char *rule_name;
 } cc_rule;
+
+/* The name of the rule a result belongs to: rule_name on a per-slice copy,
+ * name otherwise. */
+const char *cc_rule_display_name(const cc_rule *r);
 
 /* Where notifications go, and how. */
 typedef struct cc_receiver {

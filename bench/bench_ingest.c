@@ -308,7 +308,7 @@ static void phase_report(const bench *b, phase_out *out, int by)
     }
     char path[PATH_CAP + 16];
     snprintf(path, sizeof path, "%s/report.json", b->dir);
-    cc_report_opts ro = {b->model, 0, 0, 0, 0, (cc_grouping)by};
+    cc_report_opts ro = {b->model, 0, 0, 0, 0, (cc_grouping)by, NULL, 0, 0, 0};
     double start = now();
     for (int i = 0; i < b->reps; i++) {
         double t0 = now();

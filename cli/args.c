@@ -221,6 +221,14 @@ static void note_wait(void *ctx, const char *path)
                     "(up to %d s; see --wait)\n", path, *wait_ms / 1000);
 }
 
+static void note_upgrade(void *ctx, const char *path, const char *model, int64_t done_days,
+                         int64_t total_days)
+{
+    (void)ctx;
+    fprintf(stderr, "concord: upgrading %s to keep slices: model '%s', day %lld of %lld\n",
+            path, model, (long long)done_days, (long long)total_days);
+}
+
 int cli_store_open(struct cc_store **out, const char *path, int flags, cc_error *err)
 {
     static int wait_ms;
@@ -230,6 +238,7 @@ int cli_store_open(struct cc_store **out, const char *path, int flags, cc_error 
     o.wait_ms = wait_ms;
     o.on_wait = note_wait;
     o.ctx = &wait_ms;
+    o.on_progress = note_upgrade;
     return cc_store_open_with(out, path, &o, err);
 }
 

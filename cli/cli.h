@@ -131,6 +131,8 @@ int cmd_alerts(int argc, char **argv);
 int cmd_deliver(int argc, char **argv);
 int cmd_rules(int argc, char **argv);
 int cmd_follow(int argc, char **argv);
+int cmd_models(int argc, char **argv);
+extern const char help_models[];
 extern const char help_check[], help_alerts[], help_deliver[], help_rules[], help_follow[];
 int cmd_serve(int argc, char **argv);
 extern const char help_serve[];

@@ -107,7 +107,11 @@ static void print_json(const cc_check_result *r, int dry_run, const cc_deliver_s
         cJSON *e = cJSON_CreateObject();
         cJSON_AddItemToObject(e, "day", jdate(it->day));
         cJSON_AddStringToObject(e, "model", it->model);
-        cJSON_AddStringToObject(e, "rule", it->rule->name);
+        cJSON_AddStringToObject(e, "rule", cc_rule_display_name(it->rule));
+        if (it->rule->slice) {
+            cJSON_AddStringToObject(e, "slice", it->rule->slice);
+            cJSON_AddStringToObject(e, "state_key", it->rule->name);
+        }
         cJSON_AddStringToObject(e, "metric", it->rule->metric);
         cJSON_AddStringToObject(e, "urgency", cc_rules_urgency_name(it->rule->urgency));
         cJSON_AddStringToObject(e, "condition", cc_rules_condition_name(it->rule->cond));
@@ -266,7 +270,9 @@ int cli_replay_run(cc_store *store, const char *rules_path, const char *model, i
                              it->rule->metric,
                              it->ev.value,
                              it->ev.bound,
-                             it->fired_day};
+                             it->fired_day,
+                             it->rule->slice,
+                             it->rule->rule_name};
         if (it->outcome == CC_OUT_RAISED || it->outcome == CC_OUT_CLEARED ||
             it->outcome == CC_OUT_REMINDER) {
             a.kind = cc_check_outcome_name(it->outcome);

@@ -6,11 +6,12 @@
 
 #include "cli.h"
 #include "ingest.h"
+#include "store_slices.h"
 #include "utf8.h"
 
 const char help_ingest[] =
     "usage: concord ingest --db FILE [--model NAME] [--classes A,B,...] [--members X,Y,...]\n"
-    "                      [--strict] [--batch N] [--quiet] FILE...\n\n"
+    "                      [--max-slices N] [--strict] [--batch N] [--quiet] FILE...\n\n"
     "Reads prediction events, one JSON object per line ('-' reads standard input), and\n"
     "stores each with the per-day summaries it adds to. Lines that fail validation are\n"
     "refused with the file, line and reason, recorded in the database's rejects table,\n"
@@ -20,6 +21,9 @@ const char help_ingest[] =
     "  --model NAME     model for lines without a \"model\" key (default: default)\n"
     "  --classes LIST   class names, when this run creates the model\n"
     "  --members LIST   member names, when this run creates the model\n"
+    "  --max-slices N   named segments the model keeps apart, when this run creates\n"
+    "                   it (1..4096, default 64); events of further segments are\n"
+    "                   summed in one overflow slice, with a warning\n"
     "  --strict         store nothing at all when any line is bad\n"
     "  --batch N        lines per transaction (default 20000)\n"
     "  --ts-range FROM,TO  accept event times from the day FROM to the day TO, both\n"
@@ -59,6 +63,16 @@ static void on_reject(void *payload, const char *source, int64_t line, const cha
     t->shown++;
 }
 
+/* Once per run and model: the limit was reached and where the rest went. */
+static void note_overflow(void *ctx, const char *model, int limit, int64_t events)
+{
+    fputs(ctx, stderr);
+    fputs(": warning: model '", stderr);
+    cc_text_put(stderr, model);
+    fprintf(stderr, "' has reached its limit of %d slices; %lld new events of further "
+                    "segments were summed in its overflow slice\n", limit, (long long)events);
+}
+
 /* "FROM,TO": two dates, the second not before the first -> Unix seconds of
  * the first second of FROM and the last second of TO. */
 static int parse_range(const char *command, const char *text, int64_t *first, int64_t *last)
@@ -90,7 +104,7 @@ static int run(int argc, char **argv, cc_record_kind kind)
     cli_opt opts[] = {
         {"db", 0, 1, NULL},      {"model", 0, 1, NULL}, {"classes", 0, 1, NULL},
         {"members", 0, 1, NULL}, {"strict", 0, 0, NULL}, {"batch", 0, 1, NULL},
-        {"quiet", 'q', 0, NULL}, {"ts-range", 0, 1, NULL},
+        {"quiet", 'q', 0, NULL}, {"ts-range", 0, 1, NULL}, {"max-slices", 0, 1, NULL},
     };
     int n_opts = (int)(sizeof opts / sizeof *opts), n_pos, help;
     char **pos = calloc((size_t)argc + 1, sizeof *pos);
@@ -112,8 +126,10 @@ static int run(int argc, char **argv, cc_record_kind kind)
         rc = cli_usage(command, "no input files (use '-' for standard input)");
     else if (kind == CC_RECORD_LABELS &&
              (cli_get(opts, n_opts, "classes") || cli_get(opts, n_opts, "members") ||
-              cli_get(opts, n_opts, "strict") || cli_get(opts, n_opts, "ts-range")))
-        rc = cli_usage(command, "--classes, --members, --strict and --ts-range belong to 'ingest'");
+              cli_get(opts, n_opts, "strict") || cli_get(opts, n_opts, "ts-range") ||
+              cli_get(opts, n_opts, "max-slices")))
+        rc = cli_usage(command, "--classes, --members, --max-slices, --strict and --ts-range "
+                                "belong to 'ingest'");
     else if (cli_get(opts, n_opts, "model") && cli_check_name(command, "model",
                                                               cli_get(opts, n_opts, "model")))
         rc = EXIT_USAGE;
@@ -138,6 +154,14 @@ static int run(int argc, char **argv, cc_record_kind kind)
             rc = EXIT_USAGE;
         else
             io.batch = (int)batch;
+    }
+    const char *sv = cli_get(opts, n_opts, "max-slices");
+    long long max_slices;
+    if (!rc && sv) {
+        if (cli_int(command, "max-slices", sv, 1, CC_SLICES_LIMIT_MAX, &max_slices))
+            rc = EXIT_USAGE;
+        else
+            io.max_slices = (int)max_slices;
     }
     int64_t ts_first = 0, ts_last = 0;
     const char *range = cli_get(opts, n_opts, "ts-range");
@@ -207,6 +231,7 @@ static int run(int argc, char **argv, cc_record_kind kind)
         if (kind == CC_RECORD_EVENTS && s->labels_set > 0)
             fprintf(stderr, ", %lld waiting labels applied", (long long)s->labels_set);
         fputc('\n', stderr);
+        cc_ingest_each_overflow(ing, note_overflow, (void *)command);
         if (s->empty_files > 0)
             fprintf(stderr, "%s: warning: %lld input file(s) had no lines\n", command,
                     (long long)s->empty_files);

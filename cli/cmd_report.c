@@ -14,7 +14,11 @@
 const char help_report[] =
     "usage: concord report --db FILE --model NAME [--from DATE] [--to DATE]\n"
     "                      [--by day|week|all] [--format text|json|html] [--no-review]\n"
-    "                      [--review-max N|all] [--rules FILE] [-o FILE]\n\n"
+    "                      [--review-max N|all] [--rules FILE] [--segment S | --by-segment]\n"
+    "                      [-o FILE]\n"
+    "       concord report --db FILE --model NAME --by hour --from TIME --to TIME\n"
+    "                      [--format text|json|html] [--no-review] [--review-max N|all]\n"
+    "                      [--rules FILE] [-o FILE]\n\n"
     "Diversity of the members (disagreement, Cohen's and Fleiss' kappa), uncertainty of\n"
     "the averaged output (entropy, expected entropy, mutual information), class mix,\n"
     "contested class pairs, and on labelled events accuracy of members, ensemble, vote\n"
@@ -22,6 +26,11 @@ const char help_report[] =
     "Reads the per-day summaries only. Without --from/--to every day with events is\n"
     "shown. Weeks are ISO weeks (Monday to Sunday, UTC).\n\n"
     "  --by day|week|all  one window per day (default), per week, or one for the range\n"
+    "  --by hour          one window per UTC hour that has events, computed from the\n"
+    "                     stored event rows (days that were pruned cannot be shown);\n"
+    "                     --from and --to are then required: RFC 3339 times on whole\n"
+    "                     hours (--to excluded, e.g. 2026-11-03T22:00:00Z) or dates\n"
+    "                     (--to's whole day included)\n"
     "  --format text|json the JSON contract is described in the README\n"
     "  --format html      one self-contained page with charts (write it with -o); it also\n"
     "                     reads the range's event rows for the review lists, unless\n"
@@ -34,8 +43,18 @@ const char help_report[] =
     "                     (from a fresh state, recording and sending nothing) and add the\n"
     "                     alert timeline; the HTML page's status line always comes from\n"
     "                     such a replay, of the default rules when --rules is not given\n"
+    "  --segment S        the report of one slice (the events whose segment is S): its\n"
+    "                     windows against its own baseline days; '(none)' is the\n"
+    "                     events without a segment, '(overflow)' the segments past the\n"
+    "                     model's slice limit (see 'concord models')\n"
+    "  --by-segment       adds one row per slice to every window: events, disagreement,\n"
+    "                     mutual information, accuracy, class-mix and KS drift against\n"
+    "                     the slice's own baseline days, and its class mix against the\n"
+    "                     whole model's in the same window (JSON: a \"segments\" array\n"
+    "                     in each window)\n"
     "  -o FILE            write there instead of standard output\n\n"
-    "exit: 0 ok, 2 usage, 3 file or database error, 4 unknown model\n";
+    "exit: 0 ok, 2 usage, 3 file or database error, 4 unknown model or segment (or, with\n"
+    "      --by hour, a range that touches pruned days)\n";
 
 /* The alert timeline over the report's days (NULL rules_path: the default
  * rules); t stays empty when the report has no windows. */
@@ -103,13 +122,37 @@ int cli_report_html(cc_store *store, const cc_report *r, long long review_max, c
     return cli_report_html_rules(store, r, review_max, note, NULL, out);
 }
 
+/* --from/--to of `--by hour`: a date (its first second; for --to the
+ * second after the day) or an RFC 3339 time on a whole hour. */
+static int hour_bound(const char *opt, const char *text, int is_to, int64_t *out)
+{
+    int64_t day;
+    const char *why = NULL;
+    if (cc_parse_date(text, &day) == 0) {
+        *out = (day + (is_to ? 1 : 0)) * 86400;
+        return 0;
+    }
+    if (cc_parse_rfc3339(text, (int)strlen(text), out, &why) != 0) {
+        cli_usage("report", "--%s '%s' is neither a date (YYYY-MM-DD) nor an RFC 3339 time "
+                            "(%s)", opt, text, why ? why : "unreadable");
+        return -1;
+    }
+    if (*out % 3600 != 0) {
+        cli_usage("report", "--%s '%s' is not on a whole UTC hour (--by hour windows are "
+                            "UTC hours, e.g. 2026-11-03T14:00:00Z)", opt, text);
+        return -1;
+    }
+    return 0;
+}
+
 int cmd_report(int argc, char **argv)
 {
     cli_opt opts[] = {{"db", 0, 1, NULL},  {"model", 0, 1, NULL},  {"from", 0, 1, NULL},
                       {"to", 0, 1, NULL},  {"by", 0, 1, NULL},     {"format", 0, 1, NULL},
                       {"output", 'o', 1, NULL}, {"no-review", 0, 0, NULL},
-                      {"rules", 0, 1, NULL}, {"review-max", 0, 1, NULL}};
-    int n_opts = 10, n_pos, help;
+                      {"rules", 0, 1, NULL}, {"review-max", 0, 1, NULL},
+                      {"segment", 0, 1, NULL}, {"by-segment", 0, 0, NULL}};
+    int n_opts = 12, n_pos, help;
     char *pos[64];
     if (argc > 64 || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, "report"))
         return EXIT_USAGE;
@@ -126,26 +169,38 @@ int cmd_report(int argc, char **argv)
         return cli_usage("report", "--db and --model are required");
     if (n_pos)
         return cli_usage("report", "unexpected argument '%s'", pos[0]);
-    if (cli_get(opts, n_opts, "from")) {
+    if (by && strcmp(by, "hour") == 0) {
+        ro.by = CC_BY_HOUR;
+        if (!cli_get(opts, n_opts, "from") || !cli_get(opts, n_opts, "to"))
+            return cli_usage("report", "--by hour needs --from and --to");
+        if (hour_bound("from", cli_get(opts, n_opts, "from"), 0, &ro.ts_from) ||
+            hour_bound("to", cli_get(opts, n_opts, "to"), 1, &ro.ts_to))
+            return EXIT_USAGE;
+        if (ro.ts_to <= ro.ts_from)
+            return cli_usage("report", "--to is not after --from");
+    } else if (cli_get(opts, n_opts, "from")) {
         ro.has_from = 1;
         if (cli_date("report", "from", cli_get(opts, n_opts, "from"), &ro.from))
             return EXIT_USAGE;
     }
-    if (cli_get(opts, n_opts, "to")) {
+    if (ro.by != CC_BY_HOUR && cli_get(opts, n_opts, "to")) {
         ro.has_to = 1;
         if (cli_date("report", "to", cli_get(opts, n_opts, "to"), &ro.to))
             return EXIT_USAGE;
     }
     if (ro.has_from && ro.has_to && ro.to < ro.from)
         return cli_usage("report", "--to is before --from");
-    if (!by || strcmp(by, "day") == 0)
+    if (ro.by == CC_BY_HOUR) {
+        /* set with its bounds above */
+    } else if (!by || strcmp(by, "day") == 0) {
         ro.by = CC_BY_DAY;
-    else if (strcmp(by, "week") == 0)
+    } else if (strcmp(by, "week") == 0) {
         ro.by = CC_BY_WEEK;
-    else if (strcmp(by, "all") == 0)
+    } else if (strcmp(by, "all") == 0) {
         ro.by = CC_BY_ALL;
-    else
-        return cli_usage("report", "--by must be day, week or all, not '%s'", by);
+    } else {
+        return cli_usage("report", "--by must be hour, day, week or all, not '%s'", by);
+    }
     long long review_max = CLI_REVIEW_MAX_DEFAULT;
     const char *rmax = cli_get(opts, n_opts, "review-max");
     if (rmax && strcmp(rmax, "all") == 0) {
@@ -164,6 +219,16 @@ int cmd_report(int argc, char **argv)
     int html = format && strcmp(format, "html") == 0;
     if (format && !json && !html && strcmp(format, "text") != 0)
         return cli_usage("report", "--format must be text, json or html, not '%s'", format);
+    ro.segment = cli_get(opts, n_opts, "segment");
+    ro.by_segment = cli_get(opts, n_opts, "by-segment") != NULL;
+    if (ro.segment && ro.by_segment)
+        return cli_usage("report", "--segment and --by-segment do not go together");
+    if ((ro.segment || ro.by_segment) && (html || cli_get(opts, n_opts, "rules")))
+        return cli_usage("report", "--segment and --by-segment give text or JSON, without "
+                                   "--rules");
+    /* the page has a slice section: it reads the per-slice rows */
+    if (html && ro.by != CC_BY_HOUR)
+        ro.by_segment = 1;
 
     cc_error err = CC_ERROR_INIT;
     cc_store *store = NULL;

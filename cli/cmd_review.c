@@ -7,6 +7,7 @@
 #include <string.h>
 
 #include "cli.h"
+#include "names_text.h"
 #include "out.h"
 #include "date.h"
 #include "review.h"
@@ -104,8 +105,12 @@ static int parse_where(const char *where, const cc_model *m, cc_review_opts *o)
         o->pair_a = class_of(m, a, (size_t)(comma - a));
         o->pair_b = class_of(m, comma + 1, strlen(comma + 1));
         if (o->pair_a < 0 || o->pair_b < 0)
-            return cli_usage("review", "--where %s: unknown class (model %s has %d classes)",
-                             where, m->name, m->k);
+        {
+            char list[400];
+            cc_names_text(list, sizeof list, (const char *const *)m->classes, m->k);
+            return cli_usage("review", "--where %s: unknown class; model %s has the classes %s",
+                             where, m->name, list);
+        }
         if (o->pair_a == o->pair_b)
             return cli_usage("review", "--where %s: the two classes must differ", where);
         o->lists = 1u << CC_REVIEW_PAIR;

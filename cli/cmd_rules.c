@@ -66,7 +66,8 @@ static int validate_model(cc_store *store, const char *file, const char *model, 
         const cc_check_item *first = NULL, *skip = NULL;
         for (int i = 0; i < rp.res->n_items; i++) {
             const cc_check_item *it = &rp.res->items[i];
-            if (it->rule != rule)
+            /* a rule's items, or its per-slice copies' */
+            if (strcmp(cc_rule_display_name(it->rule), rule->name) != 0)
                 continue;
             if (it->ev.status == CC_EVAL_BREACH && !breach++)
                 first = it;
@@ -79,7 +80,7 @@ static int validate_model(cc_store *store, const char *file, const char *model, 
             cc_format_date(first->day, d);
             printf("  warning: %s breaches on %d of %d baseline day(s)%s; first %s: %s%s%s = "
                    "%.4g, bound %.4g\n",
-                   rule->name, breach, n_days, raised ? " and would be raised" : "", d,
+                   first->rule->name, breach, n_days, raised ? " and would be raised" : "", d,
                    rule->metric, first->ev.subject[0] ? " of " : "", first->ev.subject,
                    first->ev.value, first->ev.bound);
             (*warned)++;
@@ -160,9 +161,10 @@ static int check(const char *path)
             snprintf(scope, sizeof scope, " (%s %s)", r->each ? "each" : cc_figures_scope_name(pi.scope),
                      r->each ? cc_figures_scope_name(pi.scope) : r->subject);
         }
-        printf("  %-24s %-6s %s%s, %s; days %d, clear_days %d%s\n", r->name,
+        printf("  %-24s %-6s %s%s, %s; days %d, clear_days %d%s%s\n", r->name,
                cc_rules_urgency_name(r->urgency), r->metric, scope, cond, r->raise_after,
-               r->clear_after, r->remind_after_days ? ", reminders" : "");
+               r->clear_after, r->remind_after_days ? ", reminders" : "",
+               r->each_slice ? "; each slice" : "");
     }
     for (int i = 0; i < cc_rules_receiver_count(rs); i++) {
         const cc_receiver *w = cc_rules_receiver(rs, i);

@@ -8,6 +8,7 @@
 #include "cli.h"
 #include "date.h"
 #include "store.h"
+#include "store_slices.h"
 
 const char help_verify[] =
     "usage: concord verify --db FILE --model NAME [--deep]\n\n"
@@ -15,8 +16,10 @@ const char help_verify[] =
     "pruned day, the part kept for its deleted rows) and compares it, counter by\n"
     "counter, with the summary the reports read. Prints one line per day. Also reports\n"
     "days with event rows but no summary, summaries with neither rows nor a pruned\n"
-    "record, and stored labels or classes outside 0..K-1. Reads one snapshot; writes\n"
-    "nothing.\n\n"
+    "record, and stored labels or classes outside 0..K-1. Then the slices (one per\n"
+    "segment): on every day their summaries must add up to the model's, counter by\n"
+    "counter, and each slice's summary must equal its rows plus its pruned part.\n"
+    "Reads one snapshot; writes nothing.\n\n"
     "  --deep   also run SQLite's PRAGMA integrity_check on the whole file\n\n"
     "exit: 0 nothing found, 1 some finding (listed), 2 usage, 3 file or database error,\n"
     "4 unknown model\n";
@@ -52,6 +55,95 @@ static int find_day(const int64_t *days, int n, int64_t day)
             hi = mid - 1;
     }
     return -1;
+}
+
+/* The slices' check: on each of the model's days the slices sum to the
+ * stored summary, and each slice equals its rows plus its pruned part; no
+ * slice has a day the model lacks. Prints the mismatches and a total line;
+ * *found = 1 when there is any. */
+static int verify_slices(cc_store *store, const cc_model *m, const int64_t *days, int n_days,
+                         int *found, cc_error *err)
+{
+    cc_slice *list = NULL;
+    cc_summary **rows = NULL, *stored = NULL, *sum = NULL, *one = NULL, *pruned = NULL;
+    int n = 0, rc = 0, bad_sum = 0, bad_slice = 0, stray = 0, checked = 0;
+    if (!cc_store_slices_kept(store)) {
+        printf("slices: not kept yet (a database of schema 3; the first writing command "
+               "upgrades it)\n");
+        return 0;
+    }
+    if ((rc = cc_store_slice_list(store, m, &list, &n, err)))
+        return rc;
+    rows = calloc((size_t)n + 1, sizeof *rows);
+    stored = cc_summary_create(m->m, m->k);
+    sum = cc_summary_create(m->m, m->k);
+    one = cc_summary_create(m->m, m->k);
+    pruned = cc_summary_create(m->m, m->k);
+    int ok = rows && stored && sum && one && pruned;
+    for (int i = 0; ok && i < n; i++)
+        ok = (rows[i] = cc_summary_create(m->m, m->k)) != NULL;
+    if (!ok) {
+        rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+        goto done;
+    }
+    for (int d = 0; d < n_days; d++) {
+        char date[11];
+        cc_format_date(days[d], date);
+        if ((rc = cc_store_summary_get(store, m, days[d], stored, err)) ||
+            (rc = cc_store_slice_from_rows(store, m, days[d], list, n, rows, err)))
+            goto done;
+        cc_summary_clear(sum);
+        for (int i = 0; i < n; i++) {
+            int was_pruned;
+            if ((rc = cc_store_slice_summary_get(store, m, days[d], list[i].id, one, err)) ||
+                (rc = cc_store_slice_pruned_get(store, m, days[d], list[i].id, &was_pruned,
+                                                pruned, err)))
+                goto done;
+            cc_summary_merge(sum, one);
+            cc_summary_merge(rows[i], pruned);
+            checked++;
+            if (!cc_summary_equal(one, rows[i])) {
+                bad_slice++;
+                printf("%s slice '%s': MISMATCH: its summary differs from its rows plus its "
+                       "pruned part\n", date, cc_slice_name(&list[i]));
+            }
+        }
+        if (!cc_summary_equal(sum, stored)) {
+            bad_sum++;
+            printf("%s slices: MISMATCH: the slices do not add up to the model's summary\n",
+                   date);
+        }
+    }
+    for (int i = 0; i < n; i++) {
+        int64_t *sd = NULL;
+        int n_sd = 0;
+        if ((rc = cc_store_slice_summary_days(store, m, list[i].id, INT64_MIN / 4,
+                                              INT64_MAX / 4, &sd, &n_sd, err)))
+            goto done;
+        for (int j = 0; j < n_sd; j++)
+            if (find_day(days, n_days, sd[j]) < 0) {
+                char date[11];
+                cc_format_date(sd[j], date);
+                printf("%s slice '%s': MISMATCH: a slice summary on a day the model has "
+                       "none\n", date, cc_slice_name(&list[i]));
+                stray++;
+            }
+        free(sd);
+    }
+    printf("slices: %d, %d slice-days checked, %d mismatched, %d days where the slices do not "
+           "add up to the model, %d stray slice days\n",
+           n, checked, bad_slice, bad_sum, stray);
+    *found = bad_slice || bad_sum || stray;
+done:
+    for (int i = 0; rows && i < n; i++)
+        cc_summary_free(rows[i]);
+    free(rows);
+    cc_summary_free(stored);
+    cc_summary_free(sum);
+    cc_summary_free(one);
+    cc_summary_free(pruned);
+    cc_slice_list_free(list, n);
+    return rc;
 }
 
 int cmd_verify(int argc, char **argv)
@@ -127,7 +219,12 @@ int cmd_verify(int argc, char **argv)
     printf("%d days checked, %d mismatched, %d days with rows but no summary, %lld class "
            "indexes out of range\n",
            n_days, bad, orphans, (long long)faults);
-    int found = bad || orphans || faults;
+    int found = bad || orphans || faults, slices_found = 0;
+    if (verify_slices(store, m, days, n_days, &slices_found, &err)) {
+        rc = cli_fail(&err);
+        goto done;
+    }
+    found |= slices_found;
     if (cli_get(opts, n_opts, "deep")) {
         int ok, lines = 0;
         if (cc_store_integrity(store, show_integrity, &lines, &ok, &err)) {

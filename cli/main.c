@@ -13,6 +13,8 @@ static const cli_command commands[] = {
     {"report", cmd_report, "diversity, uncertainty and accuracy per day, week or range",
      help_report},
     {"verify", cmd_verify, "check that stored summaries match the event rows", help_verify},
+    {"models", cmd_models, "the models a database holds: days, events, slices, baseline",
+     help_models},
     {"review", cmd_review, "the events behind an incident: wrong, helped, hurt, uncertain",
      help_review},
     {"show", cmd_show, "one stored event in full", help_show},

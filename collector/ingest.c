@@ -13,23 +13,40 @@
 #include "event_parse.h"
 #include "event_view.h"
 #include "line_reader.h"
+#include "names_text.h"
+#include "store_slices.h"
 #include "testpoint.h"
 #include "summary.h"
 
-/* A day's summary changes not yet added to the store. The deltas held at
+/* A (day, slice)'s summary changes not yet added to the store. The deltas held at
  * once are bounded by opts.delta_budget bytes: past it, the least recently
  * used day's delta is added to the store inside the open transaction and its
  * buffer serves the new day (so a batch's rows and summary changes still
  * commit together). */
 typedef struct day_delta {
     int64_t day;
+    int64_t slice;   /* the slice's part; added to the model's day too when flushed */
     cc_summary *delta;
     uint64_t used;   /* ing->clock when last touched, for LRU eviction */
     int dirty;
 } day_delta;
 
+/* A segment's slice, cached for the run (a segment's slice never changes). */
+typedef struct slice_entry {
+    char *segment;   /* NULL: events without a segment */
+    int len;
+    int64_t slice;
+    int overflow;
+} slice_entry;
+
+#define SLICE_CACHE_MAX 4096 /* segments remembered per model; more are looked up */
+
 typedef struct model_state {
     cc_model *model;
+    slice_entry *slices;
+    int n_slices;
+    int slice_limit;
+    int64_t overflow_events; /* new events this run put in the overflow slice */
     day_delta *days;
     int n_days, cap_days, last;
     size_t delta_bytes; /* one summary of this model's shape */
@@ -67,6 +84,9 @@ static void model_state_clear(model_state *ms)
     for (int i = 0; i < ms->n_days; i++)
         cc_summary_free(ms->days[i].delta);
     free(ms->days);
+    for (int i = 0; i < ms->n_slices; i++)
+        free(ms->slices[i].segment);
+    free(ms->slices);
     free(ms->probs);
     cc_model_free(ms->model);
 }
@@ -136,7 +156,15 @@ static model_state *model_for(cc_ingest *ing, const char *name, int m, int k, ch
     int rc = cc_store_model_get(ing->store, name, &model, &local);
     if (rc == -CC_ENOTFOUND) {
         if (m <= 0) {
-            snprintf(why, why_len, "field 'model': no model '%s' in the database", name);
+            char **names = NULL, list[128];
+            int n = 0;
+            cc_store_model_list(ing->store, &names, &n, NULL);
+            cc_names_text(list, sizeof list, (const char *const *)names, n);
+            for (int i = 0; i < n; i++)
+                free(names[i]);
+            free(names);
+            snprintf(why, why_len, "field 'model': no model '%s' in the database; models: %s",
+                     name, list);
             return NULL;
         }
         const cc_ingest_opts *o = &ing->opts;
@@ -153,6 +181,11 @@ static model_state *model_for(cc_ingest *ing, const char *name, int m, int k, ch
             return NULL;
         }
         rc = cc_store_model_create(ing->store, name, m, k, o->classes, o->members, &model, err);
+        if (!rc && o->max_slices > 0 &&
+            (rc = cc_store_slice_limit_set(ing->store, model, o->max_slices, err))) {
+            cc_model_free(model);
+            model = NULL;
+        }
     } else if (rc == 0) {
         if (ing->opts.classes && (ing->opts.n_classes != model->k ||
                                   names_differ(ing->opts.classes, model->classes, model->k))) {
@@ -168,10 +201,20 @@ static model_state *model_for(cc_ingest *ing, const char *name, int m, int k, ch
             cc_model_free(model);
             return NULL;
         }
+        int limit;
+        if (ing->opts.max_slices > 0 &&
+            (rc = cc_store_slice_limit_get(ing->store, model, &limit, err)) == 0 &&
+            limit != ing->opts.max_slices) {
+            snprintf(why, why_len, "model '%s' already has a slice limit of %d; --max-slices "
+                                   "applies only to the run that creates a model", name, limit);
+            cc_model_free(model);
+            return NULL;
+        }
     } else {
         *err = local;
     }
     if (rc) {
+        cc_model_free(model);
         *fatal = 1;
         return NULL;
     }
@@ -200,6 +243,10 @@ static model_state *model_for(cc_ingest *ing, const char *name, int m, int k, ch
         return NULL;
     }
     ms->pruned_last = pr.days ? pr.last : INT64_MIN;
+    if (cc_store_slice_limit_get(ing->store, model, &ms->slice_limit, err)) {
+        *fatal = 1;
+        return NULL;
+    }
     return ms;
 }
 
@@ -208,7 +255,10 @@ static int delta_flush(cc_ingest *ing, model_state *ms, day_delta *dd, cc_error 
 {
     if (!dd->dirty)
         return 0;
-    int rc = cc_store_summary_add(ing->store, ms->model, dd->day, dd->delta, err);
+    int rc = cc_store_slice_summary_add(ing->store, ms->model, dd->day, dd->slice, dd->delta,
+                                        err);
+    if (!rc)
+        rc = cc_store_summary_add(ing->store, ms->model, dd->day, dd->delta, err);
     if (rc)
         return rc;
     cc_summary_clear(dd->delta);
@@ -247,17 +297,19 @@ static int make_room(cc_ingest *ing, model_state *ms, day_delta **reuse, cc_erro
     return 0;
 }
 
-/* The held delta of (ms, day), made when absent; NULL with err set on a
- * store failure or out of memory. */
-static cc_summary *delta_for(cc_ingest *ing, model_state *ms, int64_t day, cc_error *err)
+/* The held delta of (ms, day, slice), made when absent; NULL with err set
+ * on a store failure or out of memory. */
+static cc_summary *delta_for(cc_ingest *ing, model_state *ms, int64_t day, int64_t slice,
+                             cc_error *err)
 {
     ing->clock++;
-    if (ms->last < ms->n_days && ms->days[ms->last].day == day) {
+    if (ms->last < ms->n_days && ms->days[ms->last].day == day &&
+        ms->days[ms->last].slice == slice) {
         ms->days[ms->last].used = ing->clock;
         return ms->days[ms->last].delta;
     }
     for (int i = 0; i < ms->n_days; i++)
-        if (ms->days[i].day == day) {
+        if (ms->days[i].day == day && ms->days[i].slice == slice) {
             ms->last = i;
             ms->days[i].used = ing->clock;
             return ms->days[i].delta;
@@ -282,6 +334,7 @@ static cc_summary *delta_for(cc_ingest *ing, model_state *ms, int64_t day, cc_er
         ing->held_bytes += ms->delta_bytes;
     }
     dd->day = day;
+    dd->slice = slice;
     dd->used = ing->clock;
     dd->dirty = 0;
     ms->last = (int)(dd - ms->days);
@@ -293,15 +346,40 @@ oom:
 
 static void mark_dirty(model_state *ms) { ms->days[ms->last].dirty = 1; }
 
+/* Adds every held delta to the store: each slice's to its row, and the
+ * slices of one day merged first, so the model's row of a day is read and
+ * written once per flush however many slices the day has. */
 static int flush(cc_ingest *ing, cc_error *err)
 {
     for (int i = 0; i < ing->n_models; i++) {
         model_state *ms = &ing->models[i];
-        for (int j = 0; j < ms->n_days; j++) {
-            int rc = delta_flush(ing, ms, &ms->days[j], err);
-            if (rc)
-                return rc;
+        cc_summary *day_sum = NULL;
+        int rc = 0;
+        for (int j = 0; j < ms->n_days && !rc; j++) {
+            if (!ms->days[j].dirty)
+                continue;
+            if (!day_sum && !(day_sum = cc_summary_create(ms->model->m, ms->model->k))) {
+                rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+                break;
+            }
+            cc_summary_clear(day_sum);
+            int64_t day = ms->days[j].day;
+            for (int k = j; k < ms->n_days && !rc; k++) {
+                day_delta *dd = &ms->days[k];
+                if (!dd->dirty || dd->day != day)
+                    continue;
+                rc = cc_store_slice_summary_add(ing->store, ms->model, day, dd->slice, dd->delta,
+                                                err);
+                cc_summary_merge(day_sum, dd->delta);
+                cc_summary_clear(dd->delta);
+                dd->dirty = 0;
+            }
+            if (!rc)
+                rc = cc_store_summary_add(ing->store, ms->model, day, day_sum, err);
         }
+        cc_summary_free(day_sum);
+        if (rc)
+            return rc;
     }
     return 0;
 }
@@ -361,6 +439,47 @@ static int reject(cc_ingest *ing, const char *kind, const char *source, const cc
     return h->source && h->reason && h->text ? 0 : cc_error_set(err, CC_ENOMEM, "out of memory");
 }
 
+/* The slice of a segment (NULL: none) for model ms: from the run's cache,
+ * else from the store (create = 1 may add it, or send it to overflow). */
+static int slice_for(cc_ingest *ing, model_state *ms, const char *segment, int len, int create,
+                     int64_t *slice, int *overflow, cc_error *err)
+{
+    for (int i = 0; i < ms->n_slices; i++) {
+        const slice_entry *e = &ms->slices[i];
+        if (segment ? e->segment && e->len == len && memcmp(e->segment, segment, (size_t)len) == 0
+                    : !e->segment) {
+            *slice = e->slice;
+            *overflow = e->overflow;
+            return 0;
+        }
+    }
+    int rc = cc_store_slice_resolve(ing->store, ms->model, segment, len, create, slice, overflow,
+                                    err);
+    if (rc || ms->n_slices >= SLICE_CACHE_MAX)
+        return rc;
+    /* a segment sent to overflow by a label lookup (create = 0) is not
+     * remembered: an event of it may still get a slice of its own */
+    if (!create && *overflow)
+        return 0;
+    slice_entry *grown = realloc(ms->slices, (size_t)(ms->n_slices + 1) * sizeof *grown);
+    if (!grown)
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    ms->slices = grown;
+    slice_entry *e = &grown[ms->n_slices];
+    e->segment = NULL;
+    if (segment) {
+        if (!(e->segment = malloc((size_t)len + 1)))
+            return cc_error_set(err, CC_ENOMEM, "out of memory");
+        memcpy(e->segment, segment, (size_t)len);
+        e->segment[len] = '\0';
+    }
+    e->len = len;
+    e->slice = *slice;
+    e->overflow = *overflow;
+    ms->n_slices++;
+    return 0;
+}
+
 /* Applies a label to a stored event, or parks it until the event arrives. */
 static int apply_label(cc_ingest *ing, model_state *ms, const char *id, int id_len, int label,
                        int64_t arrived, cc_error *err)
@@ -379,7 +498,17 @@ static int apply_label(cc_ingest *ing, model_state *ms, const char *id, int id_l
         ing->stats.labels_unchanged++;
         return 0;
     }
-    cc_summary *d = delta_for(ing, ms, ev.day, err);
+    char *segment = NULL;
+    int64_t slice;
+    int overflow;
+    if ((rc = cc_store_event_segment(ing->store, ms->model, id, id_len, &found, &segment, err)) ||
+        (rc = slice_for(ing, ms, segment, segment ? (int)strlen(segment) : 0, 0, &slice,
+                        &overflow, err))) {
+        free(segment);
+        return rc;
+    }
+    free(segment);
+    cc_summary *d = delta_for(ing, ms, ev.day, slice, err);
     if (!d)
         return -1;
     if (ev.label >= 0) {
@@ -401,8 +530,11 @@ static int resolve_label(const cc_model *model, int label, const char *name, int
     if (name) {
         *out = cc_model_class_index(model, name, (int)strlen(name));
         if (*out < 0) {
-            snprintf(why, why_len, "field 'label': unknown class name '%.64s' for model '%s'",
-                     name, model->name);
+            char list[96];
+            cc_names_text(list, sizeof list, (const char *const *)model->classes, model->k);
+            snprintf(why, why_len,
+                     "field 'label': unknown class name '%.64s' for model '%s'; classes: %s",
+                     name, model->name, list);
             return -1;
         }
         return 0;
@@ -462,7 +594,8 @@ static int store_event(cc_ingest *ing, const char *source, const cc_line *ln,
     cc_event_view_compute(view, ms->probs, model->m, model->k, label);
     int pred = view->ens;
 
-    int inserted;
+    int64_t slice;
+    int inserted, overflow;
     if (cc_store_event_insert(ing->store, model, ev.id, ev.id_len, ev.ts, ev.segment,
                               ev.segment_len, pred, label, ms->probs, &inserted, err))
         return -1;
@@ -470,9 +603,13 @@ static int store_event(cc_ingest *ing, const char *source, const cc_line *ln,
         ing->stats.duplicates++;
         return 0;
     }
-    cc_summary *d = delta_for(ing, ms, cc_day_of_unix(ev.ts), err);
+    /* a duplicate never makes a slice (nor takes a place under the limit) */
+    if (slice_for(ing, ms, ev.segment, ev.segment_len, 1, &slice, &overflow, err))
+        return -1;
+    cc_summary *d = delta_for(ing, ms, cc_day_of_unix(ev.ts), slice, err);
     if (!d)
         return -1;
+    ms->overflow_events += overflow;
     cc_summary_add_unlabeled_view(d, view, ms->probs, 1);
     if (label >= 0)
         cc_summary_add_labeled_view(d, view, ms->probs, 1);
@@ -685,6 +822,14 @@ int cc_ingest_finish(cc_ingest *ing, cc_error *err)
     if (!rc)
         ing->stats.committed = 1;
     return rc;
+}
+
+void cc_ingest_each_overflow(const cc_ingest *ing, cc_overflow_fn fn, void *ctx)
+{
+    for (int i = 0; i < ing->n_models; i++)
+        if (ing->models[i].overflow_events > 0)
+            fn(ctx, ing->models[i].model->name, ing->models[i].slice_limit,
+               ing->models[i].overflow_events);
 }
 
 void cc_ingest_free(cc_ingest *ing)

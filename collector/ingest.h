@@ -34,6 +34,8 @@ typedef struct cc_ingest_opts {
     void *payload;
     int64_t now;                /* Unix time delayed labels arrive at; 0 = the clock */
     size_t delta_budget;        /* bytes of day-summary deltas held at once; 0 = default */
+    int max_slices;             /* slice limit of models this run creates; 0 = default
+                                   (CC_SLICES_DEFAULT_MAX, store_slices.h) */
 } cc_ingest_opts;
 
 /* Default bound on the per-day summary deltas an ingest holds in memory:
@@ -41,7 +43,7 @@ typedef struct cc_ingest_opts {
  * largest shape, 64 x 256 (15.3 MiB each). At least one day is always held. */
 #define CC_INGEST_DELTA_BUDGET ((size_t)32 << 20)
 
-#define CC_INGEST_OPTS_INIT {"default", NULL, 0, NULL, 0, 0, 20000, NULL, NULL, 0, 0}
+#define CC_INGEST_OPTS_INIT {"default", NULL, 0, NULL, 0, 0, 20000, NULL, NULL, 0, 0, 0}
 
 typedef struct cc_ingest_stats {
     int64_t lines;              /* non-blank lines read */
@@ -104,6 +106,11 @@ int cc_ingest_file_failed(const cc_ingest *ing);
 void cc_ingest_ts_range(cc_ingest *ing, int64_t first, int64_t last);
 
 /* Rolls back whatever is not committed and frees. Accepts NULL. */
+/* Calls fn once per model whose new events this run went partly to the
+ * overflow slice: the model, its slice limit and how many events. */
+typedef void (*cc_overflow_fn)(void *ctx, const char *model, int limit, int64_t events);
+void cc_ingest_each_overflow(const cc_ingest *ing, cc_overflow_fn fn, void *ctx);
+
 void cc_ingest_free(cc_ingest *ing);
 
 #endif

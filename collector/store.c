@@ -14,11 +14,14 @@
 #include <unistd.h>
 
 #include "date.h"
+#include "names_text.h"
+#include "store_slices.h"
 #include "summary_codec.h"
 
 /* 1: the first layout; 2: pruned_days; 3: events in arrival order (a rowid
- * table) with a unique index on (model_id, id). */
-#define SCHEMA_VERSION 3
+ * table) with a unique index on (model_id, id); 4: per-segment summaries
+ * (slices, store_slices.h). */
+#define SCHEMA_VERSION 4
 
 enum {
     ST_EVENT_INSERT,
@@ -109,6 +112,26 @@ static const char schema_sql[] =
     "  model_id INTEGER NOT NULL, day INTEGER NOT NULL, version INTEGER NOT NULL,"
     "  events INTEGER NOT NULL, counters BLOB NOT NULL, pruned_at INTEGER NOT NULL,"
     "  PRIMARY KEY(model_id, day)) WITHOUT ROWID;";
+
+/* Version 4: slices (store_slices.h). A slice's summary rows sit beside the
+ * model's (model, day) rows, which stay as they were and equal their sum. */
+static const char slices_schema_sql[] =
+    "CREATE TABLE IF NOT EXISTS slices("
+    "  slice_id INTEGER PRIMARY KEY, model_id INTEGER NOT NULL, kind INTEGER NOT NULL,"
+    "  segment TEXT NOT NULL, created_at INTEGER NOT NULL, UNIQUE(model_id, kind, segment));"
+    "CREATE TABLE IF NOT EXISTS slice_limits("
+    "  model_id INTEGER PRIMARY KEY, max_slices INTEGER NOT NULL);"
+    "CREATE TABLE IF NOT EXISTS slice_summaries("
+    "  model_id INTEGER NOT NULL, day INTEGER NOT NULL, slice_id INTEGER NOT NULL,"
+    "  version INTEGER NOT NULL, events INTEGER NOT NULL, labeled INTEGER NOT NULL,"
+    "  counters BLOB NOT NULL, PRIMARY KEY(model_id, day, slice_id)) WITHOUT ROWID;"
+    "CREATE TABLE IF NOT EXISTS slice_pruned("
+    "  model_id INTEGER NOT NULL, day INTEGER NOT NULL, slice_id INTEGER NOT NULL,"
+    "  version INTEGER NOT NULL, events INTEGER NOT NULL, counters BLOB NOT NULL,"
+    "  pruned_at INTEGER NOT NULL, PRIMARY KEY(model_id, day, slice_id)) WITHOUT ROWID;"
+    /* one slice's days and totals without walking the other slices' rows */
+    "CREATE INDEX IF NOT EXISTS slice_summaries_by_slice ON slice_summaries("
+    "  model_id, slice_id, day, events, labeled);";
 
 static int64_t now_ms(void)
 {
@@ -275,6 +298,17 @@ static int check_version(cc_store *s, int64_t version, cc_error *err)
     return 0;
 }
 
+/* The step from schema 3 (and older, already brought to 3's tables) to 4:
+ * the slice tables, filled from the stored rows and pruned parts. Runs
+ * inside the upgrade's transaction, so a failure leaves the file at 3. */
+static int upgrade_to_v4_slices(cc_store *s, cc_error *err)
+{
+    int rc = exec(s, slices_schema_sql, err);
+    if (!rc)
+        rc = cc_store_slice_rebuild(s, s->o.on_progress, s->o.progress_ctx, err);
+    return rc;
+}
+
 /* Creates or upgrades the schema in one write transaction, unless it is
  * current already (then nothing is written). */
 static int bring_up_to_date(cc_store *s, cc_error *err)
@@ -292,7 +326,8 @@ static int bring_up_to_date(cc_store *s, cc_error *err)
     /* another writer may have done it meanwhile */
     if ((rc = read_version(s, &version, err)) || (rc = check_version(s, version, err)) ||
         (version >= 1 && version < 3 && (rc = exec(s, events_v3_sql, err))) ||
-        (rc = exec(s, schema_sql, err))) {
+        (rc = exec(s, schema_sql, err)) || (rc = exec(s, slices_schema_sql, err)) ||
+        (version >= 1 && version < 4 && (rc = upgrade_to_v4_slices(s, err)))) {
         cc_store_rollback(s);
         return rc;
     }
@@ -581,7 +616,15 @@ int cc_store_model_get(cc_store *s, const char *name, cc_model **out, cc_error *
     sqlite3_bind_text(st, 1, name, -1, SQLITE_TRANSIENT);
     int step = sqlite3_step(st);
     if (step == SQLITE_DONE) {
-        rc = cc_error_set(err, CC_ENOTFOUND, "%s: no model named '%s'", s->path, name);
+        char **names = NULL, list[320];
+        int n = 0;
+        cc_store_model_list(s, &names, &n, NULL);
+        cc_names_text(list, sizeof list, (const char *const *)names, n);
+        rc = cc_error_set(err, CC_ENOTFOUND, "%s: no model named '%s'; models: %s", s->path,
+                          name, list);
+        for (int i = 0; i < n; i++)
+            free(names[i]);
+        free(names);
     } else if (step != SQLITE_ROW) {
         rc = db_error(s, err, "reading models");
     } else {
@@ -1061,6 +1104,8 @@ int cc_store_prune_day(cc_store *s, const cc_model *m, int64_t day, int64_t now,
     }
     sqlite3_finalize(st);
     st = NULL;
+    if ((rc = cc_store_slice_prune_day(s, m, day, now, err)))
+        goto done;
     if (sqlite3_prepare_v2(s->db, "DELETE FROM events WHERE model_id = ?1 AND day = ?2", -1,
                            &st, NULL) != SQLITE_OK) {
         rc = db_error(s, err, "deleting event rows");
@@ -1241,5 +1286,50 @@ int cc_store_backup(cc_store *s, const char *out_path, cc_error *err)
     snprintf(side, sizeof side, "%s-journal", tmp);
     unlink(side);
     free(tmp);
+    return rc;
+}
+
+int cc_store_events_between(cc_store *s, const cc_model *m, int64_t ts_from, int64_t ts_to,
+                            cc_event_row_fn fn, void *payload, cc_error *err)
+{
+    sqlite3_stmt *st = NULL;
+    size_t want = (size_t)m->m * (size_t)m->k * sizeof(float);
+    float *probs = malloc(want);
+    int rc = 0, step;
+    if (!probs)
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    if (ts_to <= ts_from)
+        goto done;
+    /* the day bounds let SQLite walk events_by_time (model_id, day, ts) */
+    if (sqlite3_prepare_v2(s->db,
+                           "SELECT ts, label, label_at, probs FROM events "
+                           "WHERE model_id = ?1 AND day BETWEEN ?2 AND ?3 "
+                           "AND ts >= ?4 AND ts < ?5 ORDER BY day, ts",
+                           -1, &st, NULL) != SQLITE_OK) {
+        rc = db_error(s, err, "reading events by time");
+        goto done;
+    }
+    sqlite3_bind_int64(st, 1, m->id);
+    sqlite3_bind_int64(st, 2, cc_day_of_unix(ts_from));
+    sqlite3_bind_int64(st, 3, cc_day_of_unix(ts_to - 1));
+    sqlite3_bind_int64(st, 4, ts_from);
+    sqlite3_bind_int64(st, 5, ts_to);
+    while ((step = sqlite3_step(st)) == SQLITE_ROW) {
+        if ((size_t)sqlite3_column_bytes(st, 3) != want) {
+            rc = cc_error_set(err, CC_EIO, "%s: damaged probability blob", s->path);
+            break;
+        }
+        memcpy(probs, sqlite3_column_blob(st, 3), want);
+        int label = sqlite3_column_type(st, 1) == SQLITE_NULL ? -1 : sqlite3_column_int(st, 1);
+        int64_t label_at =
+            sqlite3_column_type(st, 2) == SQLITE_NULL ? -1 : sqlite3_column_int64(st, 2);
+        if ((rc = fn(payload, sqlite3_column_int64(st, 0), label, label_at, probs)) != 0)
+            break;
+    }
+    if (!rc && step != SQLITE_DONE)
+        rc = db_error(s, err, "reading events by time");
+done:
+    sqlite3_finalize(st);
+    free(probs);
     return rc;
 }

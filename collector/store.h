@@ -44,10 +44,14 @@ typedef struct cc_store_opts {
     int wait_ms;
     void (*on_wait)(void *ctx, const char *path);
     void *ctx;
+    /* a long schema upgrade's progress (about every two seconds), or NULL */
+    void (*on_progress)(void *ctx, const char *path, const char *model, int64_t done_days,
+                        int64_t total_days);
+    void *progress_ctx;
 } cc_store_opts;
 
 #define CC_STORE_WAIT_DEFAULT_MS 60000
-#define CC_STORE_OPTS_INIT {0, CC_STORE_WAIT_DEFAULT_MS, NULL, NULL}
+#define CC_STORE_OPTS_INIT {0, CC_STORE_WAIT_DEFAULT_MS, NULL, NULL, NULL, NULL}
 
 /* Opens the database at path. A writer (no CC_STORE_READONLY) creates or
  * upgrades the schema when needed, in WAL mode; a newer schema version is
@@ -166,6 +170,16 @@ typedef struct cc_pruned_range {
 } cc_pruned_range;
 int cc_store_pruned_range(cc_store *s, const cc_model *m, int64_t from, int64_t to,
                           cc_pruned_range *out, cc_error *err);
+/* Calls fn for each stored event row of m with ts_from <= ts < ts_to, in
+ * ts order (ties in storage order): its time, label (-1 when unknown), the
+ * Unix time a delayed label arrived (-1 when none) and its m*k float32
+ * probabilities (valid during the call only). fn returns 0 to go on, or a
+ * non-zero value that stops the walk and is returned. Rows of pruned days
+ * are gone: check cc_store_pruned_range first. */
+typedef int (*cc_event_row_fn)(void *payload, int64_t ts, int label, int64_t label_at,
+                               const float *probs);
+int cc_store_events_between(cc_store *s, const cc_model *m, int64_t ts_from, int64_t ts_to,
+                            cc_event_row_fn fn, void *payload, cc_error *err);
 /* Days that have event rows, ascending (caller frees). */
 int cc_store_row_days(cc_store *s, const cc_model *m, int64_t **days, int *n, cc_error *err);
 /* Calls fn for each stored class index outside [0, k): event labels and

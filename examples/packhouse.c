@@ -8,7 +8,13 @@
  * Incidents change gamma, w and the grade mix. On the broken-member days one
  * member's answer is replaced by an old model's: it leans one grade lower on
  * about half of the fruit and is less sure; its draws come from a second
- * generator, so every other number of the scenario stays as it was.
+ * generator, so every other number of the scenario stays as it was. On the
+ * line-fog days the camera of one packing line (segment "line-2") fogs: the
+ * members' answers for that line's fruit are drawn again, as on the
+ * whole-house fog days for a share of that line's fruit (LINE_FOG_SHARE;
+ * the fog comes and goes), from a third generator, so the other lines and
+ * every other incident keep their numbers. Diluted by the two clear lines,
+ * the whole house barely moves.
  * Random numbers: GSL's mt19937 and gsl_ran_dirichlet. */
 #include "packhouse.h"
 
@@ -35,6 +41,16 @@ static const double late_mix[K] = {0.03, 0.10, 0.20, 0.30, 0.22, 0.15};
 #define OLD_GAMMA 25.0
 #define OLD_SHARPEN 2.4
 
+/* The fogged camera: blur of the shared view, concentration and weight of
+ * the shared view in each member's answer (the whole-house fog and the
+ * one-line fog use the same). */
+#define FOG_BLUR 4.0
+#define FOG_GAMMA 3.0
+#define FOG_W 0.3
+
+/* Share of the fogged line's fruit photographed through the fog. */
+#define LINE_FOG_SHARE 0.25
+
 /* Dirichlet parameter centred on grade y with leakage to its neighbours. */
 static void around(double *alpha, int y, double strength, double leak)
 {
@@ -56,6 +72,23 @@ static void sharpen(double *p, double t)
         sum += (p[c] = pow(p[c], t));
     for (int c = 0; c < K; c++)
         p[c] /= sum;
+}
+
+/* Answers of the M members for fruit of true grade y under a fogged camera,
+ * every draw from g. */
+static void fogged_answers(gsl_rng *g, int y, double p[M][K])
+{
+    double alpha[K], a[K], b[K], mixed[K];
+    around(alpha, y, FOG_BLUR, 0.45);
+    gsl_ran_dirichlet(g, K, alpha, a);
+    for (int m = 0; m < M; m++) {
+        around(alpha, y, 8.0, 0.35);
+        gsl_ran_dirichlet(g, K, alpha, b);
+        for (int c = 0; c < K; c++)
+            mixed[c] = FOG_GAMMA * (FOG_W * a[c] + (1.0 - FOG_W) * b[c]) + 1e-3;
+        gsl_ran_dirichlet(g, K, mixed, p[m]);
+        sharpen(p[m], 2.4);
+    }
 }
 
 static int draw_grade(gsl_rng *r, const double *mix)
@@ -81,15 +114,18 @@ int cc_demo_generate(const char *events_path, const char *labels_path, const cc_
     }
     FILE *ev = cc_out_stream(ev_out), *lab = cc_out_stream(lab_out);
     gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937), *old = gsl_rng_alloc(gsl_rng_mt19937);
-    if (!r || !old) {
+    gsl_rng *fog_rng = gsl_rng_alloc(gsl_rng_mt19937); /* the one-line fog */
+    if (!r || !old || !fog_rng) {
         gsl_rng_free(r);
         gsl_rng_free(old);
+        gsl_rng_free(fog_rng);
         cc_out_discard(ev_out);
         cc_out_discard(lab_out);
         return cc_error_set(err, CC_ENOMEM, "out of memory");
     }
     gsl_rng_set(r, (unsigned long)o->seed);
     gsl_rng_set(old, (unsigned long)o->seed ^ 0x5eedUL);
+    gsl_rng_set(fog_rng, (unsigned long)o->seed ^ 0xf09UL);
     static const char *const grade_names[K] = {"premium", "extra",  "class-1",
                                                "class-2", "juice",  "cull"};
 
@@ -98,6 +134,7 @@ int cc_demo_generate(const char *events_path, const char *labels_path, const cc_
     inc->mix_from = 16, inc->mix_to = o->days;
     inc->retrain_from = 23, inc->retrain_to = o->days;
     inc->broken_from = 14, inc->broken_to = 15, inc->broken_member = 3; /* "size" */
+    inc->line_fog_from = 19, inc->line_fog_to = 20, inc->line_fog_line = 2;
 
     double alpha[K], a[K], b[K], mixed[K], p[M][K];
     for (int day = 1; day <= o->days; day++) {
@@ -105,10 +142,11 @@ int cc_demo_generate(const char *events_path, const char *labels_path, const cc_
         int late = day >= inc->mix_from && day <= inc->mix_to;
         int copies = day >= inc->retrain_from && day <= inc->retrain_to;
         int broken = day >= inc->broken_from && day <= inc->broken_to;
+        int line_fog = day >= inc->line_fog_from && day <= inc->line_fog_to;
         int64_t t0 = (o->first_day + day - 1) * 86400;
         for (int i = 0; i < o->per_day; i++) {
             int y = draw_grade(r, late ? late_mix : base_mix);
-            around(alpha, y, fog ? 4.0 : 9.0, 0.45);
+            around(alpha, y, fog ? FOG_BLUR : 9.0, 0.45);
             gsl_ran_dirichlet(r, K, alpha, a);
             for (int m = 0; m < M; m++) {
                 double gamma = 25.0, w = 0.5;
@@ -116,8 +154,8 @@ int cc_demo_generate(const char *events_path, const char *labels_path, const cc_
                     gamma = 600.0;
                     w = 0.98;
                 } else if (fog) {
-                    gamma = 3.0;
-                    w = 0.3;
+                    gamma = FOG_GAMMA;
+                    w = FOG_W;
                 }
                 around(alpha, y, 8.0, 0.35);
                 gsl_ran_dirichlet(r, K, alpha, b);
@@ -140,13 +178,16 @@ int cc_demo_generate(const char *events_path, const char *labels_path, const cc_
                     sharpen(p[m], OLD_SHARPEN);
                 }
             }
+            int line = 1 + i % 3;
+            if (line_fog && line == inc->line_fog_line && gsl_rng_uniform(fog_rng) < LINE_FOG_SHARE)
+                fogged_answers(fog_rng, y, p);
             int64_t ts = t0 + (int64_t)((double)i * 86400.0 / o->per_day);
             int y_, mo, d;
             cc_civil_from_days(cc_day_of_unix(ts), &y_, &mo, &d);
             int sec = (int)(ts % 86400);
             fprintf(ev, "{\"id\":\"d%02d-%05d\",\"ts\":\"%04d-%02d-%02dT%02d:%02d:%02dZ\","
                         "\"segment\":\"line-%d\",\"probs\":[",
-                    day, i, y_, mo, d, sec / 3600, sec / 60 % 60, sec % 60, 1 + i % 3);
+                    day, i, y_, mo, d, sec / 3600, sec / 60 % 60, sec % 60, line);
             for (int m = 0; m < M; m++) {
                 fputc('[', ev);
                 for (int c = 0; c < K; c++)
@@ -173,6 +214,7 @@ int cc_demo_generate(const char *events_path, const char *labels_path, const cc_
     }
     gsl_rng_free(r);
     gsl_rng_free(old);
+    gsl_rng_free(fog_rng);
     if (cc_out_commit(ev_out, err)) {
         cc_out_discard(lab_out);
         return -CC_EIO;

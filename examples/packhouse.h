@@ -28,6 +28,8 @@ typedef struct cc_demo_incidents {
     int broken_from, broken_to;    /* one member's model file replaced by an old one */
     int broken_member;             /* its index (0-based) in CC_DEMO_MEMBERS */
     int64_t events, inline_labels, delayed_labels;
+    int line_fog_from, line_fog_to; /* one packing line's camera fogged: that line only */
+    int line_fog_line;             /* its number: events with segment "line-N" */
 } cc_demo_incidents;
 
 /* Writes the events (JSON Lines; some with inline labels) and the delayed

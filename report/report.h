@@ -11,19 +11,28 @@
 #include "control.h"
 #include "error.h"
 #include "store.h"
+#include "store_slices.h"
 #include "window.h"
 
-typedef enum cc_grouping { CC_BY_DAY, CC_BY_WEEK, CC_BY_ALL } cc_grouping;
+/* CC_BY_HOUR windows are UTC hours built from the stored event rows (never
+ * stored themselves); the others merge stored per-day summaries. */
+typedef enum cc_grouping { CC_BY_DAY, CC_BY_WEEK, CC_BY_ALL, CC_BY_HOUR } cc_grouping;
 
 typedef struct cc_report_opts {
     const char *model;
     int has_from, has_to;
     int64_t from, to;           /* UTC day numbers, inclusive */
     cc_grouping by;
+    const char *segment;        /* one slice's report (cc_slice_find names), or NULL */
+    int by_segment;             /* also one row per slice in each window */
+    int64_t ts_from, ts_to;     /* CC_BY_HOUR only: Unix seconds, [ts_from, ts_to); from
+                                   and to (days) are ignored then */
 } cc_report_opts;
 
 typedef struct cc_report_window {
     int64_t from, to;           /* days */
+    int64_t ts_from, ts_to;     /* CC_BY_HOUR: the hour, [ts_from, ts_to) in Unix
+                                   seconds; 0 and 0 for the other groupings */
     cc_summary *summary;        /* merged days; only while a cc_report_stream callback
                                    runs (NULL in a built report, see cc_report.range) */
     int64_t *counts;            /* (2 + k)k: predicted-class counts (metrics.class_counts
@@ -34,6 +43,14 @@ typedef struct cc_report_window {
     cc_comparison cmp;          /* against the baseline (has_baseline = 0 without one) */
     double *z;                  /* cc_tracked_slots(m, k): z-score against the baseline days */
     double *ewma;               /* the same figures' EWMA over day windows; NULL otherwise */
+    /* --by-segment: the window's slices with events, in slice order; each
+     * is a window of that slice alone (cmp against the slice's own baseline
+     * days; z and ewma NULL), with vs_model its class mix and score
+     * distributions against the whole model's in the same window */
+    struct cc_report_window *segments;
+    int n_segments;
+    int slice;                  /* a segment row: index in cc_report.slices; -1 otherwise */
+    cc_comparison vs_model;
 } cc_report_window;
 
 typedef struct cc_report {
@@ -48,7 +65,18 @@ typedef struct cc_report {
     int n_windows, cap_windows;
     cc_summary *range;          /* cc_report_build only: all windows merged */
     cc_comparison_cache *cmp_cache; /* shared by the comparisons with baseline; NULL without */
+    /* slices (empty for a schema-3 file read as it is) */
+    cc_slice *slices;           /* loaded for --segment and --by-segment only */
+    int n_slices, slice_limit;
+    int slice_count;            /* the model's slices (also when slices is not loaded) */
+    int64_t overflow_events;    /* events in its overflow slice */
+    int slice;                  /* --segment: index in slices of the one reported; -1 */
+    int by_segment;
+    cc_summary **slice_baselines; /* by_segment: n_slices merged baselines (NULL entries: none) */
 } cc_report;
+
+/* The events of the model's overflow slice (0 when it has none). */
+int64_t cc_report_overflow_events(const cc_report *r);
 
 /* Builds the report with every window's figures kept (summaries are not:
  * each window's is merged into r->range and dropped); *out is NULL on error.
@@ -69,7 +97,14 @@ typedef int (*cc_report_window_fn)(void *payload, const cc_report *r, cc_report_
 
 /* The same windows as cc_report_build, handed to fn one at a time, so a
  * caller that renders each window and lets it go needs memory for one
- * window whatever the number of days. *out is the head, with no windows. */
+ * window whatever the number of days. *out is the head, with no windows.
+ *
+ * CC_BY_HOUR: the hours of [opts->ts_from, opts->ts_to) that hold events,
+ * each summed from its event rows with the per-event summary code
+ * (metrics/summary.c) into a fresh summary, one hour in memory at a time.
+ * A range that touches a pruned day is -CC_ENOTFOUND, the message naming
+ * the pruned days. z-scores compare each hour with the baseline days'
+ * spread; there is no EWMA. */
 int cc_report_stream(cc_report **out, cc_store *store, const cc_report_opts *opts,
                      cc_report_window_fn fn, void *payload, cc_error *err);
 
@@ -87,6 +122,9 @@ typedef struct cc_report_alert {
     const char *metric;
     double value, bound;
     int64_t since;              /* raised_at_end: the day it was raised */
+    const char *slice;          /* an each-slice rule's slice; NULL for the whole model */
+    const char *rule_name;      /* with slice: the rule's own name (rule is then its state
+                                   key, "<rule>@<slice>"); NULL otherwise */
 } cc_report_alert;
 
 typedef struct cc_report_timeline {

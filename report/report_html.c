@@ -8,6 +8,7 @@
 #include <string.h>
 
 #include "date.h"
+#include "html_slices.h"
 #include "html_text.h"
 #include "report.h"
 #include "review.h"
@@ -42,6 +43,14 @@ static const char css[] =
     ".status p{margin:2px 0}.status ul{margin:4px 0 0;padding-left:20px}\n"
     ".lede{color:var(--muted);font-size:13px;margin:0 0 8px}\n"
     "figure{margin:12px 0 20px;break-inside:avoid}\n"
+    ".multiples{display:grid;grid-template-columns:repeat(auto-fill,minmax(290px,1fr));"
+    "gap:0 14px}\n"
+    ".multiples figure{margin:4px 0 10px}\n"
+    "table.slices td,table.slices th{padding:3px 8px;text-align:right;"
+    "border-bottom:1px solid var(--rule)}\n"
+    "table.slices th[scope=row]{text-align:left;max-width:22ch;overflow-wrap:anywhere}\n"
+    "table.slices .sub{display:block;font-weight:normal;color:var(--muted)}\n"
+    "table.slices td{white-space:nowrap}table.slices th[scope=row]{min-width:9ch}\n"
     "figcaption{font-size:12.5px;color:var(--muted);margin:0 0 4px}figcaption b{color:var(--ink)}\n"
     "svg.chart{width:100%;height:auto;display:block}\n"
     "svg text{font-family:\"DejaVu Sans\",Verdana,sans-serif}\n"
@@ -149,7 +158,7 @@ typedef struct page {
     FILE *f;
     const cc_report *r;
     const cc_html_extras *x;
-    char (*dates)[11];
+    char (*dates)[17];          /* window labels: a date, or "YYYY-MM-DD HH:00" */
     const char **labels;
     int base_from, base_to;
     int outside[N_DAILY];
@@ -174,6 +183,11 @@ static void band_of(const page *p, int t, double *lo, double *mid, double *hi)
     *hi = fmin(b->mean + p->x->band_k * b->sd, nhi);
 }
 
+static const char *x_axis_name(cc_grouping by)
+{
+    return by == CC_BY_WEEK ? "ISO week (Monday, UTC)" : by == CC_BY_HOUR ? "UTC hour" : "UTC day";
+}
+
 static void masthead(page *p)
 {
     FILE *f = p->f;
@@ -189,7 +203,10 @@ static void masthead(page *p)
         esc(f, m->members[i]);
     }
     fprintf(f, ") &middot; %d classes", m->k);
-    if (r->n_windows > 0) {
+    if (r->n_windows > 0 && r->by == CC_BY_HOUR) {
+        fprintf(f, " &middot; %s to %s, %d UTC hour%s with events", p->dates[0],
+                p->dates[r->n_windows - 1], r->n_windows, r->n_windows == 1 ? "" : "s");
+    } else if (r->n_windows > 0) {
         char to[11];
         cc_format_date(r->windows[r->n_windows - 1].to, to);
         fprintf(f, " &middot; %s to %s, %d %s", p->dates[0], to, r->n_windows,
@@ -212,8 +229,10 @@ static void masthead(page *p)
         esc(f, p->x->note);
         fputs("</p>\n", f);
     }
-    fputs("<nav><a href=\"#status\">status</a><a href=\"#daily\">day by day</a>"
-          "<a href=\"#pairs\">member pairs</a><a href=\"#classmix\">class mix</a>"
+    fputs("<nav><a href=\"#status\">status</a><a href=\"#daily\">day by day</a>", f);
+    if (cc_html_slices_shown(r))
+        fputs("<a href=\"#slices\">slices</a>", f);
+    fputs("<a href=\"#pairs\">member pairs</a><a href=\"#classmix\">class mix</a>"
           "<a href=\"#reliability\">reliability</a><a href=\"#contested\">contested pairs</a>"
           "<a href=\"#review\">review</a></nav></header>\n", f);
 }
@@ -331,7 +350,7 @@ static void daily_section(page *p, FILE *charts)
         s.y2 = t2 >= 0 ? y2 : NULL;
         s.y2_name = daily[c].second_name;
         s.x_labels = p->labels;
-        s.x_label = r->by == CC_BY_WEEK ? "ISO week (Monday, UTC)" : "UTC day";
+        s.x_label = x_axis_name(r->by);
         band_of(p, t, &s.band_lo, &s.band_mid, &s.band_hi);
         char band_text[64];
         snprintf(band_text, sizeof band_text, "baseline mean \xC2\xB1 %g sd", p->x->band_k);
@@ -363,7 +382,7 @@ static void daily_section(page *p, FILE *charts)
         fputs("<figure><figcaption><b>Class mix of the ensemble's answers</b> per window "
               "(share of events per class)</figcaption>\n", charts);
         cc_svg_stacked_chart(charts, "chart-class-mix-daily", n, p->labels,
-                             r->by == CC_BY_WEEK ? "ISO week (Monday, UTC)" : "UTC day", m->k,
+                             x_axis_name(r->by), m->k,
                              m->classes, shares, p->base_from, p->base_to);
         fputs("</figure>\n", charts);
     }
@@ -766,6 +785,9 @@ char *cc_report_html(const cc_report *r, const cc_html_extras *extras)
         goto fail;
     for (int i = 0; i < n; i++) {
         cc_format_date(r->windows[i].from, p.dates[i]);
+        if (r->by == CC_BY_HOUR)
+            snprintf(p.dates[i] + 10, 7, " %02d:00",
+                     (int)((r->windows[i].ts_from - r->windows[i].from * 86400) / 3600));
         p.labels[i] = p.dates[i];
         if (r->has_baseline && r->windows[i].from >= r->baseline_from &&
             r->windows[i].to <= r->baseline_to) {
@@ -795,6 +817,7 @@ char *cc_report_html(const cc_report *r, const cc_html_extras *extras)
         days_off += p.outside_days[i] > 0;
     status_line(&p, days_off);
     fputs(charts_buf, f);
+    cc_html_slices_section(f, r, p.labels, x_axis_name(r->by));
     pairs_section(&p);
     classmix_section(&p);
     reliability_section(&p);

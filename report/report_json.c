@@ -7,6 +7,7 @@
 
 #include "date.h"
 #include "report.h"
+#include "review_render.h"
 #include "figures.h"
 #include "tracked.h"
 
@@ -193,19 +194,38 @@ static cJSON *fig_array(const char *path, const cc_report_window *w, int n)
     return a;
 }
 
-static cJSON *window_json(const cc_report_window *w, int m, int k);
+static cJSON *window_json(const cc_report *r, const cc_report_window *w);
 
 cJSON *cc_report_window_json(const cc_report *r, int i)
 {
-    return window_json(&r->windows[i], r->model->m, r->model->k);
+    return window_json(r, &r->windows[i]);
 }
 
-static cJSON *window_json(const cc_report_window *w, int m, int k)
+static const char *const slice_kinds[] = {"segment", "none", "overflow", "pruned"};
+
+static cJSON *window_json(const cc_report *r, const cc_report_window *w)
 {
     const cc_window_metrics *x = &w->metrics;
+    const int m = r->model->m, k = r->model->k;
+    const int is_segment = w->slice >= 0 && w->slice < r->n_slices && r->by_segment &&
+                           w->z == NULL;
     cJSON *o = cJSON_CreateObject();
+    if (is_segment) {
+        const cc_slice *sl = &r->slices[w->slice];
+        cJSON_AddStringToObject(o, "segment", cc_slice_name(sl));
+        cJSON_AddStringToObject(o, "kind", slice_kinds[sl->kind >= 0 && sl->kind <= 3 ? sl->kind
+                                                                                      : 0]);
+    }
     cJSON_AddItemToObject(o, "from", date(w->from));
     cJSON_AddItemToObject(o, "to", date(w->to));
+    if (w->ts_to > w->ts_from) {
+        /* an hour window (report --by hour): its UTC hour, end excluded */
+        char t[21];
+        cc_review_format_time(w->ts_from, t);
+        cJSON_AddStringToObject(o, "start", t);
+        cc_review_format_time(w->ts_to, t);
+        cJSON_AddStringToObject(o, "end", t);
+    }
     cJSON_AddNumberToObject(o, "events", (double)x->events);
     cJSON_AddNumberToObject(o, "labeled", (double)x->labeled);
     cJSON_AddItemToObject(o, "class_counts", counts(x->class_counts, k));
@@ -293,9 +313,20 @@ static cJSON *window_json(const cc_report_window *w, int m, int k)
     cJSON_AddItemToObject(lab, "coverage", num(c->label_coverage));
     cJSON_AddNumberToObject(lab, "delayed", (double)c->delayed_labels);
     cJSON_AddItemToObject(lab, "mean_delay_hours", num(c->mean_label_delay_hours));
-    cJSON_AddItemToObject(o, "zscores", tracked_json(m, k, slot_num, w->z));
+    if (w->z)
+        cJSON_AddItemToObject(o, "zscores", tracked_json(m, k, slot_num, w->z));
+    else
+        cJSON_AddNullToObject(o, "zscores");
     if (w->ewma)
         cJSON_AddItemToObject(o, "ewma", tracked_json(m, k, slot_num, w->ewma));
+    if (is_segment) {
+        /* the slice against the whole model in the same window */
+        cJSON_AddItemToObject(o, "against_model", drift_json(&w->vs_model));
+    } else if (r->by_segment) {
+        cJSON *sa = cJSON_AddArrayToObject(o, "segments");
+        for (int i = 0; i < w->n_segments; i++)
+            cJSON_AddItemToArray(sa, window_json(r, &w->segments[i]));
+    }
     return o;
 }
 
@@ -303,7 +334,9 @@ static cJSON *alert_json(const cc_report_alert *a)
 {
     cJSON *e = cJSON_CreateObject();
     cJSON_AddItemToObject(e, "day", date(a->day));
-    cJSON_AddStringToObject(e, "rule", a->rule);
+    cJSON_AddStringToObject(e, "rule", a->rule_name ? a->rule_name : a->rule);
+    if (a->slice)
+        cJSON_AddStringToObject(e, "slice", a->slice);
     cJSON_AddStringToObject(e, "kind", a->kind);
     cJSON_AddStringToObject(e, "urgency", a->urgency);
     if (a->subject && a->subject[0])
@@ -335,6 +368,10 @@ static cJSON *report_root(const cc_report *r)
     const cc_model *m = r->model;
     cJSON *root = cJSON_CreateObject();
     cJSON_AddStringToObject(root, "model", m->name);
+    if (r->slice >= 0)
+        cJSON_AddStringToObject(root, "segment", cc_slice_name(&r->slices[r->slice]));
+    else
+        cJSON_AddNullToObject(root, "segment");
     cJSON_AddItemToObject(root, "members", names(m->members, m->m));
     cJSON_AddItemToObject(root, "classes", names(m->classes, m->k));
     if (r->has_baseline) {
@@ -353,6 +390,14 @@ static cJSON *report_root(const cc_report *r)
     } else {
         cJSON_AddNullToObject(root, "baseline");
     }
+    if (r->slice_limit > 0) {
+        cJSON *sl = cJSON_AddObjectToObject(root, "slices");
+        cJSON_AddNumberToObject(sl, "count", r->slice_count);
+        cJSON_AddNumberToObject(sl, "limit", r->slice_limit);
+        cJSON_AddNumberToObject(sl, "overflow_events", (double)cc_report_overflow_events(r));
+    } else {
+        cJSON_AddNullToObject(root, "slices");
+    }
     cJSON *set = cJSON_AddObjectToObject(root, "settings");
     cJSON_AddNumberToObject(set, "psi_epsilon", CC_PSI_EPSILON);
     cJSON_AddNumberToObject(set, "ewma_lambda", CC_EWMA_LAMBDA);
@@ -370,11 +415,10 @@ char *cc_report_json(const cc_report *r) { return cc_report_json_with(r, NULL); 
 
 char *cc_report_json_with(const cc_report *r, const cc_report_timeline *tl)
 {
-    const cc_model *m = r->model;
     cJSON *root = report_root(r);
     cJSON *ws = cJSON_GetObjectItemCaseSensitive(root, "windows");
     for (int i = 0; i < r->n_windows; i++)
-        cJSON_AddItemToArray(ws, window_json(&r->windows[i], m->m, m->k));
+        cJSON_AddItemToArray(ws, window_json(r, &r->windows[i]));
     if (tl)
         cJSON_AddItemToObject(root, "alerts", timeline_json(tl));
     char *text = cJSON_Print(root);
@@ -393,7 +437,7 @@ typedef struct json_stream {
 static int json_window(void *payload, const cc_report *r, cc_report_window *w)
 {
     json_stream *js = payload;
-    cJSON *tree = w ? window_json(w, r->model->m, r->model->k) : report_root(r);
+    cJSON *tree = w ? window_json(r, w) : report_root(r);
     char *text = tree ? cJSON_Print(tree) : NULL;
     cJSON_Delete(tree);
     if (!text)

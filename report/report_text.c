@@ -10,6 +10,7 @@
 #include "report.h"
 #include "figures.h"
 #include "tracked.h"
+#include "utf8.h"
 
 static void fnum(FILE *f, int width, int prec, double x)
 {
@@ -24,7 +25,10 @@ static void window_name(const cc_report_window *w, char out[24])
     char a[11], b[11];
     cc_format_date(w->from, a);
     cc_format_date(w->to, b);
-    if (w->from == w->to)
+    if (w->ts_to > w->ts_from) /* an hour: "2026-11-03 14:00-15:00" (UTC) */
+        snprintf(out, 24, "%s %02d:00-%02d:00", a, (int)((w->ts_from - w->from * 86400) / 3600),
+                 (int)((w->ts_from - w->from * 86400) / 3600 + 1));
+    else if (w->from == w->to)
         snprintf(out, 24, "%s", a);
     else if (memcmp(a, b, 4) == 0)
         snprintf(out, 24, "%s..%s", a, b + 5);
@@ -143,6 +147,51 @@ static void drift_row(FILE *f, const cc_report_window *w)
     fnum(f, 6, 1, w->z[zm]);
     fnum(f, 6, 1, w->z[za]);
     fputc('\n', f);
+}
+
+static void segments_head(FILE *f)
+{
+    fprintf(f, "\nby segment (drift: each slice against its own baseline days; vs model: its\n"
+               "class mix and max-probability distribution against the whole model's in the\n"
+               "same window)\n");
+    fprintf(f, "%-23s %-16s %7s %7s %8s %7s %6s %7s %6s %6s %6s %7s %6s %6s\n", "window",
+            "segment", "events", "labeled", "disagree", "mutual", "ens", "mix p", "PSI",
+            "KS max", "KS MI", "vs mix", "PSI", "KS max");
+    fprintf(f, "%-23s %-16s %7s %7s %8s %7s %6s %7s %6s %6s %6s %7s %6s %6s\n", "", "", "", "",
+            "(mean)", "(nats)", "acc", "", "", "p", "p", "p", "", "p");
+}
+
+/* The slice's name, sanitised, padded to width (longer names run on). */
+static void slice_label(FILE *f, const cc_slice *sl, int width)
+{
+    long before = ftell(f);
+    cc_text_put(f, cc_slice_name(sl));
+    long wrote = before >= 0 ? ftell(f) - before : width;
+    for (long i = wrote; i < width; i++)
+        fputc(' ', f);
+}
+
+static void segments_rows(FILE *f, const cc_report *r, const cc_report_window *w)
+{
+    for (int i = 0; i < w->n_segments; i++) {
+        const cc_report_window *sw = &w->segments[i];
+        const cc_window_metrics *x = &sw->metrics;
+        window_label(f, w);
+        fputc(' ', f);
+        slice_label(f, &r->slices[sw->slice], 16);
+        fprintf(f, " %7lld %7lld", (long long)x->events, (long long)x->labeled);
+        fnum(f, 8, 3, x->disagreement.mean);
+        fnum(f, 7, 3, x->mutual_information);
+        fnum(f, 6, 3, x->has_labels ? x->ensemble_accuracy : NAN);
+        fp(f, 7, sw->cmp.class_mix.p_value);
+        fnum(f, 6, 3, sw->cmp.class_mix_psi);
+        fp(f, 6, sw->cmp.max_prob.p_value);
+        fp(f, 6, sw->cmp.mutual_information.p_value);
+        fp(f, 7, sw->vs_model.class_mix.p_value);
+        fnum(f, 6, 3, sw->vs_model.class_mix_psi);
+        fp(f, 6, sw->vs_model.max_prob.p_value);
+        fputc('\n', f);
+    }
 }
 
 static void shift_detail(FILE *f, const cc_report *r, const cc_comparison *c)
@@ -322,6 +371,17 @@ static void head(FILE *f, const cc_report *r)
 {
     const cc_model *m = r->model;
     fprintf(f, "model %s: %d members, %d classes\n", m->name, m->m, m->k);
+    if (r->slice >= 0) {
+        fputs("segment ", f);
+        cc_text_put(f, cc_slice_name(&r->slices[r->slice]));
+        fprintf(f, ": one slice of %d; its windows and its baseline days are its own\n",
+                r->slice_count);
+    }
+    int64_t over = cc_report_overflow_events(r);
+    if (over > 0)
+        fprintf(f, "note: the model reached its limit of %d slices; %lld events of further "
+                   "segments are summed in the slice (overflow)\n",
+                r->slice_limit, (long long)over);
     if (r->has_baseline) {
         char a[11], b[11];
         cc_format_date(r->baseline_from, a);
@@ -365,6 +425,11 @@ char *cc_report_text_with(const cc_report *r, const cc_report_timeline *t)
             for (int i = 0; i < r->n_windows; i++)
                 drift_row(f, &r->windows[i]);
         }
+        if (r->by_segment) {
+            segments_head(f);
+            for (int i = 0; i < r->n_windows; i++)
+                segments_rows(f, r, &r->windows[i]);
+        }
         if (r->n_windows == 1)
             detail(f, r, &r->windows[0]);
     }
@@ -380,7 +445,7 @@ char *cc_report_text_with(const cc_report *r, const cc_report_timeline *t)
 /* Streaming: each table's rows go to its own text buffer as windows arrive
  * (the text is all that grows with the days), the first window is kept for
  * the detail a one-window report shows. */
-enum { T_HEADLINE, T_PREDICTED, T_LABELS, T_DRIFT, T_TABLES };
+enum { T_HEADLINE, T_PREDICTED, T_LABELS, T_DRIFT, T_SEGMENTS, T_TABLES };
 
 typedef struct text_stream {
     FILE *table[T_TABLES];
@@ -402,12 +467,14 @@ static int text_window(void *payload, const cc_report *r, cc_report_window *w)
         class_mix_head(ts->table[T_PREDICTED], m, 0);
         class_mix_head(ts->table[T_LABELS], m, 1);
         drift_head(ts->table[T_DRIFT]);
+        segments_head(ts->table[T_SEGMENTS]);
         return 0;
     }
     headline_row(ts->table[T_HEADLINE], m, w);
     class_mix_row(ts->table[T_PREDICTED], m, w, 0);
     class_mix_row(ts->table[T_LABELS], m, w, 1);
     drift_row(ts->table[T_DRIFT], w);
+    segments_rows(ts->table[T_SEGMENTS], r, w);
     if (ts->n_windows++ == 0) {
         ts->first = *w;
         ts->first.summary = NULL;
@@ -437,7 +504,7 @@ int cc_report_write_text(FILE *out, cc_store *store, const cc_report_opts *opts,
         } else {
             fputc('\n', out);
             for (int t = 0; t < T_TABLES; t++)
-                if (t != T_DRIFT || r->has_baseline)
+                if ((t != T_DRIFT || r->has_baseline) && (t != T_SEGMENTS || r->by_segment))
                     fwrite(ts.buf[t], 1, ts.len[t], out);
             if (ts.n_windows == 1)
                 detail(out, r, &ts.first);

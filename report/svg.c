@@ -93,13 +93,22 @@ static void x_axis_label(FILE *f, double x, double y, const char *text)
 static void date_ticks(FILE *f, int n, const char *const *labels, double left, double pw,
                        double y)
 {
-    int every = n <= 16 ? 1 : (n + 13) / 14;
+    /* as many five-character labels as the plot's width holds (at most 16) */
+    int cap = (int)(pw / 42.0), every;
+    if (cap >= 16) {
+        every = n <= 16 ? 1 : (n + 13) / 14;
+    } else {
+        cap = cap < 2 ? 2 : cap;
+        every = (n + cap - 1) / cap;
+    }
     for (int i = 0; i < n; i += every) {
         double x = left + (i + 0.5) * pw / n;
+        /* "MM-DD" of a date, "HH:MM" of an hour ("YYYY-MM-DD HH:MM") */
+        size_t len = strlen(labels[i]);
         fprintf(f, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"" INK "\"/>",
                 x, y - 4, x, y);
         fprintf(f, "<text class=\"tick\" x=\"%.1f\" y=\"%.1f\" text-anchor=\"middle\">%.5s</text>\n",
-                x, y + 12, strlen(labels[i]) >= 10 ? labels[i] + 5 : labels[i]);
+                x, y + 12, len >= 16 ? labels[i] + 11 : len >= 10 ? labels[i] + 5 : labels[i]);
     }
 }
 
@@ -126,7 +135,7 @@ static void polyline(FILE *f, int n, const double *y, double left, double pw, do
 
 void cc_svg_series_chart(FILE *f, const cc_svg_series *s, int *outside)
 {
-    const int W = 960, H = 210;
+    const int W = s->width > 0 ? s->width : 960, H = 210;
     const double L = 74, R = 16, T = 22, B = 44, pw = W - L - R, ph = H - T - B;
     double lo = INFINITY, hi = -INFINITY;
     const int band = isfinite(s->band_lo) && isfinite(s->band_hi);

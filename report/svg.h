@@ -26,12 +26,13 @@ typedef struct cc_svg_series {
     const double *y;              /* n values, NAN = undefined */
     const double *y2;             /* a second, thinner line, or NULL */
     const char *y2_name;
-    const char *const *x_labels;  /* n labels "YYYY-MM-DD" */
+    const char *const *x_labels;  /* n labels "YYYY-MM-DD", or "YYYY-MM-DD HH:00" for hours */
     const char *x_label;          /* axis label of x */
     double band_lo, band_mid, band_hi;  /* NAN without a baseline */
     const char *band_text;        /* legend of the band */
     int base_from, base_to;       /* window indices of the baseline days; -1 without */
     int digits;                   /* decimals of values */
+    int width;                    /* in SVG units; 0: the page's full width (960) */
 } cc_svg_series;
 
 /* Draws the chart; *outside gets how many defined points lie outside the band. */

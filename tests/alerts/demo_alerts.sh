@@ -3,7 +3,11 @@
 # mutual-information-rise, the retrain days raise diversity-collapse, the
 # grade-mix days raise class-mix-drift, the days when member 'size' runs an
 # old model (14-15) raise member-departs naming it and nothing else, and the
-# clean days raise nothing. Once through
+# clean days raise nothing. line-2's fogged camera (days 19-20) raises the
+# slice rule slice-mutual-information-rise for line-2 alone, on exactly those
+# days, while the whole-model rules stay quiet for it; the alert names the
+# slice in the text timeline, the check JSON, the webhook body and the
+# rule-state key. Once through
 # `concord demo` (its timeline and file receiver), once day by day through
 # `concord check` on a copy with the alert state cleared, once as a dry-run
 # replay (`check --from --to`) on another copy: all three agree.
@@ -21,6 +25,11 @@ grep -q 'diversity-collapse (high): raised since 2026-10-27' "$T/report.html" ||
   { echo "FAIL: report.html does not list the raised diversity-collapse rule" >&2; exit 1; }
 grep -q '^alert timeline' "$T/demo.txt" || fail "demo prints no alert timeline"
 grep -qE '^  9 +2026-10-13 mutual-information-rise +raised' "$T/demo.txt" || fail "timeline lacks the fog alert"
+grep -qE '^  19 +2026-10-23 slice-mutual-information-rise@line-2 +raised' "$T/demo.txt" ||
+  fail "timeline lacks line-2's fog alert"
+keys=$(sqlite3 "$T/demo.db" "SELECT rule FROM rule_state WHERE rule LIKE 'slice-mutual-information-rise@%' ORDER BY rule" | tr '\n' ' ')
+[ "$keys" = "slice-mutual-information-rise@line-1 slice-mutual-information-rise@line-2 slice-mutual-information-rise@line-3 " ] ||
+  fail "rule-state keys of the slice rule: '$keys'"
 "$C" rules init > "$T/default.jsonc"
 cmp -s "$T/default.jsonc" "$T/rules.jsonc" || fail "the demo's rules.jsonc is not the default set"
 
@@ -51,7 +60,8 @@ days = {}
 for d in range(1, 29):
     o = json.load(open(os.path.join(T, f"day{d}.json")))
     assert o["exit_code"] == int(open(os.path.join(T, f"rc{d}")).read()), d
-    days[d] = {r["rule"]: r for r in o["results"]}
+    # a slice rule's results are one per slice: keyed by their state key
+    days[d] = {r.get("state_key", r["rule"]): r for r in o["results"]}
     days[d]["_exit"] = o["exit_code"]
 bad = []
 def outcome(d, rule): return days[d][rule]["outcome"]
@@ -86,6 +96,28 @@ for d in broken:
     for rule, r in days[d].items():
         if rule not in ("_exit", "member-departs") and r["outcome"] in ("raised", "building", "reminder"):
             bad.append(f"broken day {d}: {rule} {r['outcome']} (value {r['value']}, bound {r['bound']})")
+# line-2's fog (days 19-20): the slice rule breaches for line-2 on exactly those days
+# (from day 12 on, after the whole-house fog), never for the other lines, and is
+# raised on day 19; no whole-model rule is raised or building on those days, and
+# the whole model's mutual information stays under its bound
+SL = "slice-mutual-information-rise@"
+line_fog = (19, 20)
+for d in range(12, 29):
+    for line in ("line-1", "line-2", "line-3"):
+        r = days[d][SL + line]
+        if r.get("slice") != line or r["rule"] != "slice-mutual-information-rise":
+            bad.append(f"day {d}: {SL + line} names slice {r.get('slice')!r}, rule {r['rule']!r}")
+        breach = r["value"] is not None and r["value"] > r["bound"]
+        if breach != (line == "line-2" and d in line_fog):
+            bad.append(f"day {d}: {SL + line} value {r['value']} bound {r['bound']}")
+if outcome(19, SL + "line-2") != "raised": bad.append(f"day 19: {SL}line-2 not raised")
+if state(20, SL + "line-2") != "raised": bad.append(f"day 20: {SL}line-2 {state(20, SL + 'line-2')}")
+for d in line_fog:
+    for key, r in days[d].items():
+        if key != "_exit" and "slice" not in r and r["outcome"] in ("raised", "building"):
+            bad.append(f"line-fog day {d}: whole-model {key} {r['outcome']}")
+    if not days[d][MI]["value"] < days[d][MI]["bound"]:
+        bad.append(f"line-fog day {d}: whole-model MI {days[d][MI]['value']} not under {days[d][MI]['bound']}")
 # outside their incidents these rules never breach
 for d in range(1, 29):
     if d not in fog and days[d][MI]["outcome"] in ("raised", "building"):
@@ -103,7 +135,8 @@ for d in range(1, 29):
             bad.append(f"day {d}: {rule} not evaluated: {r.get('reason')}")
 # the dry-run replay over the whole range equals the day-by-day checks
 rep = json.load(open(os.path.join(T, "replay.json")))
-got = {(r["day"], r["rule"]): (r["outcome"], r["state"], r["value"]) for r in rep["results"]}
+got = {(r["day"], r.get("state_key", r["rule"])): (r["outcome"], r["state"], r["value"])
+       for r in rep["results"]}
 for d in range(1, 29):
     for rule, r in days[d].items():
         if rule == "_exit": continue
@@ -119,9 +152,18 @@ def keys(name): return sorted(json.loads(l)["notice_id"] for l in open(os.path.j
 demo, cli = keys("alerts.jsonl"), keys("cli-sink.jsonl")
 assert demo == cli, (demo, cli)
 assert len(set(cli)) == len(cli)
+sliced = []
 for l in open(os.path.join(T, "alerts.jsonl")):
     b = json.loads(l)
     assert b["schema"] == "concord.notice/2" and b["model"] == "apple-grader" and b["evidence"]
+    if b["rule"] == "slice-mutual-information-rise" and b["checked_day"] >= "2026-10-18":
+        sliced.append(b)
+# the webhook bodies of line-2's fog: raised on 10-23, cleared on 10-26, naming the slice
+assert [(b["kind"], b["checked_day"], b["slice"], b["scope"], b["state_key"]) for b in sliced] == [
+    ("raised", "2026-10-23", "line-2", "each-slice", "slice-mutual-information-rise@line-2"),
+    ("cleared", "2026-10-26", "line-2", "each-slice", "slice-mutual-information-rise@line-2")], sliced
+assert sliced[0]["notice_id"] == "apple-grader/slice-mutual-information-rise@line-2/raised/2026-10-23"
+assert "segment 'line-2'" in sliced[0]["sentence"], sliced[0]["sentence"]
 print(f"demo_alerts: {len(cli)} notifications, incidents raise on their days, clean days quiet")
 PY
 [ $fails -eq 0 ] || { echo "demo_alerts: $fails failure(s)" >&2; exit 1; }

@@ -105,7 +105,7 @@ grep -q '^confusion matrix (rows: true class, columns: predicted)' "$T/r.txt" &&
 
 # --- default rules: quiet on the baseline and clean days; member-departs ----
 run "$C" rules validate --db "$T/m.db" --model m
-[ $RC -eq 0 ] && grep -q '11 rule(s) quiet on every baseline day' "$T/out" ||
+[ $RC -eq 0 ] && grep -q '14 rule(s) quiet on every baseline day' "$T/out" ||
   fail "validate of the default rules: exit $RC: $(cat "$T/out" "$T/err")"
 "$C" rules init > "$T/default.jsonc"
 run "$C" check --db "$T/m.db" --rules "$T/default.jsonc" --from 2026-05-09 --to 2026-05-17 --dry-run --format json

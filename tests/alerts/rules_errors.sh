@@ -23,7 +23,7 @@ run "$C" rules init -o "$T/rules.jsonc"
 run "$C" rules init -o "$T/rules.jsonc" --force
 [ $RC -eq 0 ] || fail "init --force: exit $RC"
 run "$C" rules check "$T/rules.jsonc"
-[ $RC -eq 0 ] && grep -q '11 rule(s)' "$T/out" || fail "check of the default file: $(cat "$T/out" "$T/err")"
+[ $RC -eq 0 ] && grep -q '14 rule(s)' "$T/out" || fail "check of the default file: $(cat "$T/out" "$T/err")"
 run "$C" rules paths
 [ $RC -eq 0 ] && grep -q '^uncertainty.mutual_information *window *sigmas ok' "$T/out" &&
   grep -q '^drift.per_class.min_p_bonferroni *window *bounds' "$T/out" && grep -q '^by_member.departure *member *sigmas ok' "$T/out" || fail "rules paths"
@@ -53,6 +53,10 @@ bad two "$R"'{"name": "t", "metric": "events", "above": 1, "below": 0}]}' "rule 
 bad none "$R"'{"name": "n", "metric": "events"}]}' "rule 'n'" "give one of above, below"
 bad sigma_untracked "$R"'{"name": "s", "metric": "drift.class_mix.p_value", "sigmas_below": 3}]}' \
   "rule 's': key 'sigmas_below'" "use above/below"
+bad scope "$R"'{"name": "sc", "metric": "events", "below": 1, "scope": "slices"}]}' \
+  "rule 'sc': key 'scope'" '"model"' '"each-slice"'
+bad scope_derived "$R"'{"name": "sd", "metric": "labels.age_days", "above": 3, "scope": "each-slice"}]}' \
+  "rule 'sd': key 'scope'" "whole model only"
 bad days0 "$R"'{"name": "f", "metric": "events", "below": 1, "days": 0}]}' "rule 'f': key 'days'"
 bad urgency "$R"'{"name": "v", "metric": "events", "below": 1, "urgency": "urgent"}]}' \
   "rule 'v': key 'urgency'"

@@ -28,15 +28,40 @@ int main(void)
     cc_ruleset *rs = NULL;
     cc_error err = CC_ERROR_INIT;
 
+    /* "scope": "each-slice" and "model" (the default); anything else names the choices */
+    T_CHECK(cc_rules_parse(&rs, "{\"rules\": [{\"name\": \"a\", \"metric\": \"events\", "
+                                "\"below\": 1, \"scope\": \"each-slice\"}, {\"name\": \"b\", "
+                                "\"metric\": \"events\", \"below\": 1, \"scope\": \"model\"}, "
+                                "{\"name\": \"c\", \"metric\": \"events\", \"below\": 1}]}",
+                            "s", &err) == 0, "%s", err.msg);
+    T_CHECK(rs && cc_rules_get(rs, 0)->each_slice && !cc_rules_get(rs, 1)->each_slice &&
+                !cc_rules_get(rs, 2)->each_slice, "scope parsed");
+    T_CHECK(rs && strcmp(cc_rule_display_name(cc_rules_get(rs, 0)), "a") == 0, "display name");
+    cc_rules_free(rs);
+    rs = NULL;
+    expect_error("{\"rules\": [{\"name\": \"a\", \"metric\": \"events\", \"below\": 1, "
+                 "\"scope\": \"all\"}]}", "key 'scope'", "each-slice");
+    expect_error("{\"rules\": [{\"name\": \"a\", \"metric\": \"events\", \"below\": 1, "
+                 "\"scope\": 1}]}", "key 'scope'", "\"model\"");
+    expect_error("{\"rules\": [{\"name\": \"a\", \"metric\": \"labels.age_days\", "
+                 "\"above\": 3, \"scope\": \"each-slice\"}]}", "key 'scope'", "whole model only");
+
     /* the default file parses and holds the documented rules */
     T_CHECK(cc_rules_parse(&rs, cc_rules_default_text(), "default", &err) == 0, "%s", err.msg);
     const char *names[] = {"diversity-collapse", "mutual-information-rise", "member-departs",
                            "class-mix-drift",    "score-drift",        "label-shift",
                            "accuracy-drop",      "ensemble-gain-lost", "calibration-drift",
-                           "stale-labels",       "no-events"};
-    T_CHECK(rs && cc_rules_count(rs) == 11, "default rule count");
-    for (int i = 0; rs && i < 11 && i < cc_rules_count(rs); i++)
+                           "stale-labels",       "no-events",
+                           "slice-mutual-information-rise", "slice-diversity-collapse",
+                           "slice-class-mix-drift"};
+    T_CHECK(rs && cc_rules_count(rs) == 14, "default rule count");
+    for (int i = 0; rs && i < 14 && i < cc_rules_count(rs); i++) {
         T_CHECK(strcmp(cc_rules_get(rs, i)->name, names[i]) == 0, "default rule %d", i);
+        /* the last three watch every slice alone; the others the whole model */
+        T_CHECK(cc_rules_get(rs, i)->each_slice == (i >= 11), "default rule %d scope", i);
+        T_CHECK(!cc_rules_get(rs, i)->slice && !cc_rules_get(rs, i)->rule_name,
+                "default rule %d is no per-slice copy", i);
+    }
     if (rs) {
         const cc_rule *r = cc_rules_get(rs, 0);
         T_CHECK(r->cond == CC_COND_SIGMAS_BELOW && r->threshold == 4 &&

@@ -42,7 +42,7 @@ case_line above_one '{"id":"x","ts":0,"probs":[[1.2,-0.1,-0.1],[0.6,0.3,0.1]]}' 
 case_line nan '{"id":"x","ts":0,"probs":[[NaN,0.5,0.5],[0.6,0.3,0.1]]}' 'malformed JSON'
 case_line not_finite '{"id":"x","ts":0,"probs":[[1e999,0.5,0.5],[0.6,0.3,0.1]]}' 'not a finite number'
 case_line row_sum '{"id":"x","ts":0,"probs":[[0.5,0.5,0.5],[0.6,0.3,0.1]]}' 'sums to 1.5'
-case_line unknown_class '{"id":"x","ts":1790000000,"probs":[[0.7,0.2,0.1],[0.6,0.3,0.1]],"label":"pear"}' "unknown class name 'pear'"
+case_line unknown_class '{"id":"x","ts":1790000000,"probs":[[0.7,0.2,0.1],[0.6,0.3,0.1]],"label":"pear"}' "unknown class name 'pear' for model 'm'; classes: '0', '1', '2'"
 case_line label_range '{"id":"x","ts":1790000000,"probs":[[0.7,0.2,0.1],[0.6,0.3,0.1]],"label":3}' 'out of range 0..2'
 
 # duplicate id: counted, not double-counted, exit 0
@@ -101,7 +101,7 @@ good a > "$T/a.jsonl"
 printf '{"id":"a","label":"firm"}\n{"id":"later","label":2}\n{"id":"a","label":"pear"}\n{"label":1}\n' > "$T/l.jsonl"
 set +e; CONCORD_NOW=1800000000 "$CONCORD" label --db "$db" --model m "$T/l.jsonl" 2> "$T/err"; rc=$?; set -e
 [ $rc -eq 1 ] || fail "labels: exit $rc"
-grep -q "l.jsonl:3: rejected: field 'label': unknown class name 'pear'" "$T/err" || fail "labels: $(cat "$T/err")"
+grep -q "l.jsonl:3: rejected: field 'label': unknown class name 'pear' for model 'm'; classes: 'ripe', 'firm', 'soft'" "$T/err" || fail "labels: $(cat "$T/err")"
 grep -q "l.jsonl:4: rejected: field 'id': missing" "$T/err" || fail "labels: $(cat "$T/err")"
 grep -q '1 labels applied .* 1 waiting for their event' "$T/err" || fail "labels tally: $(cat "$T/err")"
 good later > "$T/later.jsonl"

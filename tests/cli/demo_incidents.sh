@@ -1,9 +1,10 @@
 #!/usr/bin/env bash
 # demo_incidents.sh — `concord demo` writes its files and its report shows the
-# four injected incidents on their days and nowhere else: the fogged camera
+# injected incidents on their days and nowhere else: the fogged camera
 # (days 9-11), member 'size' running an old model alone (days 14-15), the
-# late-season grade mix (from day 16) and the retrain into near copies (from
-# day 23). The bounds are the generator's (examples/packhouse.c) effects with
+# late-season grade mix (from day 16), the retrain into near copies (from
+# day 23), and one packing line's fogged camera (line-2, days 19-20), which
+# shows on that line and barely in the whole house. The bounds are the generator's (examples/packhouse.c) effects with
 # wide margins: common practice, not a published reference.
 # Usage: demo_incidents.sh CONCORD
 set -euo pipefail
@@ -41,6 +42,7 @@ bad = []
 for day, x in enumerate(w, 1):
     mi = x["uncertainty"]["mutual_information"]; dis = x["diversity"]["disagreement"]["mean"]
     fog, late, copies, broken = 9 <= day <= 11, day >= 16, day >= 23, 14 <= day <= 15
+    line_fog = 19 <= day <= 20
     # the old model file: 'size' alone loses accuracy (about 0.83 -> 0.67) and disagrees
     # with the others more (about 0.26 -> 0.37); fog and retrain move every member
     if not (fog or copies):
@@ -80,13 +82,52 @@ for day, x in enumerate(w, 1):
         if l1 > 0.15: bad.append(f"day {day}: {est} L1 {l1:.3f} from the true mix")
     # a change of the members' spread is also a score drift: KS on MI flags the fog,
     # the broken member and the retrain days (1,500 events make small moves significant)
+    # (line-2's fog may or may not reach p < 0.001 in the whole house: not checked)
     ks_p = x["drift"]["mutual_information"]["p_value"]
-    if (fog or copies or broken) != (ks_p < 0.001): bad.append(f"day {day}: KS on mutual information p {ks_p:.3g}")
+    if not line_fog and (fog or copies or broken) != (ks_p < 0.001):
+        bad.append(f"day {day}: KS on mutual information p {ks_p:.3g}")
+    if line_fog:
+        # the whole house barely moves: mutual information below 1.2 times the baseline's
+        # (the default rule's bound is 1.25 times), ensemble accuracy within 0.03
+        if mi > 1.2 * mi0: bad.append(f"day {day}: whole-house MI {mi:.3f} vs baseline {mi0:.3f}")
+        if x["accuracy"]["ensemble"] < acc0 - 0.03: bad.append(f"day {day}: ensemble accuracy {x['accuracy']['ensemble']:.3f}")
 for b in bad: print("FAIL:", b)
 assert not bad
 print(f"demo_incidents: per-day checks ok (baseline MI {mi0:.3f}, disagreement {dis0:.3f}; "
       f"size's accuracy {acc_size0:.3f}, its disagreement {dis_size0:.3f})")
 PY
+# line-2's fog, per line from the events file (stdlib only): mutual information of
+# the members' probabilities (entropy of their mean minus their mean entropy, nats)
+# rises on line-2 on days 19-20 above 1.3 times that line's baseline mean, and stays
+# within 1.1 times on the other lines and on line-2's other days after the baseline
+python3 - "$T/events.jsonl" <<'PY'
+import json, math, sys
+from collections import defaultdict
+H = lambda q: -sum(x * math.log(x) for x in q if x > 0)
+tot = defaultdict(float); cnt = defaultdict(int)
+for line in open(sys.argv[1]):
+    e = json.loads(line)
+    p = e["probs"]; m = len(p); k = len(p[0])
+    mean = [sum(r[c] for r in p) / m for c in range(k)]
+    key = (e["segment"], int(e["id"][1:3]))
+    tot[key] += H(mean) - sum(H(r) for r in p) / m; cnt[key] += 1
+mi = {key: tot[key] / cnt[key] for key in tot}
+bad = []
+for seg in ("line-1", "line-2", "line-3"):
+    base = sum(mi[(seg, d)] for d in range(1, 8)) / 7
+    for d in range(12, 23):
+        if d in (14, 15):   # the old model file moves MI a little on every line
+            continue
+        fogged = seg == "line-2" and d in (19, 20)
+        if fogged != (mi[(seg, d)] > (1.3 if fogged else 1.1) * base):
+            bad.append(f"{seg} day {d}: MI {mi[(seg, d)]:.3f}, baseline {base:.3f}")
+    if seg == "line-2":
+        print(f"demo_incidents: line-2 MI on days 19-20: {mi[(seg, 19)]:.3f}, {mi[(seg, 20)]:.3f} "
+              f"(its baseline {base:.3f})")
+for b in bad: print("FAIL:", b)
+assert not bad
+PY
+
 # over the whole late-season period the label-shift estimates recover the generator's mix
 "$CONCORD" report --db "$T/demo.db" --model apple-grader --from 2026-10-20 --to 2026-11-01 --by all \
   --format json -o "$T/late.json"

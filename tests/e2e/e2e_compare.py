@@ -8,6 +8,16 @@ python3 runs it. The fixtures it reads are synthetic (tests/reference/e2e_gen.py
       exactly; other numbers within ABS_TOL, uncertainty means (fixed-point
       sums of 1e-9 nats per event) within ENTROPY_TOL; null must stay null.
       Prints each mismatch with its path; exit 1 if there is any.
+  e2e_compare.py hour-sums HOURS.json DAYS.json
+      `report --by hour` against `report --by day` of the same days: per UTC
+      day, the hour windows' counters summed must equal the day window's
+      exactly (events, labelled, class counts, confusion matrix, label mix
+      counts, vote ties, contested pair counts, calibration bin counts,
+      delayed labels), and the per-event means (entropy, expected entropy,
+      mutual information, disagreement per member) weighted by events must
+      give the day's mean within ENTROPY_TOL / ABS_TOL. The day is the sum of
+      its events (summaries are sums of integer contributions), so this holds
+      exactly, whatever the events.
   e2e_compare.py classes EXPECTED.json
       Prints the class names joined by commas (for --classes).
   e2e_compare.py tally EXPECTED.json events|labels STDERR_FILE
@@ -121,6 +131,70 @@ def cmd_report(expected_path, key, actual_path):
     return 0
 
 
+def hour_counters(w):
+    """The additive counters of one report window, by name."""
+    c = {"events": w["events"], "labeled": w["labeled"],
+         "vote_ties_all": w["vote_ties_all"], "labels.delayed": w["labels"]["delayed"],
+         "accuracy.vote_ties": w["accuracy"]["vote_ties"]}
+    for i, n in enumerate(w["class_counts"]):
+        c["class_counts[%d]" % i] = n
+    for i, row in enumerate(w["accuracy"]["confusion"] or []):
+        for j, n in enumerate(row):
+            c["accuracy.confusion[%d][%d]" % (i, j)] = n
+    for i, b in enumerate(w["calibration"]["bins"]):
+        c["calibration.bins[%d].count" % i] = b["count"]
+    for p in w["contested_pairs"]:
+        c["contested %d/%d" % (p["a"], p["b"])] = p["count"]
+    return c
+
+
+def hour_means(w):
+    """Per-event means of a window (value, weight): they add up as sums."""
+    n = w["events"]
+    out = {"uncertainty.%s" % k: (w["uncertainty"][k], n)
+           for k in ("entropy", "expected_entropy", "mutual_information")}
+    for i, v in enumerate(w["by_member"]["disagreement"]):
+        out["by_member.disagreement[%d]" % i] = (v, n)
+    return out
+
+
+def cmd_hour_sums(hours_path, days_path):
+    hours, days = load(hours_path)["windows"], load(days_path)["windows"]
+    bad, checked = [], 0
+    hour_days = sorted(set(w["from"] for w in hours))
+    day_dates = [w["from"] for w in days]
+    if hour_days != day_dates:
+        print("FAIL the hour windows cover the days %s, the day report %s" % (
+            hour_days, day_dates))
+        return 1
+    for d in days:
+        hs = [w for w in hours if w["from"] == d["from"]]
+        want = hour_counters(d)
+        got = {}
+        for w in hs:
+            for k, v in hour_counters(w).items():
+                got[k] = got.get(k, 0) + v
+        for k in sorted(set(want) | set(got)):
+            checked += 1
+            if want.get(k, 0) != got.get(k, 0):
+                bad.append("%s %s: the day has %s, its %d hours sum to %s" % (
+                    d["from"], k, want.get(k, 0), len(hs), got.get(k, 0)))
+        for k, (v, n) in hour_means(d).items():
+            total = sum(hour_means(w)[k][0] * hour_means(w)[k][1] for w in hs)
+            tol = ENTROPY_TOL if k.startswith("uncertainty") else ABS_TOL
+            checked += 1
+            if abs(total / n - v) > tol:
+                bad.append("%s %s: the day's mean %.12g, the hours' weighted mean %.12g" % (
+                    d["from"], k, v, total / n))
+    for b in bad:
+        print("MISMATCH %s" % b)
+    if bad:
+        print("FAIL hour sums: %d of %d checks differ" % (len(bad), checked))
+        return 1
+    print("ok hour sums: %d checks over %d days and %d hours" % (checked, len(days), len(hours)))
+    return 0
+
+
 def cmd_classes(expected_path):
     print(",".join(load(expected_path)["report_all"]["classes"]))
     return 0
@@ -224,6 +298,7 @@ def cmd_jsonl(committed_path, fresh_path):
 
 def main(argv):
     commands = {"report": (cmd_report, 3), "classes": (cmd_classes, 1),
+                "hour-sums": (cmd_hour_sums, 2),
                 "tally": (cmd_tally, None), "final-labels": (cmd_final_labels, 3),
                 "expected": (cmd_expected, 2), "jsonl": (cmd_jsonl, 2)}
     if len(argv) < 2 or argv[1] not in commands:

@@ -149,5 +149,46 @@ run 0 c-verify "$concord" verify --db "$c" --model ref
 reports "$c" c
 same_reports a c "labels before their events"
 
+echo "== report --by hour: hours across a UTC midnight, and hours summed = their day"
+hours_from=$("$py" -c 'import json,sys; print(json.load(open(sys.argv[1]))["hours_range"]["from"])' "$expected")
+hours_to=$("$py" -c 'import json,sys; print(json.load(open(sys.argv[1]))["hours_range"]["to"])' "$expected")
+run 0 a-report-hours "$concord" report --db "$a" --model ref --by hour --from "$hours_from" \
+    --to "$hours_to" --format json -o "$tmp/a.hours.json"
+helper "a --by hour ($hours_from to $hours_to) vs reference" report "$expected" \
+    report_by_hour "$tmp/a.hours.json"
+run 0 a-report-hours-all "$concord" report --db "$a" --model ref --by hour --from 2026-03-09 \
+    --to 2026-03-11 --format json -o "$tmp/a.allhours.json"
+helper "a: every day's hours sum to the day, counter by counter" hour-sums \
+    "$tmp/a.allhours.json" "$tmp/a.day.json"
+run 0 a-report-hours-text "$concord" report --db "$a" --model ref --by hour \
+    --from "$hours_from" --to "$hours_to"
+if grep -q '^2026-03-09 23:00-24:00 ' "$tmp/a-report-hours-text.out" &&
+    grep -q '^2026-03-10 00:00-01:00 ' "$tmp/a-report-hours-text.out"; then
+    pass "text report names the hours on both sides of midnight"
+else
+    fail "text report: hour rows 2026-03-09 23:00-24:00 and 2026-03-10 00:00-01:00 missing"
+    head -12 "$tmp/a-report-hours-text.out" | sed 's/^/    | /'
+fi
+run 0 a-report-hours-html "$concord" report --db "$a" --model ref --by hour \
+    --from "$hours_from" --to "$hours_to" --format html -o "$tmp/a.hours.html"
+if grep -q 'UTC hour' "$tmp/a.hours.html"; then pass "HTML report by hour"; else
+    fail "HTML report by hour has no 'UTC hour' axis"; fi
+run 2 hours-not-whole "$concord" report --db "$a" --model ref --by hour \
+    --from 2026-03-09T20:30:00Z --to "$hours_to"
+run 2 hours-no-to "$concord" report --db "$a" --model ref --by hour --from "$hours_from"
+# a pruned day cannot be split into hours: refused, naming the day
+cp "$a" "$tmp/p.db"
+run 0 p-prune "$concord" prune --db "$tmp/p.db" --model ref --before 2026-03-10
+run 4 p-report-hours "$concord" report --db "$tmp/p.db" --model ref --by hour \
+    --from "$hours_from" --to "$hours_to"
+if grep -q '2026-03-09 was pruned' "$tmp/p-report-hours.err"; then
+    pass "the refusal names the pruned day"
+else
+    fail "the refusal does not name the pruned day 2026-03-09"
+    sed 's/^/    | /' "$tmp/p-report-hours.err"
+fi
+run 0 p-report-hours-kept "$concord" report --db "$tmp/p.db" --model ref --by hour \
+    --from 2026-03-10 --to 2026-03-10 --format json -o "$tmp/p.hours.json"
+
 echo "e2e_reference: $passed passed, $failed failed"
 [ "$failed" -eq 0 ]

@@ -23,7 +23,9 @@ writes into DIR (default: this file's directory)
                      class name, some of them changing an inline label and a
                      few ids labelled twice (the last line wins).
   e2e_expected.json  every figure of `concord report --format json`, per UTC
-                     day and for the whole range, computed independently
+                     day, for the whole range, and per UTC hour over a range
+                     across the midnight of 2026-03-09/10 (`report --by hour
+                     --from HOURS_FROM --to HOURS_TO`), computed independently
                      with numpy, scipy, scikit-learn and statsmodels; the
                      "sources" object names the function behind each figure.
 
@@ -350,6 +352,14 @@ def write_fixtures(out_dir):
 
 # ---------------------------------------------------------------- reference
 
+def unix_seconds(ts):
+    """Unix seconds of a 'ts' value (fraction dropped toward minus infinity)."""
+    if isinstance(ts, str):
+        t = dt.datetime.fromisoformat(ts)
+        return (t - dt.datetime(1970, 1, 1, tzinfo=UTC)) // dt.timedelta(seconds=1)
+    return math.floor(ts)
+
+
 def utc_day(ts):
     """UTC day number of a 'ts' value, with the standard library's parser."""
     if isinstance(ts, str):
@@ -575,9 +585,34 @@ SOURCES = {
                        "events whose member argmaxes differ",
     "vote_ties_all": "count of events whose top vote count is shared",
     "label_run": "the labels file replayed in order against the inline labels",
+    "report_by_hour": "the same functions as a day's window, on the events whose Unix time "
+                      "(datetime.fromisoformat) falls in the UTC hour",
     "all": "probabilities as float32 (numpy.float32; logits through a softmax first), "
            "sums and means in float64; UTC days by datetime.fromisoformat",
 }
+
+
+# report --by hour: eight UTC hours across the midnight between 2026-03-09 and -10
+HOURS_FROM = "2026-03-09T20:00:00Z"
+HOURS_TO = "2026-03-10T04:00:00Z"
+
+
+def hour_windows(rows, evs):
+    """The windows of `report --by hour --from HOURS_FROM --to HOURS_TO`: one
+    per UTC hour that holds events, each computed by window() on that hour's
+    subset of events only (the hour of an event: floor(unix / 3600))."""
+    t0, t1 = unix_seconds(HOURS_FROM), unix_seconds(HOURS_TO)
+    out = []
+    for start in range(t0, t1, 3600):
+        sub = [e for r, e in zip(rows, evs) if start <= unix_seconds(r["ts"]) < start + 3600]
+        if not sub:
+            continue
+        day = dt.date(1970, 1, 1) + dt.timedelta(days=start // 86400)
+        w = window(sub, day, day)
+        fmt = lambda t: dt.datetime.fromtimestamp(t, UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
+        w["start"], w["end"] = fmt(start), fmt(start + 3600)
+        out.append(w)
+    return out
 
 
 def expected(paths):
@@ -601,6 +636,8 @@ def expected(paths):
         "note": "synthetic test data, see tests/reference/e2e_gen.py",
         "report_by_day": dict(head, windows=by_day),
         "report_all": dict(head, windows=[window(evs, as_date(days[0]), as_date(days[-1]))]),
+        "report_by_hour": dict(head, windows=hour_windows(rows, evs)),
+        "hours_range": {"from": HOURS_FROM, "to": HOURS_TO},
         "ingest": {"lines": len(rows), "stored": len(rows)},
         "label_run": tally,
         "sources": SOURCES,

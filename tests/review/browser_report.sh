@@ -42,7 +42,7 @@ run_chromium --window-size=1280,1800 --force-device-scale-factor=0.5 \
 python3 - "$T/dom.html" <<'PY'
 import html.parser, sys
 dom = open(sys.argv[1], encoding="utf-8").read()
-sections = ["status", "daily", "pairs", "classmix", "reliability", "contested", "review"]
+sections = ["status", "daily", "slices", "pairs", "classmix", "reliability", "contested", "review"]
 charts = ["chart-disagreement", "chart-mutual-information", "chart-entropy", "chart-accuracy",
           "chart-label-coverage", "chart-class-mix-psi", "chart-class-mix-daily",
           "heat-dis-baseline", "heat-dis-range", "heat-dis-last", "heat-kappa-baseline",
@@ -67,6 +67,12 @@ bad += [f"{c}: no svg" for c in charts if d.ids.get(c) != "svg"]
 bad += [f"{c}: {d.marks.get(c, 0)} marks" for c in charts if d.ids.get(c) == "svg" and d.marks.get(c, 0) < 8]
 bad += [f"{l}: missing" for l in lists if l not in d.ids]
 bad += [f"<{t}> in the page" for t in ("script", "img", "iframe", "link", "object") if t in d.tags]
+# the slice section: a table row per packing line, and small charts per line
+slice_charts = [i for i, t in d.ids.items() if i.startswith("chart-slice-") and t == "svg"]
+if len(slice_charts) != 6: bad.append(f"slice charts: {len(slice_charts)}, expected 2 figures x 3 lines")
+bad += [f"{c}: {d.marks.get(c, 0)} marks" for c in slice_charts if d.marks.get(c, 0) < 8]
+for line in ("line-1", "line-2", "line-3"):
+    if f'<th scope="row">{line}</th>' not in dom: bad.append(f"slice table: no row {line}")
 for b in bad: print("FAIL:", b)
 assert not bad
 print(f"browser_report: {len(sections)} sections and {len(charts)} charts rendered "

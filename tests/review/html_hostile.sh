@@ -2,6 +2,8 @@
 # html_hostile.sh — names that came from the logs (model, class and member
 # names, ids, segments) full of markup, quotes and ampersands must reach the
 # HTML page only as text, and the review's CSV and JSON must still parse.
+# The two hostile segments make two slices: the page's slice table lists
+# them escaped, and Chromium (when installed) reads them back as plain text.
 # Usage: html_hostile.sh CONCORD
 set -euo pipefail
 CONCORD=$1
@@ -11,6 +13,7 @@ python3 - "$T" <<'PY'
 import json, random, sys
 random.seed(5)
 out = sys.argv[1]
+SEGS = ["<img src=x onerror=alert(2)>&\"seg'", "<script>s2</script>&'b"]
 with open(f"{out}/events.jsonl", "w") as f:
     for day in range(1, 6):
         for i in range(120):
@@ -20,7 +23,7 @@ with open(f"{out}/events.jsonl", "w") as f:
                 top = y if random.random() < 0.7 else random.randrange(3)
                 v = [0.15, 0.15, 0.15]; v[top] = 0.7; probs.append(v)
             ev = {"id": f"<b>id</b>&\"{day}'{i}", "ts": f"2026-03-0{day}T{i % 24:02d}:{i % 60:02d}:00Z",
-                  "segment": "<img src=x onerror=alert(2)>&\"seg'", "probs": probs}
+                  "segment": SEGS[i % 2], "probs": probs}
             if i % 3 == 0:
                 ev["label"] = y
             f.write(json.dumps(ev) + "\n")
@@ -67,9 +70,47 @@ text = "".join(c.text)
 for raw in hostile:
     assert raw in text or raw in "".join(v or "" for _, v in c.attrs), f"{raw!r} not shown as text"
 rows = list(csv.DictReader(open(f"{T}/h.csv", newline="", encoding="utf-8")))
-assert rows and all(r["segment"] == "<img src=x onerror=alert(2)>&\"seg'" for r in rows)
+assert rows and {r["segment"] for r in rows} == {"<img src=x onerror=alert(2)>&\"seg'",
+                                                "<script>s2</script>&'b"}
+# the slice table: both slices, escaped, as row headers
+sl = page[page.find('<section id="slices">'):]
+sl = sl[:sl.find("</section>")]
+assert sl, "no slice section"
+for esc in ("&lt;img src=x onerror=alert(2)&gt;&amp;&quot;seg&#39;", "&lt;script&gt;s2&lt;/script&gt;&amp;&#39;b"):
+    assert f'<th scope="row">{esc}</th>' in sl, f"slice row {esc!r} missing"
+assert "chart-slice-" in sl, "no per-slice charts"
 assert "<u>u</u>.class" in rows[0] and "o'k.p" in rows[0]
 j = json.load(open(f"{T}/h.json", encoding="utf-8"))
 assert j["model"] == "<i>m</i>&\"x'" and j["classes"][0] == "<script>alert(1)</script>"
 print(f"html_hostile: {len(hostile)} hostile names only as text; csv {len(rows)} rows, json ok")
 PY
+# in a browser: the slice table's row headers read back as the raw names, as text
+CHROMIUM=$(command -v chromium || command -v chromium-browser || true)
+if [ -n "$CHROMIUM" ]; then
+  timeout -k 10 600 "$CHROMIUM" --headless --no-sandbox --disable-gpu --no-first-run \
+    --disable-background-networking --disable-component-update --disable-sync --disable-extensions \
+    --user-data-dir="$(mktemp -d -p "$T")" --dump-dom "file://$T/h.html" > "$T/dom.html" 2> /dev/null
+  python3 - "$T/dom.html" <<'PY'
+import html.parser, sys
+class Rows(html.parser.HTMLParser):
+    def __init__(self):
+        super().__init__(); self.in_sl = 0; self.th = None; self.names = []; self.tags = set()
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        if tag == "table" and a.get("class") == "slices": self.in_sl = 1
+        if self.in_sl: self.tags.add(tag)
+        if self.in_sl and tag == "th" and a.get("scope") == "row": self.th = ""
+    def handle_data(self, data):
+        if self.th is not None: self.th += data
+    def handle_endtag(self, tag):
+        if tag == "th" and self.th is not None: self.names.append(self.th); self.th = None
+        if tag == "table": self.in_sl = 0
+d = Rows(); d.feed(open(sys.argv[1], encoding="utf-8").read())
+want = sorted(["<img src=x onerror=alert(2)>&\"seg'", "<script>s2</script>&'b"])
+assert sorted(d.names) == want, d.names
+assert not d.tags & {"img", "script"}, d.tags
+print("html_hostile: Chromium reads the slice table's hostile names back as text")
+PY
+else
+  echo "html_hostile: no chromium; the browser check of the slice table is skipped"
+fi

@@ -30,7 +30,10 @@ T = sys.argv[1]
 top = json.load(open(f"{T}/top_mi.json"))["lists"]["top-mi"]
 assert top["matched"] == 42000 and len(top["events"]) == 50, top["matched"]
 days = sorted({e["time"][:10] for e in top["events"]})
-assert set(days) <= {"2026-10-13", "2026-10-14", "2026-10-15"}, days  # fog: days 9-11
+# the whole-house fog (days 9-11), and line-2's fog (days 19-20), on that line only
+assert set(days) <= {"2026-10-13", "2026-10-14", "2026-10-15", "2026-10-23", "2026-10-24"}, days
+assert all(e["segment"] == "line-2" for e in top["events"] if e["time"][:10] >= "2026-10-23"), \
+    [e["segment"] for e in top["events"] if e["time"][:10] >= "2026-10-23"]
 mis = [e["mutual_information"] for e in top["events"]]
 assert mis == sorted(mis, reverse=True), "top-mi not in descending order"
 

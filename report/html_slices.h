@@ -1,0 +1,20 @@
+/* html_slices.h — the HTML page's slice section (report_html.c calls it):
+ * a table of the model's slices over the page's windows, and small daily
+ * charts per slice of the figures that differ most between slices. */
+#ifndef CC_REPORT_HTML_SLICES_H
+#define CC_REPORT_HTML_SLICES_H
+
+#include <stdio.h>
+
+#include "report.h"
+
+/* 1 when r has rows per slice to show (built with by_segment, two slices
+ * or more, at least one window). */
+int cc_html_slices_shown(const cc_report *r);
+
+/* Writes <section id="slices"> for r (nothing when not shown). x_labels:
+ * the windows' labels, x_label the axis name. Slice names are escaped. */
+void cc_html_slices_section(FILE *f, const cc_report *r, const char *const *x_labels,
+                            const char *x_label);
+
+#endif
