@@ -27,16 +27,17 @@ HERE=$(dirname "$0")
 DB=$T/d/demo.db
 echo '{"id":"q1","ts":"2026-11-02T10:00:00Z","probs":[[0.5,0.5],[0.5,0.5]]}' > "$T/q.jsonl"
 "$CONCORD" ingest --db "$DB" --model 'odd "name" \ here' "$T/q.jsonl" 2> /dev/null
-# a model with three segments over five days (invented numbers, fixed seed),
-# baseline the first three days
+# a model with four segments over five days (invented numbers, fixed seed),
+# baseline the first three days; its each-slice default rules checked on
+# the last day (too few events there: not_evaluated, a state all the same)
 /usr/bin/python3 - "$T/s.jsonl" <<'PY'
 import json, random, sys
 rng = random.Random(12)
-segs = ["plain", 'q"uo\\te', "new\nline", None]
+segs = ["plain", 'q"uo\\te', "new\nline", "a/b%2Fc", None]
 with open(sys.argv[1], "w") as f:
     for d in range(1, 6):
         for i in range(120):
-            seg = segs[i % 4]
+            seg = segs[i % 5]
             shift = 0.25 * (d >= 4 and seg == "plain")
             probs = []
             for m in range(3):
@@ -53,6 +54,9 @@ PY
 "$CONCORD" ingest --db "$DB" --model sliced "$T/s.jsonl" 2> /dev/null || fail "ingest of the sliced model"
 "$CONCORD" baseline --db "$DB" --model sliced --from 2026-11-01 --to 2026-11-03 > /dev/null ||
   fail "baseline of the sliced model"
+"$CONCORD" rules init -o "$T/rules.json" > /dev/null 2>&1
+"$CONCORD" check --db "$DB" --rules "$T/rules.json" --model sliced --day 2026-11-05 --no-deliver \
+  > /dev/null || fail "check of the sliced model"
 start_server "$T/s.log" --db "$DB" --listen 127.0.0.1:0
 curl -s -m $HANG_GUARD -D "$T/headers" -o "$T/metrics" "http://127.0.0.1:$SPORT/v1/metrics"
 stop_server || fail "serve did not exit 0 on SIGTERM"
@@ -141,7 +145,7 @@ import datetime
 def date(day):
     return (datetime.date(1970, 1, 1) + datetime.timedelta(days=day)).isoformat()
 
-want_slices = {"sliced": {"plain", 'q"uo\\te', "new\nline", "(none)"},
+want_slices = {"sliced": {"plain", 'q"uo\\te', "new\nline", "a/b%2Fc", "(none)"},
                "apple-grader": None}
 for model, want in want_slices.items():
     day = date(latest[model])
@@ -176,15 +180,21 @@ for model, want in want_slices.items():
           "%s: no model-level sample without a slice label" % model)
 sys.exit(1 if bad else 0)
 PY
-grep -q '^concord_day_events{model="sliced",slice="q\\"uo\\\\te"} 30$' "$T/metrics" ||
+grep -q '^concord_day_events{model="sliced",slice="q\\"uo\\\\te"} 24$' "$T/metrics" ||
   fail "the slice with a quote and a backslash is not escaped: $(grep 'model="sliced",slice' "$T/metrics" | head -3)"
-grep -q '^concord_day_events{model="sliced",slice="new\\nline"} 30$' "$T/metrics" ||
+grep -q '^concord_day_events{model="sliced",slice="new\\nline"} 24$' "$T/metrics" ||
   fail "the slice with a line feed is not escaped"
-# the demo's each-slice rule for line-2 (README: raised on days 19-20): its
-# state key <rule>@line-2 is split into rule and slice labels
+# the demo checks its each-slice rules per packing line: the state key
+# <rule>@line-2 is split into rule and slice labels
 grep -Eq '^concord_alert_state\{model="apple-grader",rule="[a-z0-9_.-]+",slice="line-2",concord_alert_state="[a-z_]+"\} 1$' "$T/metrics" ||
   fail "no each-slice alert state with a slice label for line-2"
-grep -q '^concord_alert_state{model="apple-grader",rule="[^"]*@' "$T/metrics" &&
+grep -q '^concord_alert_state{model="[^"]*",rule="[^"]*@' "$T/metrics" &&
   fail "a rule label still holds the state key's @slice"
+# hostile slice names in state keys: escaped, and '/' and '%' (kept in the
+# key as %2F and %25) given back as they are
+for s in 'q\\"uo\\\\te' 'new\\nline' 'a/b%2Fc'; do
+  grep -q "^concord_alert_state{model=\"sliced\",rule=\"slice-class-mix-drift\",slice=\"$s\",concord_alert_state=\"not_evaluated\"} 1\$" "$T/metrics" ||
+    fail "no alert state of slice $s: $(grep 'model="sliced",rule="slice-class-mix-drift"' "$T/metrics" | grep ' 1$')"
+done
 
 finish serve_metrics
