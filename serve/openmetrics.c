@@ -1,6 +1,6 @@
 /* openmetrics.c — writing the exposition. Families are written whole (every
  * sample of a family together, after its TYPE, HELP and UNIT lines), so the
- * per-model figures are gathered first. */
+ * per-model and per-slice figures are gathered first. */
 #include "openmetrics.h"
 
 #include <math.h>
@@ -12,13 +12,24 @@
 #include "history.h"
 #include "report.h"
 #include "state.h"
+#include "store_slices.h"
 
-/* One model's latest day. */
+#define N_FIGS 6
+
+/* One slice's figures on its model's latest day. */
+typedef struct slice_row {
+    char *name;
+    double fig[N_FIGS];
+} slice_row;
+
+/* One model's latest day, and its slices with events on that day. */
 typedef struct model_row {
     char *name;
     int has_day;
     int64_t day;
-    double fig[6];
+    double fig[N_FIGS];
+    slice_row *slices;
+    int n_slices;
 } model_row;
 
 /* The per-model gauges: the figure registry's path, and the family. */
@@ -40,12 +51,13 @@ static const struct {
      "Events with a label among the latest day's events."},
 };
 #define N_GAUGES ((int)(sizeof gauges / sizeof *gauges))
+_Static_assert(N_GAUGES == N_FIGS, "one figure slot per gauge");
 
 /* Label values: backslash, double quote and line feed escaped (OpenMetrics
  * 1.0, "ABNF": escaped-string). */
-static void put_label(FILE *f, const char *s)
+static void put_label_n(FILE *f, const char *s, size_t n)
 {
-    for (; *s; s++) {
+    for (const char *end = s + n; s < end; s++) {
         if (*s == '\\')
             fputs("\\\\", f);
         else if (*s == '"')
@@ -55,6 +67,11 @@ static void put_label(FILE *f, const char *s)
         else
             fputc(*s, f);
     }
+}
+
+static void put_label(FILE *f, const char *s)
+{
+    put_label_n(f, s, strlen(s));
 }
 
 static void put_number(FILE *f, double v)
@@ -80,6 +97,39 @@ static void family(FILE *f, const char *name, const char *type, const char *unit
     fputc('\n', f);
 }
 
+/* The gauges' figures of one report window (the model's, or a slice's). */
+static void window_gauges(const cc_report_window *w, double *fig)
+{
+    for (int g = 0; g < N_GAUGES; g++) {
+        const cc_figure *f = cc_figures_find(gauges[g].path);
+        fig[g] = f ? cc_figures_value(f, &w->metrics, &w->cmp, 0) : NAN;
+    }
+}
+
+/* The slices' rows of the latest day's window: the report's per-slice rows
+ * (--by-segment), each the window `report --segment S` gives for that day
+ * (the slice's summary against the slice's own baseline days). Only slices
+ * with events that day have a row, so there are at most the model's slices
+ * (its slice limit, 64 by default, plus the unnamed ones). */
+static int slice_figures(const cc_report *r, const cc_report_window *w, model_row *row,
+                         cc_error *err)
+{
+    if (w->n_segments == 0)
+        return 0;
+    row->slices = calloc((size_t)w->n_segments, sizeof *row->slices);
+    if (!row->slices)
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    for (int i = 0; i < w->n_segments; i++) {
+        const cc_report_window *sw = &w->segments[i];
+        slice_row *sr = &row->slices[row->n_slices];
+        if (!(sr->name = strdup(cc_slice_name(&r->slices[sw->slice]))))
+            return cc_error_set(err, CC_ENOMEM, "out of memory");
+        row->n_slices++;
+        window_gauges(sw, sr->fig);
+    }
+    return 0;
+}
+
 static int model_figures(cc_store *store, model_row *row, cc_error *err)
 {
     cc_model *m = NULL;
@@ -92,17 +142,17 @@ static int model_figures(cc_store *store, model_row *row, cc_error *err)
     if (!rc && n > 0) {
         row->has_day = 1;
         row->day = days[n - 1];
+        /* one report gives the model's window and its slices' rows (a file
+         * without slice tables, read as it is, has none) */
         cc_report_opts ro = {.model = row->name, .has_from = 1, .has_to = 1, .from = row->day,
-                             .to = row->day, .by = CC_BY_DAY};
+                             .to = row->day, .by = CC_BY_DAY,
+                             .by_segment = cc_store_slices_kept(store)};
         cc_report *r = NULL;
         rc = cc_report_build(&r, store, &ro, err);
-        if (!rc && r->n_windows > 0)
-            for (int g = 0; g < N_GAUGES; g++) {
-                const cc_figure *fig = cc_figures_find(gauges[g].path);
-                row->fig[g] = fig ? cc_figures_value(fig, &r->windows[0].metrics,
-                                                     &r->windows[0].cmp, 0)
-                                  : NAN;
-            }
+        if (!rc && r->n_windows > 0) {
+            window_gauges(&r->windows[0], row->fig);
+            rc = slice_figures(r, &r->windows[0], row, err);
+        }
         cc_report_free(r);
     }
     free(days);
@@ -110,31 +160,63 @@ static int model_figures(cc_store *store, model_row *row, cc_error *err)
     return rc;
 }
 
-/* Hook for per-slice figures: once the store keeps summaries per slice
- * (segment), each model's latest-day gauges are repeated here for each of
- * its slices with a label slice="..." next to model="...". Until then a
- * model has no slices and nothing is written. */
-static void slice_samples(FILE *f, cc_store *store, const model_row *row, int g)
+static void model_row_free(model_row *row)
 {
-    (void)f;
-    (void)store;
-    (void)row;
-    (void)g;
+    for (int i = 0; i < row->n_slices; i++)
+        free(row->slices[i].name);
+    free(row->slices);
+}
+
+/* Gauge g of each slice of the model, with a slice label beside the model
+ * label (the model's own sample has no slice label). */
+static void slice_samples(FILE *f, const model_row *row, int g)
+{
+    for (int i = 0; i < row->n_slices; i++) {
+        fprintf(f, "%s{model=\"", gauges[g].name);
+        put_label(f, row->name);
+        fputs("\",slice=\"", f);
+        put_label(f, row->slices[i].name);
+        fputs("\"} ", f);
+        put_number(f, row->slices[i].fig[g]);
+        fputc('\n', f);
+    }
 }
 
 typedef struct states_ctx {
     FILE *f;
 } states_ctx;
 
+/* A label value written from the state key's slice part: %2F and %25 (how
+ * alerts/check.c keeps '/' and '%' out of the key) read back as '/' and '%'. */
+static void put_key_slice(FILE *f, const char *s)
+{
+    for (; *s; s++) {
+        if (s[0] == '%' && s[1] == '2' && (s[2] == 'F' || s[2] == '5')) {
+            fputc(s[2] == 'F' ? '/' : '%', f);
+            s += 2;
+        } else {
+            put_label_n(f, s, 1);
+        }
+    }
+}
+
 static int put_state(void *ctx, const cc_state_row *r)
 {
     states_ctx *c = ctx;
+    /* an each-slice rule's copy has the key "<rule>@<slice>" (rule names
+     * have no '@'): the rule and slice labels */
+    const char *at = strchr(r->rule, '@');
+    const size_t rule_len = at ? (size_t)(at - r->rule) : strlen(r->rule);
     for (int k = CC_STATE_QUIET; k <= CC_STATE_NOT_EVALUATED; k++) {
         const char *name = cc_state_name((cc_state_kind)k);
         fputs("concord_alert_state{model=\"", c->f);
         put_label(c->f, r->model);
         fputs("\",rule=\"", c->f);
-        put_label(c->f, r->rule);
+        put_label_n(c->f, r->rule, rule_len);
+        if (at) {
+            fputs("\",slice=\"", c->f);
+            put_key_slice(c->f, at + 1);
+        }
         fprintf(c->f, "\",concord_alert_state=\"%s\"} %d\n", name,
                 strcmp(r->state, name) == 0);
     }
@@ -203,7 +285,7 @@ char *cc_openmetrics_render(cc_store *store, cc_writer *w, cc_error *err)
             fputs("\"} ", f);
             put_number(f, rows[i].fig[g]);
             fputc('\n', f);
-            slice_samples(f, store, &rows[i], g);
+            slice_samples(f, &rows[i], g);
         }
     }
     family(f, "concord_alert_state", "stateset", NULL,
@@ -242,14 +324,19 @@ char *cc_openmetrics_render(cc_store *store, cc_writer *w, cc_error *err)
         cc_error_set(err, CC_ENOMEM, "out of memory");
         goto fail;
     }
-    for (int i = 0; i < n; i++)
+    for (int i = 0; i < n; i++) {
+        model_row_free(&rows[i]);
         free(names[i]);
+    }
     free(names);
     free(rows);
     return text;
 fail:
-    for (int i = 0; i < n; i++)
+    for (int i = 0; i < n; i++) {
+        if (rows)
+            model_row_free(&rows[i]);
         free(names[i]);
+    }
     free(names);
     free(rows);
     return NULL;

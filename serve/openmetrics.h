@@ -1,7 +1,8 @@
 /* openmetrics.h — the server's figures in the OpenMetrics 1.0 text
  * exposition format: per model, the latest day's disagreement, mutual
  * information, class-mix p-value, ensemble accuracy, events and labelled
- * events; the alert rules' states; what the server took since it started
+ * events, also per slice with events that day (label slice); the alert
+ * rules' states (each-slice copies with a slice label); what the server took since it started
  * (events, duplicates, rejected lines, labels) and its queue. */
 #ifndef CC_SERVE_OPENMETRICS_H
 #define CC_SERVE_OPENMETRICS_H
