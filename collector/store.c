@@ -954,18 +954,7 @@ static int sq_summary_days(cc_store *store, const cc_model *m, int64_t from, int
     sqlite3_bind_int64(st, 1, m->id);
     sqlite3_bind_int64(st, 2, from);
     sqlite3_bind_int64(st, 3, to);
-    int rc = 0;
-    while (sqlite3_step(st) == SQLITE_ROW) {
-        int64_t *grown = realloc(*days, (size_t)(*n + 1) * sizeof **days);
-        if (!grown) {
-            rc = cc_error_set(err, CC_ENOMEM, "out of memory");
-            break;
-        }
-        *days = grown;
-        (*days)[(*n)++] = sqlite3_column_int64(st, 0);
-    }
-    sqlite3_finalize(st);
-    return rc;
+    return cc_sq_collect_days(s, st, "listing days", days, n, err);
 }
 
 static int sq_summary_from_rows(cc_store *store, const cc_model *m, int64_t day, cc_summary *out,
@@ -1274,7 +1263,6 @@ static int sq_row_days(cc_store *store, const cc_model *m, int64_t **days, int *
 {
     sq_store *s = SQ(store);
     sqlite3_stmt *st = NULL;
-    int rc = 0, step;
     *days = NULL;
     *n = 0;
     if (sqlite3_prepare_v2(s->db, "SELECT DISTINCT day FROM events WHERE model_id = ?1 "
@@ -1282,19 +1270,7 @@ static int sq_row_days(cc_store *store, const cc_model *m, int64_t **days, int *
                            -1, &st, NULL) != SQLITE_OK)
         return db_error(s, err, "listing days with events");
     sqlite3_bind_int64(st, 1, m->id);
-    while ((step = sqlite3_step(st)) == SQLITE_ROW) {
-        int64_t *grown = realloc(*days, (size_t)(*n + 1) * sizeof **days);
-        if (!grown) {
-            rc = cc_error_set(err, CC_ENOMEM, "out of memory");
-            break;
-        }
-        *days = grown;
-        (*days)[(*n)++] = sqlite3_column_int64(st, 0);
-    }
-    if (!rc && step != SQLITE_DONE)
-        rc = db_error(s, err, "listing days with events");
-    sqlite3_finalize(st);
-    return rc;
+    return cc_sq_collect_days(s, st, "listing days with events", days, n, err);
 }
 
 static int sq_class_faults(cc_store *store, const cc_model *m, cc_fault_fn fn, void *ctx,
@@ -1459,6 +1435,27 @@ done:
 }
 
 /* The helpers above, for the backend's other files (store_sqlite.h). */
+int cc_sq_collect_days(sq_store *s, sqlite3_stmt *st, const char *what, int64_t **days, int *n,
+                       cc_error *err)
+{
+    int rc = 0, step, cap = 0;
+    while ((step = sqlite3_step(st)) == SQLITE_ROW) {
+        if (*n == cap) {
+            int64_t *grown = realloc(*days, (size_t)(cap ? 2 * cap : 32) * sizeof **days);
+            if (!grown) {
+                rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+                break;
+            }
+            *days = grown;
+            cap = cap ? 2 * cap : 32;
+        }
+        (*days)[(*n)++] = sqlite3_column_int64(st, 0);
+    }
+    if (!rc && step != SQLITE_DONE)
+        rc = db_error(s, err, what);
+    sqlite3_finalize(st);
+    return rc;
+}
 int cc_sq_error(sq_store *s, cc_error *err, const char *what) { return db_error(s, err, what); }
 int cc_sq_exec(sq_store *s, const char *sql, cc_error *err) { return exec(s, sql, err); }
 sqlite3_stmt *cc_sq_stmt(sq_store *s, int which) { return stmt(s, which); }

@@ -384,7 +384,7 @@ int cc_sq_slice_summary_days(cc_store *s, const cc_model *m, int64_t slice, int6
                                 int64_t to, int64_t **days, int *n, cc_error *err)
 {
     sqlite3_stmt *st;
-    int rc, step;
+    int rc;
     *days = NULL;
     *n = 0;
     if ((rc = need_slices(s, err)) ||
@@ -396,19 +396,7 @@ int cc_sq_slice_summary_days(cc_store *s, const cc_model *m, int64_t slice, int6
     sqlite3_bind_int64(st, 2, slice);
     sqlite3_bind_int64(st, 3, from);
     sqlite3_bind_int64(st, 4, to);
-    while ((step = sqlite3_step(st)) == SQLITE_ROW) {
-        int64_t *grown = realloc(*days, (size_t)(*n + 1) * sizeof **days);
-        if (!grown) {
-            rc = cc_error_set(err, CC_ENOMEM, "out of memory");
-            break;
-        }
-        *days = grown;
-        (*days)[(*n)++] = sqlite3_column_int64(st, 0);
-    }
-    if (!rc && step != SQLITE_DONE)
-        rc = sl_error(s, err, "listing a slice's days");
-    sqlite3_finalize(st);
-    return rc;
+    return cc_sq_collect_days(SQ(s), st, "listing a slice's days", days, n, err);
 }
 
 /* Index in list of the slice an event with this segment belongs to, or -1. */

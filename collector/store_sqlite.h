@@ -53,6 +53,10 @@ int cc_sq_exec(sq_store *s, const char *sql, cc_error *err);
 sqlite3_stmt *cc_sq_stmt(sq_store *s, int which);
 /* 1 when the table exists (a reader may open an older schema). */
 int cc_sq_has_table(sq_store *s, const char *name);
+/* Steps st (bound, not yet stepped) and appends its first column to
+ * the array *days of *n days (caller frees it); finalizes st. Errors name what. */
+int cc_sq_collect_days(sq_store *s, sqlite3_stmt *st, const char *what, int64_t **days, int *n,
+                       cc_error *err);
 
 /* The ops kept in store_alerts.c, store_review.c and store_follow.c, with
  * the contracts of the store.h functions of the same names. */
