@@ -205,7 +205,8 @@ static int check_model(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o
     cc_rule *rules = NULL;
     int n_rules = 0;
     cc_rule_state *states = NULL;
-    int rc = rule_block(s, rs, model, res, &rules, &n_rules, err);
+    cc_store *fig = o->figures ? o->figures : s;
+    int rc = rule_block(fig, rs, model, res, &rules, &n_rules, err);
     if (!rc) {
         /* room for every item of this model */
         int64_t want = res->n_items + (int64_t)n_rules * (res->last_day - res->day + 1);
@@ -217,7 +218,7 @@ static int check_model(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o
             }
         }
         states = calloc((size_t)(n_rules ? n_rules : 1), sizeof *states);
-        rc = states && res->cap_items >= want ? cc_eval_create(&ev, s, model, res->day, err)
+        rc = states && res->cap_items >= want ? cc_eval_create(&ev, fig, model, res->day, err)
                                               : cc_error_set(err, CC_ENOMEM, "out of memory");
     }
     /* a dry run (a replay, `report --rules`, `rules validate`) only reads:
@@ -312,7 +313,7 @@ int cc_check_run(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o,
         goto done;
     if (o->model) {
         cc_model *m = NULL;
-        if ((rc = cc_store_model_get(s, o->model, &m, err)))
+        if ((rc = cc_store_model_get(o->figures ? o->figures : s, o->model, &m, err)))
             goto done;
         cc_model_free(m);
         models = calloc(1, sizeof *models);
@@ -321,7 +322,8 @@ int cc_check_run(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o,
             goto done;
         }
         n_models = 1;
-    } else if ((rc = cc_store_model_list(s, &models, &n_models, err))) {
+    } else if ((rc = cc_store_model_list(o->figures ? o->figures : s, &models, &n_models,
+                                         err))) {
         goto done;
     }
     int n_recv = cc_rules_receiver_count(rs) + o->n_extra;

@@ -52,6 +52,9 @@ typedef struct cc_check_opts {
     int64_t now;                /* Unix time; 0 = the clock */
     const cc_receiver *extra;   /* receivers added for this run */
     int n_extra;
+    cc_store *figures;          /* where the models and their figures are read (a cluster
+                                   store); NULL: the store itself. Rule states,
+                                   notifications and the outbox always live in the store */
 } cc_check_opts;
 
 typedef struct cc_check_result {

@@ -61,6 +61,39 @@ int cli_store_open(struct cc_store **out, const char *path, int flags, cc_error 
 int cli_store_url_open(const char *command, const char *db, const char *url, const char *model,
                        int events, const char *event_id, struct cc_store **out, cc_error *err);
 void cli_store_url_close(struct cc_store *s);
+/* --db FILE and --store URL: every command that takes a store lists both
+ * in its option spec and resolves them with cli_store_name. */
+#define CLI_STORE_OPTS {"db", 0, 1, NULL}, {"store", 0, 1, NULL}
+/* The --store line of the commands' --help, by what they do with a cluster. */
+#define CLI_HELP_STORE_WRITES                                                               \
+    "  --store URL      sqlite:FILE is --db FILE; clickhouse://HOST:PORT/DATABASE is\n"     \
+    "                   refused (exit 2): a host writes its local store and publishes it\n"
+#define CLI_HELP_STORE_LOCAL                                                                \
+    "  --store URL      sqlite:FILE is --db FILE; a clickhouse:// cluster is refused\n"     \
+    "                   (exit 2): what this command reads lives in a host's local store\n"
+#define CLI_HELP_STORE_CLUSTER                                                              \
+    "  --store URL      sqlite:FILE (the same as --db FILE) or\n"                           \
+    "                   clickhouse://HOST:PORT/DATABASE (read through the cluster; user and\n" \
+    "                   password from CONCORD_CH_USER and CONCORD_CH_PASSWORD)\n"
+/* What a command may do with a clickhouse:// store (use, for cli_store_name). */
+enum {
+    CLI_STORE_WRITES = 0,   /* it writes: a cluster is refused (exit 2, names publish) */
+    CLI_STORE_LOCAL = 1,    /* it reads what only a host's SQLite store keeps */
+    CLI_STORE_CLUSTER = 2,  /* it reads through the cluster backend too */
+    CLI_STORE_OPTIONAL = 4, /* flag: neither option given is fine (both left NULL) */
+    CLI_STORE_BESIDE = 8,   /* flag: --db FILE may come with --store clickhouse:// */
+};
+/* The store named by --db PATH or --store URL in opts (sqlite:PATH is
+ * --db PATH): *path is the local file or NULL, *url the clickhouse:// URL
+ * or NULL (only with CLI_STORE_CLUSTER). Prints the usage error and returns
+ * EXIT_USAGE for a missing store, both options, an unknown scheme or a
+ * cluster the command cannot use; else EXIT_OK. */
+int cli_store_name(const char *command, const cli_opt *opts, int n_opts, int use,
+                   const char **path, const char **url);
+/* Opens what cli_store_name named: the cluster's store backend for url
+ * (read-only), else path as cli_store_open does with flags. */
+int cli_store_open_named(const char *path, const char *url, int flags, struct cc_store **out,
+                         cc_error *err);
 int cmd_publish(int argc, char **argv);
 /* Publishes an open writable store (cmd_publish.c), printing what was sent;
  * source NULL: the host name. Returns an exit code. */

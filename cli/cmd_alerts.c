@@ -17,7 +17,7 @@
 #include "state.h"
 
 const char help_alerts[] =
-    "usage: concord alerts --db FILE [--model NAME] [--state STATE]\n"
+    "usage: concord alerts --db FILE|--store URL [--model NAME] [--state STATE]\n"
     "                      [--delivery pending|sent|dead] [--limit N] [--format text|json]\n\n"
     "Lists each rule's state per model (since when, last checked day, last value and\n"
     "bound) and the latest notifications (default 50) with their delivery to each\n"
@@ -25,6 +25,7 @@ const char help_alerts[] =
     "(gave up after the receiver's max_attempts; 'concord deliver --requeue-dead').\n"
     "STATE: quiet, building, raised, cleared or not_evaluated (the last checked day\n"
     "could not be judged: too few events or labels, or no baseline spread).\n\n"
+    CLI_HELP_STORE_LOCAL "\n"
     "exit: 0 ok, 2 usage, 3 file or database error\n";
 
 static void day_text(int64_t day, char out[11])
@@ -165,7 +166,7 @@ static int history_row(void *ctx, const cc_history_row *r)
 
 int cmd_alerts(int argc, char **argv)
 {
-    cli_opt opts[] = {{"db", 0, 1, NULL},       {"model", 0, 1, NULL}, {"state", 0, 1, NULL},
+    cli_opt opts[] = {CLI_STORE_OPTS,       {"model", 0, 1, NULL}, {"state", 0, 1, NULL},
                       {"delivery", 0, 1, NULL}, {"limit", 0, 1, NULL}, {"format", 0, 1, NULL}};
     int n_opts = (int)(sizeof opts / sizeof *opts), n_pos, help;
     char *pos[64];
@@ -175,12 +176,12 @@ int cmd_alerts(int argc, char **argv)
         fputs(help_alerts, stdout);
         return EXIT_OK;
     }
-    const char *db = cli_get(opts, n_opts, "db"), *state = cli_get(opts, n_opts, "state");
+    const char *db, *url, *state = cli_get(opts, n_opts, "state");
     const char *delivery = cli_get(opts, n_opts, "delivery");
     const char *format = cli_get(opts, n_opts, "format"), *lim = cli_get(opts, n_opts, "limit");
     cc_state_kind k;
-    if (!db)
-        return cli_usage("alerts", "--db is required");
+    if (cli_store_name("alerts", opts, n_opts, CLI_STORE_LOCAL, &db, &url))
+        return EXIT_USAGE;
     if (n_pos)
         return cli_usage("alerts", "unexpected argument '%s'", pos[0]);
     if (state && cc_state_parse(state, &k))

@@ -7,17 +7,18 @@
 #include "store.h"
 
 const char help_baseline[] =
-    "usage: concord baseline --db FILE --model NAME --from DATE --to DATE\n\n"
+    "usage: concord baseline --db FILE|--store URL --model NAME --from DATE --to DATE\n\n"
     "Marks the days (UTC, inclusive) whose traffic is the reference that later windows\n"
     "are compared with. Setting it again replaces the earlier period. The period must\n"
     "hold events.\n\n"
+    CLI_HELP_STORE_WRITES "\n"
     "exit: 0 ok, 2 usage, 3 file or database error, 4 unknown model or no events\n";
 
 int cmd_baseline(int argc, char **argv)
 {
-    cli_opt opts[] = {{"db", 0, 1, NULL}, {"model", 0, 1, NULL}, {"from", 0, 1, NULL},
+    cli_opt opts[] = {CLI_STORE_OPTS, {"model", 0, 1, NULL}, {"from", 0, 1, NULL},
                       {"to", 0, 1, NULL}};
-    int n_opts = 4, n_pos, help;
+    int n_opts = (int)(sizeof opts / sizeof *opts), n_pos, help;
     char *pos[64];
     if (argc > 64 || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, "baseline"))
         return EXIT_USAGE;
@@ -25,11 +26,13 @@ int cmd_baseline(int argc, char **argv)
         fputs(help_baseline, stdout);
         return EXIT_OK;
     }
-    const char *db = cli_get(opts, n_opts, "db"), *model = cli_get(opts, n_opts, "model");
+    const char *db, *url, *model = cli_get(opts, n_opts, "model");
     const char *fv = cli_get(opts, n_opts, "from"), *tv = cli_get(opts, n_opts, "to");
     int64_t from, to;
-    if (!db || !model || !fv || !tv)
-        return cli_usage("baseline", "--db, --model, --from and --to are required");
+    if (cli_store_name("baseline", opts, n_opts, CLI_STORE_WRITES, &db, &url))
+        return EXIT_USAGE;
+    if (!model || !fv || !tv)
+        return cli_usage("baseline", "--model, --from and --to are required");
     if (n_pos)
         return cli_usage("baseline", "unexpected argument '%s'", pos[0]);
     if (cli_date("baseline", "from", fv, &from) || cli_date("baseline", "to", tv, &to))

@@ -10,6 +10,7 @@
 #include <cjson/cJSON.h>
 
 #include "check.h"
+#include "ch_store.h"
 #include "cli.h"
 #include "date.h"
 #include "deliver.h"
@@ -18,8 +19,9 @@
 #include "webhook.h"
 
 const char help_check[] =
-    "usage: concord check --db FILE --rules FILE [--model NAME] [--day DATE | --from DATE\n"
-    "                     --to DATE] [--dry-run] [--webhook URL] [--no-deliver]\n"
+    "usage: concord check --db FILE [--store URL] --rules FILE [--model NAME]\n"
+    "                     [--day DATE | --from DATE --to DATE] [--dry-run] [--webhook URL]\n"
+    "                     [--no-deliver]"
     "                     [--format text|json]\n\n"
     "Evaluates every rule of the rules file on the latest complete UTC day (or --day) for\n"
     "every model (or --model), advances each rule's state (quiet, building, raised,\n"
@@ -35,7 +37,11 @@ const char help_check[] =
     "  --webhook URL    also notify this receiver (http://, https:// or file:PATH); give\n"
     "                   it once, list further receivers in the rules file\n"
     "  --no-deliver     queue only; 'concord deliver' sends later\n"
-    "  --format json    rule, metric, value, bound, state and outcome per rule and day\n\n"
+    "  --format json    rule, metric, value, bound, state and outcome per rule and day\n"
+    "  --store URL      sqlite:FILE is --db FILE. With clickhouse://HOST:PORT/DATABASE the\n"
+    "                   rules are evaluated on the cluster's merged figures, and the rule\n"
+    "                   states, notifications and outbox stay in the local --db FILE\n"
+    "                   (required beside it): run the cluster's check on one host\n\n"
     "exit: 0 healthy (no rule raised), 10 a rule was raised on a checked day, 11 rules are\n"
     "still raised (none newly), 1 invalid rules file, 2 usage, 3 file or database error,\n"
     "4 unknown model. Delivery failures do not change the exit status; they are retried.\n";
@@ -298,7 +304,7 @@ static void on_delivery(void *ctx, const cc_deliver_event *e)
 
 int cmd_check(int argc, char **argv)
 {
-    cli_opt opts[] = {{"db", 0, 1, NULL},         {"rules", 0, 1, NULL},
+    cli_opt opts[] = {CLI_STORE_OPTS,             {"rules", 0, 1, NULL},
                       {"model", 0, 1, NULL},      {"day", 0, 1, NULL},
                       {"from", 0, 1, NULL},       {"to", 0, 1, NULL},
                       {"dry-run", 0, 0, NULL},    {"webhook", 0, 1, NULL},
@@ -311,10 +317,16 @@ int cmd_check(int argc, char **argv)
         fputs(help_check, stdout);
         return EXIT_OK;
     }
-    const char *db = cli_get(opts, n_opts, "db"), *rules = cli_get(opts, n_opts, "rules");
+    const char *db, *url, *rules = cli_get(opts, n_opts, "rules");
     const char *format = cli_get(opts, n_opts, "format");
-    if (!db || !rules)
-        return cli_usage("check", "--db and --rules are required");
+    if (cli_store_name("check", opts, n_opts, CLI_STORE_CLUSTER | CLI_STORE_BESIDE, &db, &url))
+        return EXIT_USAGE;
+    if (url && !db)
+        return cli_usage("check", "--store %s: the rule states, notifications and outbox "
+                                  "of a check on the cluster live in a local store: give "
+                                  "--db FILE beside it", url);
+    if (!rules)
+        return cli_usage("check", "--rules is required");
     if (n_pos)
         return cli_usage("check", "unexpected argument '%s'", pos[0]);
     int json = format && strcmp(format, "json") == 0;
@@ -344,7 +356,7 @@ int cmd_check(int argc, char **argv)
 
     cc_error err = CC_ERROR_INIT;
     cc_ruleset *rs = NULL;
-    cc_store *store = NULL;
+    cc_store *store = NULL, *figures = NULL;
     cc_check_result *res = NULL;
     cc_receiver extra = {0};
     int rc;
@@ -359,7 +371,13 @@ int cmd_check(int argc, char **argv)
         co.extra = &extra;
         co.n_extra = 1;
     }
-    if (cli_store_open(&store, db, 0, &err) || cc_check_run(store, rs, &co, &res, &err)) {
+    if ((url && cc_ch_store_open(&figures, url, &err)) ||
+        cli_store_open(&store, db, url ? CC_STORE_CREATE : 0, &err)) {
+        rc = cli_fail(&err);
+        goto done;
+    }
+    co.figures = figures;
+    if (cc_check_run(store, rs, &co, &res, &err)) {
         rc = cli_fail(&err);
         goto done;
     }
@@ -388,6 +406,7 @@ int cmd_check(int argc, char **argv)
 done:
     cc_check_result_free(res);
     cc_store_close(store);
+    cc_store_close(figures);
     cc_rules_receiver_clear(&extra);
     cc_rules_free(rs);
     return rc;

@@ -9,13 +9,14 @@
 #include "webhook.h"
 
 const char help_deliver[] =
-    "usage: concord deliver --db FILE [--retry-now] [--requeue-dead] [--format text|json]\n\n"
+    "usage: concord deliver --db FILE|--store URL [--retry-now] [--requeue-dead] [--format text|json]\n\n"
     "Sends the notifications whose next attempt is due, marks each sent on a 2xx answer\n"
     "only, and schedules failures again with exponential backoff and jitter; after the\n"
     "receiver's max_attempts a notification is kept as a dead letter ('concord alerts').\n"
     "A receiver that fails is not tried again in the same run.\n\n"
     "  --retry-now      ignore the backoff: try every pending notification now\n"
-    "  --requeue-dead   make dead letters pending again (attempts reset), then send\n\n"
+    "  --requeue-dead   make dead letters pending again (attempts reset), then send\n"
+    CLI_HELP_STORE_WRITES "\n"
     "exit: 0 everything due was delivered, 12 some deliveries failed or gave up (they\n"
     "are kept), 2 usage, 3 file or database error\n";
 
@@ -31,7 +32,7 @@ static void on_event(void *ctx, const cc_deliver_event *e)
 
 int cmd_deliver(int argc, char **argv)
 {
-    cli_opt opts[] = {{"db", 0, 1, NULL},
+    cli_opt opts[] = {CLI_STORE_OPTS,
                       {"retry-now", 0, 0, NULL},
                       {"requeue-dead", 0, 0, NULL},
                       {"format", 0, 1, NULL}};
@@ -43,9 +44,9 @@ int cmd_deliver(int argc, char **argv)
         fputs(help_deliver, stdout);
         return EXIT_OK;
     }
-    const char *db = cli_get(opts, n_opts, "db"), *format = cli_get(opts, n_opts, "format");
-    if (!db)
-        return cli_usage("deliver", "--db is required");
+    const char *db, *url, *format = cli_get(opts, n_opts, "format");
+    if (cli_store_name("deliver", opts, n_opts, CLI_STORE_WRITES, &db, &url))
+        return EXIT_USAGE;
     if (n_pos)
         return cli_usage("deliver", "unexpected argument '%s'", pos[0]);
     int json = format && strcmp(format, "json") == 0;

@@ -10,7 +10,7 @@
 #include "utf8.h"
 
 const char help_ingest[] =
-    "usage: concord ingest --db FILE [--model NAME] [--classes A,B,...] [--members X,Y,...]\n"
+    "usage: concord ingest --db FILE|--store URL [--model NAME] [--classes A,B,...] [--members X,Y,...]\n"
     "                      [--max-slices N] [--strict] [--batch N] [--quiet]\n"
     "                      [--publish URL [--source NAME]] FILE...\n\n"
     "Reads prediction events, one JSON object per line ('-' reads standard input), and\n"
@@ -19,6 +19,7 @@ const char help_ingest[] =
     "and the rest is stored. An id already stored for the model is counted as a\n"
     "duplicate and skipped, so re-reading a file is safe.\n\n"
     "  --db FILE        database (created when missing)\n"
+    CLI_HELP_STORE_WRITES
     "  --model NAME     model for lines without a \"model\" key (default: default)\n"
     "  --classes LIST   class names, when this run creates the model\n"
     "  --members LIST   member names, when this run creates the model\n"
@@ -39,12 +40,14 @@ const char help_ingest[] =
     "read is reported and skipped; the lines of the other files are stored)\n";
 
 const char help_label[] =
-    "usage: concord label --db FILE [--model NAME] [--quiet] FILE...\n\n"
+    "usage: concord label --db FILE|--store URL [--model NAME] [--quiet]\n"
+    "                     [--publish URL [--source NAME]] FILE...\n\n"
     "Reads delayed labels, one {\"id\": ..., \"label\": CLASS} per line (CLASS an index or\n"
     "a class name; optional \"model\"), and adds each to the labelled part of its event's\n"
     "day. A label that differs from an earlier one replaces it exactly. A label whose\n"
     "event is not stored yet waits and is applied when the event is ingested.\n"
     "--publish URL [--source NAME] then publishes the store, as 'concord publish' does.\n\n"
+    CLI_HELP_STORE_WRITES "\n"
     "exit: 0 ok, 1 some lines rejected, 2 usage, 3 file or database error (an input\n"
     "file that cannot be read is reported and skipped; the others are applied)\n";
 
@@ -107,7 +110,7 @@ static int run(int argc, char **argv, cc_record_kind kind)
 {
     const char *command = kind == CC_RECORD_EVENTS ? "ingest" : "label";
     cli_opt opts[] = {
-        {"db", 0, 1, NULL},      {"model", 0, 1, NULL}, {"classes", 0, 1, NULL},
+        CLI_STORE_OPTS,          {"model", 0, 1, NULL}, {"classes", 0, 1, NULL},
         {"members", 0, 1, NULL}, {"strict", 0, 0, NULL}, {"batch", 0, 1, NULL},
         {"quiet", 'q', 0, NULL}, {"ts-range", 0, 1, NULL}, {"max-slices", 0, 1, NULL},
         {"publish", 0, 1, NULL}, {"source", 0, 1, NULL},
@@ -123,7 +126,11 @@ static int run(int argc, char **argv, cc_record_kind kind)
         free(pos);
         return EXIT_OK;
     }
-    const char *db = cli_get(opts, n_opts, "db");
+    const char *db, *url;
+    if (cli_store_name(command, opts, n_opts, CLI_STORE_WRITES, &db, &url)) {
+        free(pos);
+        return EXIT_USAGE;
+    }
     if (cli_get(opts, n_opts, "publish") &&
         strncmp(cli_get(opts, n_opts, "publish"), "clickhouse://", 13) != 0) {
         free(pos);
@@ -132,9 +139,7 @@ static int run(int argc, char **argv, cc_record_kind kind)
     }
     int rc = EXIT_OK, n_classes = 0, n_members = 0;
     char **classes = NULL, **members = NULL;
-    if (!db)
-        rc = cli_usage(command, "--db FILE is required");
-    else if (n_pos == 0)
+    if (n_pos == 0)
         rc = cli_usage(command, "no input files (use '-' for standard input)");
     else if (kind == CC_RECORD_LABELS &&
              (cli_get(opts, n_opts, "classes") || cli_get(opts, n_opts, "members") ||

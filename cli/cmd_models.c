@@ -12,7 +12,7 @@
 #include "store_slices.h"
 
 const char help_models[] =
-    "usage: concord models --db FILE [--format text|json] [-o FILE]\n\n"
+    "usage: concord models --db FILE|--store URL [--format text|json] [-o FILE]\n\n"
     "Lists the models the database holds: members, classes, the days with events\n"
     "(first..last), events, the labelled share, labels still waiting for their event,\n"
     "pruned days, the baseline, and the slices (one per segment, with their events;\n"
@@ -21,7 +21,9 @@ const char help_models[] =
     "previous schema is read as it is, without slices.\n\n"
     "  --format text|json  text for people (default), or one JSON object {\"models\": [...]}\n"
     "                      whose keys are described in the README\n"
-    "  -o FILE             write there instead of standard output\n\n"
+    "  -o FILE             write there instead of standard output\n"
+    CLI_HELP_STORE_CLUSTER
+    "                   (a cluster has no pruned days and no waiting labels: both show 0)\n\n"
     "exit: 0 ok (also for a database without models), 2 usage, 3 file or database error\n";
 
 static const char *const kind_names[] = {"segment", "none", "overflow", "pruned"};
@@ -164,8 +166,8 @@ static void model_text(FILE *f, const cJSON *o)
 
 int cmd_models(int argc, char **argv)
 {
-    cli_opt opts[] = {{"db", 0, 1, NULL}, {"format", 0, 1, NULL}, {"output", 'o', 1, NULL}};
-    int n_opts = 3, n_pos, help;
+    cli_opt opts[] = {CLI_STORE_OPTS, {"format", 0, 1, NULL}, {"output", 'o', 1, NULL}};
+    int n_opts = (int)(sizeof opts / sizeof *opts), n_pos, help;
     char *pos[64];
     if (argc > 64 || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, "models"))
         return EXIT_USAGE;
@@ -173,9 +175,9 @@ int cmd_models(int argc, char **argv)
         fputs(help_models, stdout);
         return EXIT_OK;
     }
-    const char *db = cli_get(opts, n_opts, "db"), *format = cli_get(opts, n_opts, "format");
-    if (!db)
-        return cli_usage("models", "--db FILE is required");
+    const char *db, *url, *format = cli_get(opts, n_opts, "format");
+    if (cli_store_name("models", opts, n_opts, CLI_STORE_CLUSTER, &db, &url))
+        return EXIT_USAGE;
     if (n_pos)
         return cli_usage("models", "unexpected argument '%s'", pos[0]);
     int json = format && strcmp(format, "json") == 0;
@@ -186,7 +188,7 @@ int cmd_models(int argc, char **argv)
     cc_store *store = NULL;
     char **names = NULL;
     int n = 0, rc = EXIT_OK;
-    if (cli_store_open(&store, db, CC_STORE_READONLY, &err) ||
+    if (cli_store_open_named(db, url, CC_STORE_READONLY, &store, &err) ||
         cc_store_model_list(store, &names, &n, &err)) {
         rc = cli_fail(&err);
         cc_store_close(store);
@@ -211,7 +213,7 @@ int cmd_models(int argc, char **argv)
             int i = 0;
             if (f) {
                 if (n == 0)
-                    fprintf(f, "no models in %s\n", db);
+                    fprintf(f, "no models in %s\n", url ? url : db);
                 cJSON_ArrayForEach(it, arr) {
                     if (i++)
                         fputc('\n', f);

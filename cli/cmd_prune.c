@@ -9,7 +9,7 @@
 #include "store.h"
 
 const char help_prune[] =
-    "usage: concord prune --db FILE --model NAME --before DATE [--dry-run]\n\n"
+    "usage: concord prune --db FILE|--store URL --model NAME --before DATE [--dry-run]\n\n"
     "Deletes the stored event rows of the model's days before DATE (UTC) and keeps\n"
     "those days' summaries, so reports, baselines and alert checks on them go on\n"
     "working; review and show can no longer list their events, and say so. The summary\n"
@@ -17,14 +17,15 @@ const char help_prune[] =
     "still proves every summary. Events for a pruned day are refused by later ingests\n"
     "(their ids can no longer be checked for duplicates). One transaction per day;\n"
     "other writers get the lock between days.\n\n"
-    "  --dry-run   list the days that would be pruned, change nothing\n\n"
+    "  --dry-run   list the days that would be pruned, change nothing\n"
+    CLI_HELP_STORE_WRITES "\n"
     "exit: 0 ok, 2 usage, 3 file or database error, 4 unknown model\n";
 
 int cmd_prune(int argc, char **argv)
 {
-    cli_opt opts[] = {{"db", 0, 1, NULL}, {"model", 0, 1, NULL}, {"before", 0, 1, NULL},
+    cli_opt opts[] = {CLI_STORE_OPTS, {"model", 0, 1, NULL}, {"before", 0, 1, NULL},
                       {"dry-run", 0, 0, NULL}};
-    int n_opts = 4, n_pos, help;
+    int n_opts = (int)(sizeof opts / sizeof *opts), n_pos, help;
     char *pos[64];
     if (argc > 64 || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, "prune"))
         return EXIT_USAGE;
@@ -32,12 +33,14 @@ int cmd_prune(int argc, char **argv)
         fputs(help_prune, stdout);
         return EXIT_OK;
     }
-    const char *db = cli_get(opts, n_opts, "db"), *model = cli_get(opts, n_opts, "model");
+    const char *db, *url, *model = cli_get(opts, n_opts, "model");
     const char *bv = cli_get(opts, n_opts, "before");
     int dry = cli_get(opts, n_opts, "dry-run") != NULL;
     int64_t before;
-    if (!db || !model || !bv)
-        return cli_usage("prune", "--db, --model and --before are required");
+    if (cli_store_name("prune", opts, n_opts, CLI_STORE_WRITES, &db, &url))
+        return EXIT_USAGE;
+    if (!model || !bv)
+        return cli_usage("prune", "--model and --before are required");
     if (n_pos)
         return cli_usage("prune", "unexpected argument '%s'", pos[0]);
     if (cli_date("prune", "before", bv, &before))

@@ -15,7 +15,7 @@
 const char help_rules[] =
     "usage: concord rules init [-o FILE] [--force]\n"
     "       concord rules check FILE\n"
-    "       concord rules validate [FILE] --db DB [--model NAME]\n"
+    "       concord rules validate [FILE] --db DB|--store URL [--model NAME]\n"
     "       concord rules paths\n\n"
     "init      writes the default rules (diversity collapse, mutual-information rise,\n"
     "          member departs, class-mix drift, score drift, label shift, accuracy drop,\n"
@@ -26,7 +26,8 @@ const char help_rules[] =
     "validate  replays FILE (default: the default rules) over each model's baseline\n"
     "          days, from a fresh state and recording nothing, and warns about every\n"
     "          rule that would breach or be raised there, and every rule that could\n"
-    "          not judge some of those days\n"
+    "          not judge some of those days; --store takes sqlite:FILE or a\n"
+    "          clickhouse://HOST:PORT/DATABASE cluster (its merged figures)\n"
     "paths     lists the figures a rule may name, their scope (window, member,\n"
     "          class) and whether sigma conditions work (tracked figures)\n\n"
     "exit: 0 ok, 1 invalid rules file, 2 usage, 3 file error, 4 unknown model,\n"
@@ -96,13 +97,13 @@ static int validate_model(cc_store *store, const char *file, const char *model, 
     return EXIT_OK;
 }
 
-static int validate(const char *file, const char *db, const char *model)
+static int validate(const char *file, const char *db, const char *url, const char *model)
 {
     cc_error err = CC_ERROR_INIT;
     cc_store *store = NULL;
     char **models = NULL;
     int n = 0, rc = EXIT_OK, warned = 0;
-    if (cc_store_open(&store, db, 0, &err))
+    if (cli_store_open_named(db, url, 0, &store, &err))
         return cli_fail(&err);
     if (model) {
         rc = validate_model(store, file, model, &warned);
@@ -178,9 +179,9 @@ static int check(const char *path)
 
 int cmd_rules(int argc, char **argv)
 {
-    cli_opt opts[] = {{"output", 'o', 1, NULL}, {"force", 0, 0, NULL}, {"db", 0, 1, NULL},
+    cli_opt opts[] = {{"output", 'o', 1, NULL}, {"force", 0, 0, NULL}, CLI_STORE_OPTS,
                       {"model", 0, 1, NULL}};
-    int n_opts = 4, n_pos, help;
+    int n_opts = (int)(sizeof opts / sizeof *opts), n_pos, help;
     char *pos[64];
     if (argc > 64 || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, "rules"))
         return EXIT_USAGE;
@@ -191,13 +192,14 @@ int cmd_rules(int argc, char **argv)
     if (n_pos == 0)
         return cli_usage("rules", "say init, check FILE, validate [FILE] --db DB or paths");
     if (strcmp(pos[0], "validate") == 0 && n_pos <= 2) {
-        if (!cli_get(opts, n_opts, "db"))
-            return cli_usage("rules", "validate needs --db");
-        return validate(n_pos == 2 ? pos[1] : NULL, cli_get(opts, n_opts, "db"),
-                        cli_get(opts, n_opts, "model"));
+        const char *db, *url;
+        if (cli_store_name("rules", opts, n_opts, CLI_STORE_CLUSTER, &db, &url))
+            return EXIT_USAGE;
+        return validate(n_pos == 2 ? pos[1] : NULL, db, url, cli_get(opts, n_opts, "model"));
     }
-    if (cli_get(opts, n_opts, "db") || cli_get(opts, n_opts, "model"))
-        return cli_usage("rules", "--db and --model belong to 'rules validate'");
+    if (cli_get(opts, n_opts, "db") || cli_get(opts, n_opts, "store") ||
+        cli_get(opts, n_opts, "model"))
+        return cli_usage("rules", "--db, --store and --model belong to 'rules validate'");
     if (strcmp(pos[0], "init") == 0 && n_pos == 1)
         return init(cli_get(opts, n_opts, "output"), cli_get(opts, n_opts, "force") != NULL);
     if (cli_get(opts, n_opts, "output") || cli_get(opts, n_opts, "force"))

@@ -11,7 +11,7 @@
 #include "store_slices.h"
 
 const char help_verify[] =
-    "usage: concord verify --db FILE --model NAME [--deep]\n\n"
+    "usage: concord verify --db FILE|--store URL --model NAME [--deep]\n\n"
     "Recomputes every day's summary from the stored events and labels (adding, for a\n"
     "pruned day, the part kept for its deleted rows) and compares it, counter by\n"
     "counter, with the summary the reports read. Prints one line per day. Also reports\n"
@@ -20,7 +20,13 @@ const char help_verify[] =
     "segment): on every day their summaries must add up to the model's, counter by\n"
     "counter, and each slice's summary must equal its rows plus its pruned part.\n"
     "Reads one snapshot; writes nothing.\n\n"
-    "  --deep   also run SQLite's PRAGMA integrity_check on the whole file\n\n"
+    "  --deep   also run SQLite's PRAGMA integrity_check on the whole file\n"
+    "  --store URL  sqlite:FILE is --db FILE. On a cluster, clickhouse://HOST:PORT/DATABASE,\n"
+    "           where the hosts' rows are not rebuilt into summaries, verify proves the\n"
+    "           merged view: every day's vector has the model's layout (its length and\n"
+    "           counters decode), and on every day the slices' merged vectors add up to\n"
+    "           the model's merged vector, counter by counter, with no slice on a day the\n"
+    "           model lacks. Each host proves its own rows with verify --db.\n\n"
     "exit: 0 nothing found, 1 some finding (listed), 2 usage, 3 file or database error,\n"
     "4 unknown model\n";
 
@@ -62,7 +68,7 @@ static int find_day(const int64_t *days, int n, int64_t day)
  * slice has a day the model lacks. Prints the mismatches and a total line;
  * *found = 1 when there is any. */
 static int verify_slices(cc_store *store, const cc_model *m, const int64_t *days, int n_days,
-                         int *found, cc_error *err)
+                         int with_rows, int *found, cc_error *err)
 {
     cc_slice *list = NULL;
     cc_summary **rows = NULL, *stored = NULL, *sum = NULL, *one = NULL, *pruned = NULL;
@@ -90,18 +96,20 @@ static int verify_slices(cc_store *store, const cc_model *m, const int64_t *days
         char date[11];
         cc_format_date(days[d], date);
         if ((rc = cc_store_summary_get(store, m, days[d], stored, err)) ||
-            (rc = cc_store_slice_from_rows(store, m, days[d], list, n, rows, err)))
+            (with_rows && (rc = cc_store_slice_from_rows(store, m, days[d], list, n, rows, err))))
             goto done;
         cc_summary_clear(sum);
         for (int i = 0; i < n; i++) {
             int was_pruned;
             if ((rc = cc_store_slice_summary_get(store, m, days[d], list[i].id, one, err)) ||
-                (rc = cc_store_slice_pruned_get(store, m, days[d], list[i].id, &was_pruned,
-                                                pruned, err)))
+                (with_rows && (rc = cc_store_slice_pruned_get(store, m, days[d], list[i].id,
+                                                              &was_pruned, pruned, err))))
                 goto done;
             cc_summary_merge(sum, one);
-            cc_summary_merge(rows[i], pruned);
             checked++;
+            if (!with_rows)
+                continue;
+            cc_summary_merge(rows[i], pruned);
             if (!cc_summary_equal(one, rows[i])) {
                 bad_slice++;
                 printf("%s slice '%s': MISMATCH: its summary differs from its rows plus its "
@@ -146,10 +154,56 @@ done:
     return rc;
 }
 
+/* verify on a cluster: each day's merged vector read with the model's
+ * layout, then the slices' sums (verify_slices without rows). */
+static int verify_cluster(const char *url, const char *model)
+{
+    cc_error err = CC_ERROR_INIT;
+    cc_store *store = NULL;
+    cc_model *m = NULL;
+    cc_summary *stored = NULL;
+    int64_t *days = NULL;
+    int n_days = 0, found = 0, rc = EXIT_OK;
+    if (cli_store_open_named(NULL, url, CC_STORE_READONLY, &store, &err) ||
+        cc_store_model_get(store, model, &m, &err) ||
+        cc_store_summary_days(store, m, INT64_MIN / 4, INT64_MAX / 4, &days, &n_days, &err)) {
+        rc = cli_fail(&err);
+        goto done;
+    }
+    if (!(stored = cc_summary_create(m->m, m->k))) {
+        fprintf(stderr, "concord verify: out of memory\n");
+        rc = EXIT_IO;
+        goto done;
+    }
+    for (int i = 0; i < n_days; i++) {
+        char d[11];
+        cc_format_date(days[i], d);
+        if (cc_store_summary_get(store, m, days[i], stored, &err)) {
+            rc = cli_fail(&err);
+            goto done;
+        }
+        printf("%s %lld events ok (merged vector, %zu counters)\n", d,
+               (long long)cc_summary_data(stored)[cc_summary_layout(stored)->n_events],
+               cc_summary_layout(stored)->len);
+    }
+    printf("%d days read from the cluster %s; rows are verified on each host (verify --db)\n",
+           n_days, url);
+    if (verify_slices(store, m, days, n_days, 0, &found, &err))
+        rc = cli_fail(&err);
+    else
+        rc = found ? EXIT_REJECTED : EXIT_OK;
+done:
+    free(days);
+    cc_summary_free(stored);
+    cc_model_free(m);
+    cc_store_close(store);
+    return rc;
+}
+
 int cmd_verify(int argc, char **argv)
 {
-    cli_opt opts[] = {{"db", 0, 1, NULL}, {"model", 0, 1, NULL}, {"deep", 0, 0, NULL}};
-    int n_opts = 3, n_pos, help;
+    cli_opt opts[] = {CLI_STORE_OPTS, {"model", 0, 1, NULL}, {"deep", 0, 0, NULL}};
+    int n_opts = (int)(sizeof opts / sizeof *opts), n_pos, help;
     char *pos[64];
     if (argc > 64 || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, "verify"))
         return EXIT_USAGE;
@@ -157,11 +211,17 @@ int cmd_verify(int argc, char **argv)
         fputs(help_verify, stdout);
         return EXIT_OK;
     }
-    const char *db = cli_get(opts, n_opts, "db"), *model = cli_get(opts, n_opts, "model");
-    if (!db || !model)
-        return cli_usage("verify", "--db and --model are required");
+    const char *db, *url, *model = cli_get(opts, n_opts, "model");
+    if (cli_store_name("verify", opts, n_opts, CLI_STORE_CLUSTER, &db, &url))
+        return EXIT_USAGE;
+    if (!model)
+        return cli_usage("verify", "--model is required");
+    if (url && cli_get(opts, n_opts, "deep"))
+        return cli_usage("verify", "--deep checks a SQLite file; a cluster has none");
     if (n_pos)
         return cli_usage("verify", "unexpected argument '%s'", pos[0]);
+    if (url)
+        return verify_cluster(url, model);
 
     cc_error err = CC_ERROR_INIT;
     cc_store *store = NULL;
@@ -220,7 +280,7 @@ int cmd_verify(int argc, char **argv)
            "indexes out of range\n",
            n_days, bad, orphans, (long long)faults);
     int found = bad || orphans || faults, slices_found = 0;
-    if (verify_slices(store, m, days, n_days, &slices_found, &err)) {
+    if (verify_slices(store, m, days, n_days, 1, &slices_found, &err)) {
         rc = cli_fail(&err);
         goto done;
     }
