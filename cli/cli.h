@@ -100,6 +100,19 @@ int cmd_publish(int argc, char **argv);
 int cli_publish_store(struct cc_store *store, const char *db, const char *url,
                       const char *source, const char *command);
 extern const char help_publish[];
+/* --publish URL [--source NAME] of follow and serve: the publishing thread's
+ * hook (serve/publisher.h). cli_publish_hook_init checks the URL and the
+ * source (default: the host name), printing a usage error (EXIT_USAGE);
+ * cli_publish_hook_run is one publish run of s, each statement tried once
+ * (the thread's pauses stand for publish's retries), telling on stderr what
+ * it sent. */
+typedef struct cli_publish_hook {
+    const char *url, *source, *command;
+    char host[256];
+} cli_publish_hook;
+int cli_publish_hook_init(cli_publish_hook *h, const char *url, const char *source,
+                          const char *command);
+int cli_publish_hook_run(void *ctx, struct cc_store *s, cc_error *err);
 
 /* The wait bound in ms: --wait (any command accepts it), else CONCORD_WAIT,
  * else dflt_ms. */

@@ -10,13 +10,14 @@
 #include "cli.h"
 #include "utf8.h"
 #include "follow.h"
+#include "publisher.h"
 #include "rule.h"
 #include "webhook.h"
 
 const char help_follow[] =
-    "usage: concord follow --db FILE [--rules FILE] [--model NAME] [--labels FILE]\n"
-    "                      [--webhook URL] [--chunk N] [--interval MS] [--grace SECONDS]\n"
-    "                      PATH...\n\n"
+    "usage: concord follow --db FILE|--store URL [--rules FILE] [--model NAME]\n"
+    "                      [--labels FILE] [--webhook URL] [--chunk N] [--interval MS]\n"
+    "                      [--grace SECONDS] [--publish URL [--source NAME]] PATH...\n\n"
     "Tails growing JSON-lines files of prediction events (and --labels, a file of delayed\n"
     "labels): every new complete line is ingested, at most --chunk lines (2000) per\n"
     "transaction, together with the offset reached, so a restart resumes where it\n"
@@ -28,7 +29,14 @@ const char help_follow[] =
     "  --interval MS    how often to look for new lines (1000)\n"
     "  --wait SECONDS   how long one attempt waits for another writer's lock (60); follow\n"
     "                   does not stop on a locked database: it says so, backs off and\n"
-    "                   tries again, keeping what it has read\n\n"
+    "                   tries again, keeping what it has read\n"
+    "  --publish URL    publish to clickhouse://HOST:PORT/DATABASE after each poll that\n"
+    "                   committed lines, as 'concord publish' does (--source NAME, default\n"
+    "                   the host name), from a thread of its own: a cluster that is down\n"
+    "                   never stops the local ingest; the failure is said on stderr and\n"
+    "                   the publish tried again after a pause growing from 0.5 s to 30 s\n"
+    "                   (publishing again is idempotent: nothing lost or doubled)\n"
+    CLI_HELP_STORE_WRITES "\n"
     "exit: 0 stopped by a signal, 1 invalid rules file, 2 usage, 3 file or database error\n";
 
 static volatile sig_atomic_t stop_flag;
@@ -91,9 +99,10 @@ void cli_on_deliver(void *ctx, const cc_deliver_stats *st)
 
 int cmd_follow(int argc, char **argv)
 {
-    cli_opt opts[] = {{"db", 0, 1, NULL},      {"rules", 0, 1, NULL},   {"model", 0, 1, NULL},
+    cli_opt opts[] = {CLI_STORE_OPTS,          {"rules", 0, 1, NULL},   {"model", 0, 1, NULL},
                       {"labels", 0, 1, NULL},  {"webhook", 0, 1, NULL}, {"chunk", 0, 1, NULL},
-                      {"interval", 0, 1, NULL}, {"grace", 0, 1, NULL}};
+                      {"interval", 0, 1, NULL}, {"grace", 0, 1, NULL},
+                      {"publish", 0, 1, NULL}, {"source", 0, 1, NULL}};
     int n_opts = (int)(sizeof opts / sizeof *opts), n_pos, help;
     char **pos = calloc((size_t)argc + 1, sizeof *pos);
     if (!pos || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, "follow")) {
@@ -105,12 +114,19 @@ int cmd_follow(int argc, char **argv)
         fputs(help_follow, stdout);
         return EXIT_OK;
     }
-    const char *db = cli_get(opts, n_opts, "db"), *rules = cli_get(opts, n_opts, "rules");
+    const char *db, *url, *rules = cli_get(opts, n_opts, "rules");
     const char *hook = cli_get(opts, n_opts, "webhook");
+    const char *publish = cli_get(opts, n_opts, "publish");
     cc_follow_opts fo = CC_FOLLOW_OPTS_INIT;
+    cli_publish_hook ph;
     int rc = EXIT_OK;
-    if (!db)
-        rc = cli_usage("follow", "--db is required");
+    if (cli_store_name("follow", opts, n_opts, CLI_STORE_WRITES, &db, &url))
+        rc = EXIT_USAGE;
+    else if (cli_get(opts, n_opts, "source") && !publish)
+        rc = cli_usage("follow", "--source needs --publish");
+    else if (publish && cli_publish_hook_init(&ph, publish, cli_get(opts, n_opts, "source"),
+                                              "follow"))
+        rc = EXIT_USAGE;
     else if (n_pos == 0 && !cli_get(opts, n_opts, "labels"))
         rc = cli_usage("follow", "name the files to follow");
     else if (hook && !rules)
@@ -185,6 +201,17 @@ int cmd_follow(int argc, char **argv)
         err = (cc_error)CC_ERROR_INIT;
         nanosleep(&(struct timespec){5, 0}, NULL);
     }
+    cc_publisher *pub = NULL;
+    if (!opened && publish) {
+        cc_publisher_opts po = CC_PUBLISHER_OPTS_INIT;
+        po.db_path = db;
+        po.wait_ms = cli_wait_ms(60000);
+        po.publish = cli_publish_hook_run;
+        po.on_note = on_note;
+        po.publish_ctx = &ph;
+        opened = cc_publisher_start(&pub, &po, &err);
+        fo.publisher = pub;
+    }
     if (opened || cc_follow_run(store, &fo, &st, &err)) {
         rc = cli_fail(&err);
     } else {
@@ -194,6 +221,15 @@ int cmd_follow(int argc, char **argv)
                 (long long)st.lines, (long long)st.accepted, (long long)st.duplicates,
                 (long long)st.rejected, (long long)st.labels_set, (long long)st.rotations,
                 (long long)st.truncations, (long long)st.checks);
+    }
+    if (pub) {
+        cc_publisher_state ps;
+        cc_publisher_stop(pub, &ps);
+        fprintf(stderr, "concord follow: %lld publish run%s, %lld failed; %s\n",
+                (long long)ps.runs, ps.runs == 1 ? "" : "s", (long long)ps.failures,
+                ps.pending ? "the last commits are not published yet (the next publish sends "
+                             "them)" : "everything committed is published");
+        cc_publisher_free(pub);
     }
     cc_webhook_global_cleanup();
     cc_store_close(store);

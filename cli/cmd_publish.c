@@ -132,3 +132,53 @@ int cli_publish_store(cc_store *store, const char *db, const char *url, const ch
 {
     return publish_with(store, db, url, source, command, CC_PUBLISH_RETRY_DEFAULT_S);
 }
+
+int cli_publish_hook_init(cli_publish_hook *h, const char *url, const char *source,
+                          const char *command)
+{
+    memset(h, 0, sizeof *h);
+    h->command = command;
+    if (strncmp(url, "clickhouse://", 13) != 0)
+        return cli_usage(command, "--publish takes clickhouse://HOST:PORT/DATABASE, not '%s'",
+                         url);
+    h->url = url;
+    if (!source) {
+        if (gethostname(h->host, sizeof h->host) != 0)
+            return cli_usage(command, "cannot read the host name; give --source");
+        h->host[sizeof h->host - 1] = 0;
+        source = h->host;
+    }
+    if (!cc_publish_source_ok(source))
+        return cli_usage(command,
+                         "--source '%s': use 1 to 64 letters, digits, '_', '-' or '.'", source);
+    h->source = source;
+    cc_ch *ch = NULL;
+    cc_error err = CC_ERROR_INIT;
+    if (cc_ch_open(&ch, url, &err)) /* parses the URL; connects later */
+        return err.code == CC_EUSAGE ? cli_usage(command, "%s", err.msg) : cli_fail(&err);
+    cc_ch_close(ch);
+    return EXIT_OK;
+}
+
+int cli_publish_hook_run(void *ctx, cc_store *s, cc_error *err)
+{
+    const cli_publish_hook *h = ctx;
+    cc_publish_opts po = CC_PUBLISH_OPTS_INIT;
+    po.source = h->source;
+    po.retry_for_s = 0;
+    cc_ch *ch = NULL;
+    cc_publish_stats st;
+    int rc = cc_ch_open(&ch, h->url, err);
+    if (!rc)
+        rc = cc_publish_run(s, ch, &po, &st, err);
+    cc_ch_close(ch);
+    if (!rc && (st.days || st.events || st.labels_sent || st.labels_applied))
+        fprintf(stderr, "concord %s: published as '%s' (seq %lld): %lld summary vector%s (and "
+                        "%lld of slices), %lld event row%s, %lld waiting label%s sent, %lld "
+                        "applied\n",
+                h->command, h->source, (long long)st.seq, (long long)st.days,
+                st.days == 1 ? "" : "s", (long long)st.slice_days, (long long)st.events,
+                st.events == 1 ? "" : "s", (long long)st.labels_sent,
+                st.labels_sent == 1 ? "" : "s", (long long)st.labels_applied);
+    return rc;
+}

@@ -15,9 +15,10 @@
 #include "webhook.h"
 
 const char help_serve[] =
-    "usage: concord serve --db FILE [--listen ADDR:PORT] [--token-file FILE]\n"
+    "usage: concord serve --db FILE|--store URL [--listen ADDR:PORT] [--token-file FILE]\n"
     "                     [--read-token-file FILE] [--tls-cert FILE --tls-key FILE]\n"
-    "                     [--rules FILE [--webhook URL] [--grace SECONDS]] [limits]\n\n"
+    "                     [--rules FILE [--webhook URL] [--grace SECONDS]]\n"
+    "                     [--publish URL [--source NAME]] [limits]\n\n"
     "Serves the database over HTTP: POST /v1/models/NAME/events and .../labels take JSON\n"
     "Lines (the file format; Content-Type application/x-ndjson, optionally gzip) and answer\n"
     "only after the batch is committed; GET /v1/models, /v1/models/NAME/report (the bytes\n"
@@ -31,6 +32,12 @@ const char help_serve[] =
     "  --rules FILE         check each UTC day once closed for --grace seconds (300) and\n"
     "                       deliver notifications, as follow does; --webhook URL adds a\n"
     "                       receiver\n"
+    "  --publish URL        publish to clickhouse://HOST:PORT/DATABASE after group commits,\n"
+    "                       as 'concord publish' does (--source NAME, default the host\n"
+    "                       name), from a thread of its own that never holds up an answer;\n"
+    "                       a failed publish is said on stderr and tried again after a\n"
+    "                       pause growing from 0.5 s to 30 s; /v1/readyz shows its state\n"
+    CLI_HELP_STORE_WRITES
     "limits:\n"
     "  --max-body MIB       body size on the wire (16)\n"
     "  --max-decoded MIB    body size after gzip decoding (64)\n"
@@ -111,7 +118,8 @@ static int token_from(const char *file, const char *env, char **out)
 int cmd_serve(int argc, char **argv)
 {
     cli_opt opts[] = {
-        {"db", 0, 1, NULL},           {"listen", 0, 1, NULL},
+        CLI_STORE_OPTS,               {"listen", 0, 1, NULL},
+        {"publish", 0, 1, NULL},      {"source", 0, 1, NULL},
         {"token-file", 0, 1, NULL},   {"read-token-file", 0, 1, NULL},
         {"tls-cert", 0, 1, NULL},     {"tls-key", 0, 1, NULL},
         {"rules", 0, 1, NULL},        {"webhook", 0, 1, NULL},
@@ -129,11 +137,21 @@ int cmd_serve(int argc, char **argv)
         return EXIT_OK;
     }
     cc_serve_opts so = CC_SERVE_OPTS_INIT;
-    so.db_path = cli_get(opts, n_opts, "db");
+    const char *url;
+    if (cli_store_name("serve", opts, n_opts, CLI_STORE_WRITES, &so.db_path, &url))
+        return EXIT_USAGE;
+    const char *publish = cli_get(opts, n_opts, "publish");
+    static cli_publish_hook ph;
+    if (cli_get(opts, n_opts, "source") && !publish)
+        return cli_usage("serve", "--source needs --publish");
+    if (publish && cli_publish_hook_init(&ph, publish, cli_get(opts, n_opts, "source"), "serve"))
+        return EXIT_USAGE;
+    if (publish) {
+        so.publish = cli_publish_hook_run;
+        so.publish_ctx = &ph;
+    }
     const char *rules = cli_get(opts, n_opts, "rules"), *hook = cli_get(opts, n_opts, "webhook");
     const char *cert = cli_get(opts, n_opts, "tls-cert"), *key = cli_get(opts, n_opts, "tls-key");
-    if (!so.db_path)
-        return cli_usage("serve", "--db is required");
     if (n_pos)
         return cli_usage("serve", "unexpected argument '%s'", pos[0]);
     if (hook && !rules)

@@ -563,6 +563,51 @@ static int ch_event_read(cc_store *s, const cc_model *m, const char *id, int *fo
     return rc;
 }
 
+/* ---- the catalog (concord models): totals of the model's merged vectors ---- */
+
+/* Days with events, the first and last, events and labelled events, from
+ * the whole-model vectors (slice ""), as store_catalog.h asks. */
+static int ch_model_totals(cc_store *s, const cc_model *m, cc_model_totals *out, cc_error *err)
+{
+    ch_store *c = CH(s);
+    cc_layout l;
+    memset(out, 0, sizeof *out);
+    if (cc_layout_init(&l, m->m, m->k))
+        return cc_error_set(err, CC_EIO, "%s: model '%s' has a shape out of range", s->path,
+                            m->name);
+    cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
+    char head[320], tail[320];
+    snprintf(head, sizeof head,
+             "SELECT toInt64(count()), toInt64(min(day)), toInt64(max(day)), toInt64(sum(ev)), "
+             "toInt64(sum(lab)) FROM (SELECT day, sum(events) AS ev, sum(counters[%zu]) AS lab "
+             "FROM %s.summaries FINAL WHERE model = ",
+             l.n_labeled + 1, cc_ch_database(c->ch));
+    cc_buf_put(&sql, head, strlen(head));
+    cc_ch_quote(&sql, m->name);
+    snprintf(tail, sizeof tail,
+             " AND slice = '' AND layout_version = %d GROUP BY day HAVING ev > 0) "
+             "FORMAT RowBinary", CC_SUMMARY_VERSION);
+    int rc = select_rb(c, &sql, tail, &ans, err);
+    cc_rb rb = {ans.p, ans.p + ans.len};
+    int64_t days = 0;
+    if (!rc && (cc_rb_i64(&rb, &days) || cc_rb_i64(&rb, &out->first_day) ||
+                cc_rb_i64(&rb, &out->last_day) || cc_rb_i64(&rb, &out->events) ||
+                cc_rb_i64(&rb, &out->labeled)))
+        rc = cc_error_set(err, CC_EIO, "%s: a truncated totals row", s->path);
+    cc_buf_free(&ans);
+    out->days = (int)days;
+    return rc;
+}
+
+/* The cluster keeps no record of days a host pruned: none. */
+static int ch_pruned_range(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+                           cc_pruned_range *out, cc_error *err)
+{
+    (void)s, (void)m, (void)from, (void)to, (void)err;
+    memset(out, 0, sizeof *out);
+    return 0;
+}
+
 static const cc_store_backend ch_backend = {
     .version = CC_STORE_BACKEND_VERSION,
     .size = sizeof(cc_store_backend),
@@ -583,6 +628,9 @@ static const cc_store_backend ch_backend = {
     .slice_overview = ch_slice_overview,
     .slice_summary_get = ch_slice_summary_get,
     .slice_summary_days = ch_slice_summary_days,
+    /* the catalog (concord models --store); added after the row ops above */
+    .model_totals = ch_model_totals,
+    .pruned_range = ch_pruned_range,
 };
 
 int cc_ch_store_open(cc_store **out, const char *url, cc_error *err)

@@ -399,6 +399,9 @@ int cc_follow_run(cc_store *s, const cc_follow_opts *o, cc_follow_stats *stats, 
         rc = open_tail(f, &tails[i], 1, err);
 
     cc_follow_clock clk = CC_FOLLOW_CLOCK_INIT;
+    int64_t published_chunks = stats->chunks;
+    if (!rc)
+        cc_publisher_poke(o->publisher); /* what an earlier run left unpublished */
     while (!rc && !*o->stop) {
         for (int i = 0; !rc && i < n && !*o->stop; i++) {
             tail *t = &tails[i];
@@ -413,6 +416,10 @@ int cc_follow_run(cc_store *s, const cc_follow_opts *o, cc_follow_stats *stats, 
             if (!rc && !*o->stop)
                 rc = watch(f, t, got, err);
         }
+        if (!rc && stats->chunks != published_chunks) {
+            cc_publisher_poke(o->publisher);
+            published_chunks = stats->chunks;
+        }
         if (!rc && !*o->stop && o->rules)
             rc = cc_follow_day_close(s, o, &clk, stats, err);
         if (rc && !*o->stop && busy_backoff(f, &tries, err)) {
@@ -426,6 +433,8 @@ int cc_follow_run(cc_store *s, const cc_follow_opts *o, cc_follow_stats *stats, 
     }
     if (!rc)
         rc = flush_chunk(f, err);
+    if (!rc && stats->chunks != published_chunks)
+        cc_publisher_poke(o->publisher);
     for (int i = 0; i < n; i++) {
         if (tails[i].fd >= 0)
             close(tails[i].fd);

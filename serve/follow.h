@@ -15,6 +15,7 @@
 #include "deliver.h"
 #include "error.h"
 #include "ingest.h"
+#include "publisher.h"
 #include "rule.h"
 #include "store.h"
 
@@ -39,11 +40,13 @@ typedef struct cc_follow_opts {
     void (*on_check)(void *ctx, const cc_check_result *r);
     void (*on_deliver)(void *ctx, const cc_deliver_stats *st);
     void *ctx;
+    cc_publisher *publisher;        /* poked once at start and after each poll that
+                                       committed something; NULL: no publishing */
 } cc_follow_opts;
 
 #define CC_FOLLOW_OPTS_INIT \
     {NULL, 0, NULL, "default", 0, 2000, 1000, 300, 60, NULL, NULL, 0, NULL, NULL, NULL, NULL, \
-     NULL, NULL, NULL, NULL}
+     NULL, NULL, NULL, NULL, NULL}
 
 typedef struct cc_follow_stats {
     int64_t lines, accepted, duplicates, rejected, labels_set;

@@ -24,6 +24,7 @@
 #include "body.h"
 #include "follow.h"
 #include "openmetrics.h"
+#include "publisher.h"
 #include "utf8.h"
 #include "writer.h"
 
@@ -32,6 +33,7 @@
 typedef struct server {
     const cc_serve_opts *o;
     cc_writer *writer;
+    cc_publisher *publisher;    /* NULL: not publishing */
     struct MHD_Daemon *daemon;
     pthread_mutex_t mu;         /* orders suspend (handler) before resume (writer) */
     atomic_llong held;          /* body bytes held over all requests */
@@ -308,6 +310,30 @@ static enum MHD_Result status_ok(struct MHD_Connection *c, unsigned status, cons
     return send_json(c, status, doc);
 }
 
+/* Ready; with publishing, where it stands: runs, failures (in a row too),
+ * commits not yet published and the last success (Unix time, null for
+ * none). A cluster that is down does not make the server unready: it
+ * ingests locally and publishes later. */
+static enum MHD_Result ready_ok(server *s, struct MHD_Connection *c)
+{
+    cJSON *doc = cJSON_CreateObject();
+    cJSON_AddStringToObject(doc, "status", "ready");
+    if (s->publisher) {
+        cc_publisher_state ps;
+        cc_publisher_state_get(s->publisher, &ps);
+        cJSON *p = cJSON_AddObjectToObject(doc, "publish");
+        cJSON_AddNumberToObject(p, "runs", (double)ps.runs);
+        cJSON_AddNumberToObject(p, "failures", (double)ps.failures);
+        cJSON_AddNumberToObject(p, "failures_in_a_row", (double)ps.consecutive_failures);
+        cJSON_AddNumberToObject(p, "pending_commits", (double)ps.pending);
+        if (ps.last_ok_unix)
+            cJSON_AddNumberToObject(p, "last_ok", (double)ps.last_ok_unix);
+        else
+            cJSON_AddNullToObject(p, "last_ok");
+    }
+    return send_json(c, 200, doc);
+}
+
 /* ---- POST ---- */
 
 static enum MHD_Result send_job(struct MHD_Connection *c, const cc_write_job *j)
@@ -552,7 +578,7 @@ static enum MHD_Result route(server *s, struct MHD_Connection *c, request *rq, c
     if (p == P_HEALTH)
         return status_ok(c, 200, "ok");
     if (p == P_READY)
-        return cc_writer_ready(s->writer) ? status_ok(c, 200, "ready")
+        return cc_writer_ready(s->writer) ? ready_ok(s, c)
                                           : send_error(c, 503, NULL, "not ready: the ingest "
                                                        "queue is full or the store failed");
     int verdict = cc_auth_check(auth, s->o->write_token, s->o->read_token, post_path);
@@ -824,9 +850,30 @@ int cc_serve_run(const cc_serve_opts *o, cc_error *err)
     rules_thread rt = {.s = &s};
     if (o->rules && pthread_create(&rt.t, NULL, rules_main, &rt) == 0)
         rt.started = 1;
+    if (o->publish) {
+        cc_publisher_opts po = CC_PUBLISHER_OPTS_INIT;
+        po.db_path = o->db_path;
+        po.wait_ms = o->wait_ms;
+        po.publish = o->publish;
+        po.publish_ctx = o->publish_ctx;
+        po.on_note = o->on_note;
+        po.ctx = o->ctx;
+        cc_error perr = CC_ERROR_INIT;
+        if (cc_publisher_start(&s.publisher, &po, &perr))
+            note(&s, "not publishing: %s", perr.msg);
+        /* what an earlier run left unpublished goes first */
+        cc_publisher_poke(s.publisher);
+    }
+    int64_t published_commits = cc_writer_commits(s.writer);
 
-    while (!*o->stop)
+    while (!*o->stop) {
         sleep_ms(100);
+        int64_t commits = cc_writer_commits(s.writer);
+        if (commits != published_commits) {
+            cc_publisher_poke(s.publisher);
+            published_commits = commits;
+        }
+    }
 
     /* stop accepting; let bodies being received arrive (bounded), then the
      * writer commits and answers all that is queued */
@@ -841,6 +888,17 @@ int cc_serve_run(const cc_serve_opts *o, cc_error *err)
     for (int i = 0; i < 50 && atomic_load(&s.active) > 0; i++)
         sleep_ms(100);
     MHD_stop_daemon(s.daemon);
+    if (s.publisher) {
+        if (cc_writer_commits(s.writer) != published_commits)
+            cc_publisher_poke(s.publisher);
+        cc_publisher_state ps;
+        cc_publisher_stop(s.publisher, &ps);
+        note(&s, "publish: %lld run%s, %lld failed; %s", (long long)ps.runs,
+             ps.runs == 1 ? "" : "s", (long long)ps.failures,
+             ps.pending ? "the last commits are not published yet (the next publish sends them)"
+                        : "everything committed is published");
+        cc_publisher_free(s.publisher);
+    }
     cc_writer_free(s.writer);
     if (rt.started) {
         atomic_store(&rt.quit, 1);

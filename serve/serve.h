@@ -47,12 +47,17 @@ typedef struct cc_serve_opts {
     volatile sig_atomic_t *stop;
     void (*on_note)(void *ctx, const char *message);
     void *ctx;
+    /* publishing (publisher.h): one run of the hook after group commits, from
+     * a thread of its own, never holding up an answer; NULL: none. /v1/readyz
+     * tells where it stands. */
+    int (*publish)(void *publish_ctx, cc_store *s, cc_error *err);
+    void *publish_ctx;
 } cc_serve_opts;
 
 #define CC_SERVE_OPTS_INIT                                                                    \
     {NULL, "127.0.0.1:8750", NULL, NULL, NULL, NULL, (size_t)16 << 20, (size_t)64 << 20,    \
      (size_t)96 << 20, 64, 1024, 30, 120, 4, 0, 60000, NULL, NULL, NULL, 0, 300, 60, NULL,   \
-     NULL, NULL, NULL, NULL, NULL}
+     NULL, NULL, NULL, NULL, NULL, NULL, NULL}
 
 /* 1 when the address is a loopback one (127.0.0.0/8, ::1), 0 when not, and
  * -CC_EUSAGE with err set when it does not parse. */
