@@ -28,6 +28,7 @@ struct cc_evaluator {
     cc_store *store;
     char *model;
     int64_t model_id;
+    int m, k;                   /* the model's shape (a cluster store reads by it) */
     int64_t day;
     cached cache[CACHE_MAX];
     int n_cache;
@@ -71,6 +72,8 @@ int cc_eval_create(cc_evaluator **out, cc_store *store, const char *model, int64
     }
     ev->store = store;
     ev->model_id = m->id;
+    ev->m = m->m;
+    ev->k = m->k;
     ev->day = day;
     cc_model_free(m);
     *out = ev;
@@ -149,7 +152,7 @@ int cc_eval_report_slice(cc_evaluator *ev, int64_t day, const char *slice,
 /* Days from the newest day up to `day` with labelled events; NAN if none. */
 static int label_age(cc_evaluator *ev, int64_t day, double *out, cc_error *err)
 {
-    cc_model m = {.id = ev->model_id, .name = ev->model};
+    cc_model m = {.id = ev->model_id, .name = ev->model, .m = ev->m, .k = ev->k};
     int64_t last = 0;
     int found = 0;
     int rc = cc_store_labeled_day_last(ev->store, &m, day, &found, &last, err);
