@@ -130,6 +130,15 @@ void cc_publisher_poke(cc_publisher *p)
         atomic_fetch_add(&p->poked, 1);
 }
 
+void cc_publisher_poke_to(cc_publisher *p, int64_t n)
+{
+    if (!p)
+        return;
+    long long cur = atomic_load(&p->poked);
+    while (cur < n && !atomic_compare_exchange_weak(&p->poked, &cur, (long long)n))
+        ;
+}
+
 void cc_publisher_state_get(cc_publisher *p, cc_publisher_state *out)
 {
     pthread_mutex_lock(&p->mu);

@@ -39,8 +39,12 @@ typedef struct cc_publisher cc_publisher;
 
 /* Starts the thread (the store is opened there, on the first run). */
 int cc_publisher_start(cc_publisher **out, const cc_publisher_opts *o, cc_error *err);
-/* Something was committed: publish it soon. Cheap; any thread. */
+/* Something was committed: publish it soon. Cheap; any thread; p may be
+ * NULL. _to: the commits told so far are at least n (a counter the caller
+ * keeps, such as a writer's commit count plus one, so telling it again is
+ * harmless). */
 void cc_publisher_poke(cc_publisher *p);
+void cc_publisher_poke_to(cc_publisher *p, int64_t n);
 void cc_publisher_state_get(cc_publisher *p, cc_publisher_state *out);
 /* Makes one last run when something is pending (telling when it fails:
  * the next start publishes it), joins the thread, closes its store.

@@ -182,12 +182,14 @@ code=$(curl -s -m 120 -o "$T/post.out" -w '%{http_code}' -X POST \
   -H 'Content-Type: application/x-ndjson' --data-binary @"$T/d/labels.jsonl" \
   "http://127.0.0.1:$SPORT/v1/models/sgrader/labels")
 [ "$code" = 200 ] || fail "POST labels: $code $(cat "$T/post.out")"
+cluster_has_s() { [ "$(count events sgrader)" = "$1" ]; }
 published() {
   curl -s -m 60 "http://127.0.0.1:$SPORT/v1/readyz" > "$T/ready.json" &&
     /usr/bin/python3 -c 'import json,sys; p=json.load(open(sys.argv[1]))["publish"]; sys.exit(0 if p["pending_commits"] == 0 and p["runs"] > 0 and p["last_ok"] else 1)' "$T/ready.json"
 }
-wait_for "serve's commits published" published || fail "readyz: $(cat "$T/ready.json")"
-[ "$(count events sgrader)" = 3360 ] || fail "serve --publish: $(count events sgrader) events in the cluster"
+wait_for "serve's events in the cluster" cluster_has_s 3360 \
+  || fail "serve --publish: $(count events sgrader) events in the cluster: $(cat "$T/serve.err")"
+wait_for "readyz telling serve's commits published" published || fail "readyz: $(cat "$T/ready.json")"
 kill -TERM "$SPID"
 rc=0; wait "$SPID" || rc=$?
 SPID=
