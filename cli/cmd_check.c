@@ -21,7 +21,7 @@
 const char help_check[] =
     "usage: concord check --db FILE [--store URL] --rules FILE [--model NAME]\n"
     "                     [--day DATE | --from DATE --to DATE] [--dry-run] [--webhook URL]\n"
-    "                     [--no-deliver]"
+    "                     [--no-deliver]\n"
     "                     [--format text|json]\n\n"
     "Evaluates every rule of the rules file on the latest complete UTC day (or --day) for\n"
     "every model (or --model), advances each rule's state (quiet, building, raised,\n"

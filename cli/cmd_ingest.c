@@ -10,8 +10,8 @@
 #include "utf8.h"
 
 const char help_ingest[] =
-    "usage: concord ingest --db FILE|--store URL [--model NAME] [--classes A,B,...] [--members X,Y,...]\n"
-    "                      [--max-slices N] [--strict] [--batch N] [--quiet]\n"
+    "usage: concord ingest --db FILE|--store URL [--model NAME] [--classes A,B,...]\n"
+    "                      [--members X,Y,...] [--max-slices N] [--strict] [--batch N] [--quiet]\n"
     "                      [--publish URL [--source NAME]] FILE...\n\n"
     "Reads prediction events, one JSON object per line ('-' reads standard input), and\n"
     "stores each with the per-day summaries it adds to. Lines that fail validation are\n"
