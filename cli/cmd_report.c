@@ -150,13 +150,13 @@ static int hour_bound(const char *opt, const char *text, int is_to, int64_t *out
 
 int cmd_report(int argc, char **argv)
 {
-    cli_opt opts[] = {{"db", 0, 1, NULL},  {"model", 0, 1, NULL},  {"from", 0, 1, NULL},
+    cli_opt opts[] = {CLI_STORE_OPTS,      {"model", 0, 1, NULL},  {"from", 0, 1, NULL},
                       {"to", 0, 1, NULL},  {"by", 0, 1, NULL},     {"format", 0, 1, NULL},
                       {"output", 'o', 1, NULL}, {"no-review", 0, 0, NULL},
-                      {"rules", 0, 1, NULL}, {"store", 0, 1, NULL},
+                      {"rules", 0, 1, NULL},
                       {"segment", 0, 1, NULL}, {"by-segment", 0, 0, NULL},
                       {"review-max", 0, 1, NULL}};
-    int n_opts = 13, n_pos, help;
+    int n_opts = (int)(sizeof opts / sizeof *opts), n_pos, help;
     char *pos[64];
     if (argc > 64 || cli_parse(argc, argv, opts, n_opts, pos, &n_pos, &help, "report"))
         return EXIT_USAGE;
@@ -165,13 +165,14 @@ int cmd_report(int argc, char **argv)
         return EXIT_OK;
     }
     cc_report_opts ro = {0};
-    const char *db = cli_get(opts, n_opts, "db");
+    const char *db, *url;
+    if (cli_store_name("report", opts, n_opts, CLI_STORE_CLUSTER, &db, &url))
+        return EXIT_USAGE;
     const char *by = cli_get(opts, n_opts, "by"), *format = cli_get(opts, n_opts, "format");
     const char *out = cli_get(opts, n_opts, "output");
     ro.model = cli_get(opts, n_opts, "model");
-    const char *url = cli_get(opts, n_opts, "store");
-    if ((!db && !url) || !ro.model)
-        return cli_usage("report", "--db (or --store) and --model are required");
+    if (!ro.model)
+        return cli_usage("report", "--model is required");
     if (n_pos)
         return cli_usage("report", "unexpected argument '%s'", pos[0]);
     if (by && strcmp(by, "hour") == 0) {
