@@ -152,7 +152,9 @@ wait_for "follow ingesting everything" local_has 3360
 ch_start 1
 wait_for "the publish catching up after the restart" cluster_has 3360 \
   || fail "not caught up: $(count events fgrader) events in the cluster"
-grep -q "caught up after" "$T/follow.err" || fail "no catch-up said: $(cat "$T/follow.err")"
+# (the rows are in before the run ends and says so)
+wait_for "follow saying it caught up" grep -q "caught up after" "$T/follow.err" \
+  || fail "no catch-up said: $(cat "$T/follow.err")"
 kill -TERM "$FPID"
 rc=0; wait "$FPID" || rc=$?
 FPID=
