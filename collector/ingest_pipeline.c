@@ -7,7 +7,6 @@
 #include "ingest_pipeline.h"
 
 #include <errno.h>
-#include <math.h>
 #include <pthread.h>
 #include <stdlib.h>
 #include <string.h>
@@ -110,6 +109,7 @@ static void parse_event_line(chunk *c, cc_pipe_line *L, const char *text, cc_par
     cc_event_view v;
     if (cc_event_view_compute(&v, probs, ev.m, ev.k, -1))
         return;
+    cc_event_view_uncertainty(&v, probs);
     size_t ints = ((size_t)ev.m + (size_t)ev.k) * sizeof(int);
     at = reserve(c, (size_t)ev.k * sizeof(double) + ints, sizeof(double));
     if (at == NONE) {
@@ -129,6 +129,9 @@ static void parse_event_line(chunk *c, cc_pipe_line *L, const char *text, cc_par
     L->vote_tie = v.vote_tie;
     L->unanimous = v.unanimous;
     L->disagreement = v.disagreement;
+    L->entropy = v.entropy;
+    L->expected_entropy = v.expected_entropy;
+    L->mutual_information = v.mutual_information;
     L->has_view = 1;
 }
 
@@ -437,6 +440,8 @@ void cc_pipe_view(const cc_pipe_line *L, int label, cc_event_view *out)
     out->vote_tie = L->vote_tie;
     out->unanimous = L->unanimous;
     out->disagreement = L->disagreement;
-    out->entropy = out->expected_entropy = out->mutual_information = NAN;
+    out->entropy = L->entropy;
+    out->expected_entropy = L->expected_entropy;
+    out->mutual_information = L->mutual_information;
     cc_event_view_set_label(out, label);
 }

@@ -40,7 +40,7 @@ typedef struct cc_pipe_line {
     cc_label_line lab;       /* labels */
     /* the label-free part of cc_event_view, see cc_pipe_view */
     int ens, second, vote, vote_tie, unanimous;
-    double margin, disagreement;
+    double margin, disagreement, entropy, expected_entropy, mutual_information;
     const int *member_class, *votes;
     const double *avg;
     /* offsets into the chunk's arena while the worker fills it */
@@ -69,7 +69,8 @@ int cc_pipe_run(cc_pipe *p, cc_line_reader *r, cc_record_kind kind, int64_t firs
                 cc_pipe_take_fn take, void *ctx, int *read_status, int64_t *read_line);
 
 /* The view of an event line (has_view) with the given label (-1 = none):
- * equal to cc_event_view_compute on the same probs and label. */
+ * equal to cc_event_view_compute and cc_event_view_uncertainty on the same
+ * probs and label. */
 void cc_pipe_view(const cc_pipe_line *line, int label, cc_event_view *out);
 
 #endif
