@@ -11,7 +11,8 @@
 # pipeline's 1,024 lines), a generated file (the generator is below) with bad
 # lines, blank lines, a line over the 1 MiB limit, duplicate ids, inline
 # labels by index and by name, two models, segments and a second file and
-# standard input in the same run; with a batch of 7 lines so commits fall
+# standard input in the same run; /dev/zero between two files (an endless
+# line, given up after 64 MiB); with a batch of 7 lines so commits fall
 # inside the pipeline's chunks; with --strict; with --ts-range; and labels
 # that arrive before their events (waiting labels).
 # Usage: threads_ingest.sh CONCORD
@@ -173,6 +174,12 @@ grep -q 'waiting labels applied' "$T/late-1.err" || fail "late: no waiting label
 cp "$T/late-1.db" "$T/start-labels_first.db"
 run_case labels_first label --model one --batch 5 "$T/labels_first.jsonl" "$T/labels_first.jsonl"
 
+# an endless line (/dev/zero) between two files: given up after 64 MiB with
+# its number, the other files stored
+: > "$T/stdin-zero"
+run_case zero ingest --model one --classes apple,pear,plum "$T/second.jsonl" /dev/zero "$T/late.jsonl"
+grep -q '/dev/zero:1: line longer than 64 MiB' "$T/zero-1.err" || fail "zero: $(cat "$T/zero-1.err")"
+
 # the comparisons can fail: a database with one event more is told apart
 canonical "$T/mixed-2.db" "$T/a.dump"
 "$CONCORD" ingest --db "$T/mixed-2.db" --model one --threads 2 "$T/late.jsonl" 2> /dev/null || true
@@ -180,4 +187,4 @@ canonical "$T/mixed-2.db" "$T/b.dump"
 if cmp -s "$T/a.dump" "$T/b.dump"; then fail "the canonical dump does not see new rows"; fi
 
 if [ $fails -ne 0 ]; then echo "threads_ingest: $fails failures" >&2; exit 1; fi
-echo "threads_ingest: ok (8 inputs x threads 1, 2, 4, 8: equal databases, messages and exits)"
+echo "threads_ingest: ok (9 inputs x threads 1, 2, 4, 8: equal databases, messages and exits)"
