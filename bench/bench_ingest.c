@@ -2,7 +2,7 @@
  * how long a report over the stored day summaries takes, and how much memory
  * each of those phases needs. Every phase runs in its own forked child so the
  * peak RSS that wait4() reports belongs to that phase alone. */
-#define _DEFAULT_SOURCE /* wait4, struct rusage on glibc */
+#define _GNU_SOURCE /* wait4, struct rusage, RUSAGE_THREAD on glibc */
 
 #include <errno.h>
 #include <sqlite3.h>
@@ -38,6 +38,7 @@ typedef struct bench {
     const char *input;  /* NULL: generate */
     const char *parent; /* where the temporary directory goes */
     int keep, reps, batch;
+    int threads;           /* --threads: a second ingest phase with this many (> 1) */
     const char *model_opt; /* --model, or NULL: the first line's model, else "default" */
     char model[256];       /* the model every phase works on */
     char dir[PATH_CAP - 64], events[PATH_CAP], db[PATH_CAP];
@@ -57,6 +58,7 @@ typedef struct phase_out {
     int64_t report_events;
     size_t json_bytes;
     int64_t review_day, review_kept;
+    double thread_cpu; /* ingest: CPU seconds of the calling (reading and storing) thread */
 } phase_out;
 
 typedef struct phase_result {
@@ -251,9 +253,9 @@ done:
         fclose(f);
 }
 
+/* arg = threads (cc_ingest_opts.threads; 1 = all on one thread) */
 static void phase_ingest(const bench *b, phase_out *out, int arg)
 {
-    (void)arg;
     remove_db(b);
     cc_error err = CC_ERROR_INIT;
     cc_store *s = NULL;
@@ -261,6 +263,7 @@ static void phase_ingest(const bench *b, phase_out *out, int arg)
     cc_ingest_opts opts = CC_INGEST_OPTS_INIT;
     if (b->batch > 0)
         opts.batch = b->batch;
+    opts.threads = arg;
 
     double t0 = now();
     int rc = cc_store_open(&s, b->db, 1, &err);
@@ -270,6 +273,10 @@ static void phase_ingest(const bench *b, phase_out *out, int arg)
         rc = cc_ingest_file(ing, b->events, CC_RECORD_EVENTS, &err);
     if (!rc)
         rc = cc_ingest_finish(ing, &err);
+    struct rusage self;
+    if (getrusage(RUSAGE_THREAD, &self) == 0)
+        out->thread_cpu = (double)self.ru_utime.tv_sec + (double)self.ru_utime.tv_usec * 1e-6 +
+                          (double)self.ru_stime.tv_sec + (double)self.ru_stime.tv_usec * 1e-6;
     if (ing) {
         const cc_ingest_stats *st = cc_ingest_get_stats(ing);
         out->items = st->accepted;
@@ -578,6 +585,9 @@ static void usage(FILE *f)
           "                     or \"default\" when it has none)\n"
           "  --reps R           report repetitions, 1..1000 (default 20)\n"
           "  --batch B          lines per ingest transaction (default: the library's)\n"
+          "  --threads T        also run the ingest phase with T threads (2..64; T - 1\n"
+          "                     parse ahead of the writer) after the one-thread run, on\n"
+          "                     a fresh database each, and print the scaling\n"
           "  --dir DIR          where to create the temporary directory\n"
           "                     (default $TMPDIR or /tmp)\n"
           "  --random-ids       generate ids like random UUIDs instead of ascending ones\n"
@@ -638,7 +648,7 @@ static int parse_args(int argc, char **argv, bench *b)
         static const char *const valued[] = {"--n",    "--members", "--classes",
                                              "--days", "--seed",    "--label-share",
                                              "--input", "--reps",   "--batch",
-                                             "--dir",  "--model"};
+                                             "--dir",  "--model",   "--threads"};
         int known = 0;
         for (size_t j = 0; j < sizeof valued / sizeof *valued; j++)
             known |= !strcmp(a, valued[j]);
@@ -677,6 +687,8 @@ static int parse_args(int argc, char **argv, bench *b)
             bad = cc_synth_parse_int(v, &b->batch) || b->batch < 1;
         else if (!strcmp(a, "--model"))
             b->model_opt = v;
+        else if (!strcmp(a, "--threads"))
+            bad = cc_synth_parse_int(v, &b->threads) || b->threads < 2 || b->threads > 64;
         else
             b->parent = v;
         if (bad) {
@@ -723,7 +735,8 @@ int main(int argc, char **argv)
     else
         snprintf(b.events, sizeof b.events, "%s/events.jsonl", b.dir);
 
-    static phase_result idle, gen, parse, floor_ph, ingest, by_day, by_all, scan, rv_wrong, rv_mi;
+    static phase_result idle, gen, parse, floor_ph, ingest, ingest_t, by_day, by_all, scan,
+        rv_wrong, rv_mi;
     int failed = 0;
     run_phase(&b, phase_idle, 0, &idle);
     if (!b.input) {
@@ -740,8 +753,13 @@ int main(int argc, char **argv)
         run_phase(&b, phase_floor, 0, &floor_ph);
         failed |= report_failure("floor", &floor_ph);
     }
+    if (!failed && b.threads > 1) {
+        /* first, so the database the reports read is the one-thread run's */
+        run_phase(&b, phase_ingest, b.threads, &ingest_t);
+        failed |= report_failure("ingest with threads", &ingest_t);
+    }
     if (!failed) {
-        run_phase(&b, phase_ingest, 0, &ingest);
+        run_phase(&b, phase_ingest, 1, &ingest);
         failed |= report_failure("ingest", &ingest);
     }
     if (!failed) {
@@ -787,6 +805,10 @@ int main(int argc, char **argv)
         print_row("parse only", &parse, 1);
         print_row("parse + bare insert (floor)", &floor_ph, 1);
         print_row("ingest end to end", &ingest, 1);
+        char label_t[64];
+        snprintf(label_t, sizeof label_t, "ingest, --threads %d", b.threads);
+        if (b.threads > 1)
+            print_row(label_t, &ingest_t, 1);
         char label[64];
         snprintf(label, sizeof label, "report by day x%d", b.reps);
         print_row(label, &by_day, 0);
@@ -847,12 +869,47 @@ int main(int argc, char **argv)
                ingest.cpu > 0 ? floor_ph.cpu / ingest.cpu : 0.0,
                floor_ph.cpu > 0 ? ingest.cpu / floor_ph.cpu : 0.0,
                floor_ph.cpu > 0 ? 100.0 * parse.cpu / floor_ph.cpu : 0.0);
+        if (b.threads > 1 && ingest.out.wall > 0 && ingest.cpu > 0 && ingest_t.out.wall > 0 &&
+            ingest_t.cpu > 0 && floor_ph.out.wall > 0 && floor_ph.cpu > 0) {
+            double w1 = (double)ingest.out.items / ingest.out.wall;
+            double wt = (double)ingest_t.out.items / ingest_t.out.wall;
+            double c1 = (double)ingest.out.items / ingest.cpu;
+            double ct = (double)ingest_t.out.items / ingest_t.cpu;
+            double wf = (double)floor_ph.out.items / floor_ph.out.wall;
+            double cf = (double)floor_ph.out.items / floor_ph.cpu;
+            printf("  threads: ingest with %d threads / with 1: %.3f in events per wall second, "
+                   "%.3f per CPU second\n", b.threads, wt / w1, ct / c1);
+            printf("  threads: ingest with %d threads / floor: %.3f per wall second, %.3f per "
+                   "CPU second (1 thread: %.3f, %.3f)\n", b.threads, wt / wf, ct / cf, w1 / wf,
+                   c1 / cf);
+            if (ingest_t.out.thread_cpu > 0) {
+                /* the storing thread is the pipeline's critical path: with a free CPU
+                 * for every thread, wall time tends to its CPU time */
+                double pw = (double)ingest_t.out.items / ingest_t.out.thread_cpu;
+                printf("  threads: the storing thread used %.3f of the run's %.3f CPU s: %s "
+                       "events per second of it, %.3f of the floor's events per CPU second "
+                       "(the bound with a free CPU per thread)\n",
+                       ingest_t.out.thread_cpu, ingest_t.cpu,
+                       grouped(g1, sizeof g1, pw), pw / cf);
+                printf("  threads: storing-thread bound / one thread's events per CPU second: "
+                       "%.3f\n", pw / c1);
+                printf("  threads: storing-thread bound / floor: %.3f\n", pw / cf);
+            }
+        }
         printf("  targets: ingest >= 150,000 events/s: %s; report by day (median) < 100 ms: %s\n",
                ingest_rate >= 150000 ? "met" : "NOT met", med_day < 100.0 ? "met" : "NOT met");
 
         if (parse.out.rejected)
             printf("  warning: %lld lines did not parse (first: %s)\n",
                    (long long)parse.out.rejected, parse.out.msg);
+        if (b.threads > 1 && (ingest_t.out.items != ingest.out.items ||
+                              ingest_t.out.rejected != ingest.out.rejected ||
+                              ingest_t.out.duplicates != ingest.out.duplicates))
+            printf("  warning: ingest with %d threads stored %lld, rejected %lld, duplicates "
+                   "%lld; with 1 thread %lld, %lld, %lld\n", b.threads,
+                   (long long)ingest_t.out.items, (long long)ingest_t.out.rejected,
+                   (long long)ingest_t.out.duplicates, (long long)ingest.out.items,
+                   (long long)ingest.out.rejected, (long long)ingest.out.duplicates);
         if (ingest.out.items != parse.out.items || ingest.out.rejected || ingest.out.duplicates)
             printf("  warning: ingest stored %lld, rejected %lld, duplicates %lld; parse "
                    "accepted %lld\n",

@@ -3,6 +3,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
 
 #include "cli.h"
 #include "ingest.h"
@@ -11,7 +12,8 @@
 
 const char help_ingest[] =
     "usage: concord ingest --db FILE|--store URL [--model NAME] [--classes A,B,...]\n"
-    "                      [--members X,Y,...] [--max-slices N] [--strict] [--batch N] [--quiet]\n"
+    "                      [--members X,Y,...] [--max-slices N] [--strict] [--batch N]\n"
+    "                      [--threads N] [--quiet]\n"
     "                      [--publish URL [--source NAME]] FILE...\n\n"
     "Reads prediction events, one JSON object per line ('-' reads standard input), and\n"
     "stores each with the per-day summaries it adds to. Lines that fail validation are\n"
@@ -28,6 +30,9 @@ const char help_ingest[] =
     "                   summed in one overflow slice, with a warning\n"
     "  --strict         store nothing at all when any line is bad\n"
     "  --batch N        lines per transaction (default 20000)\n"
+    "  --threads N      threads: N - 1 parse and check lines ahead of the one that\n"
+    "                   stores them (1..64, default: the online CPUs); the stored\n"
+    "                   result and the rejected lines are the same for every N\n"
     "  --ts-range FROM,TO  accept event times from the day FROM to the day TO, both\n"
     "                   included (UTC dates; default 2000-01-01,2099-12-31); others are\n"
     "                   refused with the reason\n"
@@ -40,13 +45,15 @@ const char help_ingest[] =
     "read is reported and skipped; the lines of the other files are stored)\n";
 
 const char help_label[] =
-    "usage: concord label --db FILE|--store URL [--model NAME] [--quiet]\n"
+    "usage: concord label --db FILE|--store URL [--model NAME] [--threads N] [--quiet]\n"
     "                     [--publish URL [--source NAME]] FILE...\n\n"
     "Reads delayed labels, one {\"id\": ..., \"label\": CLASS} per line (CLASS an index or\n"
     "a class name; optional \"model\"), and adds each to the labelled part of its event's\n"
     "day. A label that differs from an earlier one replaces it exactly. A label whose\n"
     "event is not stored yet waits and is applied when the event is ingested.\n"
-    "--publish URL [--source NAME] then publishes the store, as 'concord publish' does.\n\n"
+    "--publish URL [--source NAME] then publishes the store, as 'concord publish' does.\n"
+    "--threads N: N - 1 threads parse lines ahead of the one that applies them (1..64,\n"
+    "default: the online CPUs); the result is the same for every N.\n\n"
     CLI_HELP_STORE_WRITES "\n"
     "exit: 0 ok, 1 some lines rejected, 2 usage, 3 file or database error (an input\n"
     "file that cannot be read is reported and skipped; the others are applied)\n";
@@ -113,7 +120,7 @@ static int run(int argc, char **argv, cc_record_kind kind)
         CLI_STORE_OPTS,          {"model", 0, 1, NULL}, {"classes", 0, 1, NULL},
         {"members", 0, 1, NULL}, {"strict", 0, 0, NULL}, {"batch", 0, 1, NULL},
         {"quiet", 'q', 0, NULL}, {"ts-range", 0, 1, NULL}, {"max-slices", 0, 1, NULL},
-        {"publish", 0, 1, NULL}, {"source", 0, 1, NULL},
+        {"publish", 0, 1, NULL}, {"source", 0, 1, NULL}, {"threads", 0, 1, NULL},
     };
     int n_opts = (int)(sizeof opts / sizeof *opts), n_pos, help;
     char **pos = calloc((size_t)argc + 1, sizeof *pos);
@@ -171,6 +178,18 @@ static int run(int argc, char **argv, cc_record_kind kind)
             rc = EXIT_USAGE;
         else
             io.batch = (int)batch;
+    }
+    /* default: one thread per online CPU (the reader/writer and N - 1 parsers) */
+    long online = sysconf(_SC_NPROCESSORS_ONLN);
+    io.threads = online < 1 ? 1 : online > CC_INGEST_MAX_THREADS ? CC_INGEST_MAX_THREADS
+                                                                 : (int)online;
+    const char *tv = cli_get(opts, n_opts, "threads");
+    long long threads;
+    if (!rc && tv) {
+        if (cli_int(command, "threads", tv, 1, CC_INGEST_MAX_THREADS, &threads))
+            rc = EXIT_USAGE;
+        else
+            io.threads = (int)threads;
     }
     const char *sv = cli_get(opts, n_opts, "max-slices");
     long long max_slices;

@@ -12,6 +12,7 @@
 #include "date.h"
 #include "event_parse.h"
 #include "event_view.h"
+#include "ingest_pipeline.h"
 #include "line_reader.h"
 #include "names_text.h"
 #include "store_slices.h"
@@ -77,6 +78,10 @@ struct cc_ingest {
     strict_reject *held;
     size_t n_held, cap_held;
     int file_failed; /* the last error was an input file's, the run is intact */
+    cc_pipe *pipe;   /* opts.threads > 1: the parsing threads, made on first use */
+    int pipe_failed; /* they could not be started: one thread does it all */
+    int has_range;
+    int64_t ts_first, ts_last;
 };
 
 static void model_state_clear(model_state *ms)
@@ -132,6 +137,11 @@ int cc_ingest_file_failed(const cc_ingest *ing) { return ing->file_failed; }
 void cc_ingest_ts_range(cc_ingest *ing, int64_t first, int64_t last)
 {
     cc_parser_ts_range(ing->parser, first, last);
+    if (ing->pipe)
+        cc_pipe_ts_range(ing->pipe, first, last);
+    ing->has_range = 1;
+    ing->ts_first = first;
+    ing->ts_last = last;
 }
 
 static int names_differ(char *const *a, char *const *b, int n)
@@ -556,9 +566,11 @@ static int parse_event(cc_parser *p, const cc_line *ln, cc_event *ev, char *why,
 }
 
 /* The store step of one parsed event: the model (from the cache, the store,
- * or created), checks against its shape, the row and the summary delta. */
+ * or created), checks against its shape, the row and the summary delta.
+ * pre, when not NULL, is the event as a parsing thread prepared it: its
+ * float32 values and, with has_view, the label-free view. */
 static int store_event(cc_ingest *ing, const char *source, const cc_line *ln,
-                       const cc_event *evp, cc_error *err)
+                       const cc_event *evp, const cc_pipe_line *pre, cc_error *err)
 {
     char why[256];
     cc_event ev = *evp;
@@ -586,18 +598,27 @@ static int store_event(cc_ingest *ing, const char *source, const cc_line *ln,
                  model->name, last);
         return reject(ing, "event", source, ln, why, err);
     }
-    size_t n = (size_t)model->m * (size_t)model->k;
-    for (size_t i = 0; i < n; i++)
-        ms->probs[i] = (float)ev.probs[i];
+    const float *probs = ms->probs;
     /* one view of the event serves the stored class and both summary parts */
     cc_event_view *view = &ing->view;
-    cc_event_view_compute(view, ms->probs, model->m, model->k, label);
+    if (pre) {
+        probs = pre->probs;
+        if (pre->has_view)
+            cc_pipe_view(pre, label, view);
+        else
+            cc_event_view_compute(view, probs, model->m, model->k, label);
+    } else {
+        size_t n = (size_t)model->m * (size_t)model->k;
+        for (size_t i = 0; i < n; i++)
+            ms->probs[i] = (float)ev.probs[i];
+        cc_event_view_compute(view, ms->probs, model->m, model->k, label);
+    }
     int pred = view->ens;
 
     int64_t slice;
     int inserted, overflow;
     if (cc_store_event_insert(ing->store, model, ev.id, ev.id_len, ev.ts, ev.segment,
-                              ev.segment_len, pred, label, ms->probs, &inserted, err))
+                              ev.segment_len, pred, label, probs, &inserted, err))
         return -1;
     if (!inserted) {
         ing->stats.duplicates++;
@@ -610,9 +631,9 @@ static int store_event(cc_ingest *ing, const char *source, const cc_line *ln,
     if (!d)
         return -1;
     ms->overflow_events += overflow;
-    cc_summary_add_unlabeled_view(d, view, ms->probs, 1);
+    cc_summary_add_unlabeled_view(d, view, probs, 1);
     if (label >= 0)
-        cc_summary_add_labeled_view(d, view, ms->probs, 1);
+        cc_summary_add_labeled_view(d, view, probs, 1);
     mark_dirty(ms);
     ing->stats.accepted++;
     return 0;
@@ -624,7 +645,7 @@ static int take_event(cc_ingest *ing, const char *source, const cc_line *ln, cc_
     cc_event ev;
     if (parse_event(ing->parser, ln, &ev, why, sizeof why))
         return reject(ing, "event", source, ln, why, err);
-    return store_event(ing, source, ln, &ev, err);
+    return store_event(ing, source, ln, &ev, NULL, err);
 }
 
 /* Labels: the same two steps. */
@@ -657,12 +678,22 @@ static int take_label(cc_ingest *ing, const char *source, const cc_line *ln, cc_
     return store_label(ing, source, ln, &lab, err);
 }
 
-static int is_blank(const char *s, size_t n)
+static int reject_too_long(cc_ingest *ing, const char *source, const cc_line *ln,
+                           cc_record_kind kind, cc_error *err)
 {
-    for (size_t i = 0; i < n; i++)
-        if (s[i] != ' ' && s[i] != '\t' && s[i] != '\r')
-            return 0;
-    return 1;
+    char why[160];
+    snprintf(why, sizeof why, "line is %zu bytes, longer than the limit of %u bytes",
+             ln->full_len, CC_LINE_MAX);
+    ing->stats.lines++;
+    return reject(ing, kind == CC_RECORD_EVENTS ? "event" : "label", source, ln, why, err);
+}
+
+/* After a line was taken: the batch is committed when it is full. */
+static int line_done(cc_ingest *ing, int rc, cc_error *err)
+{
+    if (!rc && !ing->opts.strict && ++ing->since_commit >= ing->opts.batch)
+        rc = commit_batch(ing, err);
+    return rc;
 }
 
 /* One line of either kind: counted unless blank, refused when too long,
@@ -670,22 +701,43 @@ static int is_blank(const char *s, size_t n)
 static int take_record(cc_ingest *ing, const char *source, const cc_line *ln,
                        cc_record_kind kind, cc_error *err)
 {
-    const char *kind_name = kind == CC_RECORD_EVENTS ? "event" : "label";
-    if (ln->too_long) {
-        char why[160];
-        snprintf(why, sizeof why, "line is %zu bytes, longer than the limit of %u bytes",
-                 ln->full_len, CC_LINE_MAX);
-        ing->stats.lines++;
-        return reject(ing, kind_name, source, ln, why, err);
-    }
-    if (is_blank(ln->text, ln->len))
+    if (ln->too_long)
+        return reject_too_long(ing, source, ln, kind, err);
+    if (cc_line_blank(ln->text, ln->len))
         return 0;
     ing->stats.lines++;
     int rc = kind == CC_RECORD_EVENTS ? take_event(ing, source, ln, err)
                                       : take_label(ing, source, ln, err);
-    if (!rc && !ing->opts.strict && ++ing->since_commit >= ing->opts.batch)
-        rc = commit_batch(ing, err);
-    return rc;
+    return line_done(ing, rc, err);
+}
+
+/* The same for a line a parsing thread prepared (ingest_pipeline.h): the
+ * same steps in the same order, so the same rows, summaries and rejects. */
+typedef struct pipe_ctx {
+    cc_ingest *ing;
+    const char *source;
+    cc_record_kind kind;
+    cc_error *err;
+} pipe_ctx;
+
+static int take_prepared(void *payload, const cc_pipe_line *pl)
+{
+    const pipe_ctx *x = payload;
+    cc_ingest *ing = x->ing;
+    if (pl->status == CC_PIPE_LONG)
+        return reject_too_long(ing, x->source, &pl->ln, x->kind, x->err);
+    if (pl->status == CC_PIPE_BLANK)
+        return 0;
+    ing->stats.lines++;
+    const char *kind_name = x->kind == CC_RECORD_EVENTS ? "event" : "label";
+    int rc;
+    if (pl->status == CC_PIPE_BAD)
+        rc = reject(ing, kind_name, x->source, &pl->ln, pl->why, x->err);
+    else if (x->kind == CC_RECORD_EVENTS)
+        rc = store_event(ing, x->source, &pl->ln, &pl->ev, pl, x->err);
+    else
+        rc = store_label(ing, x->source, &pl->ln, &pl->lab, x->err);
+    return line_done(ing, rc, x->err);
 }
 
 int cc_ingest_line(cc_ingest *ing, const char *text, size_t len, const char *source,
@@ -722,8 +774,32 @@ int cc_ingest_stream(cc_ingest *ing, FILE *f, const char *source, int64_t first_
     cc_line_reader *r = cc_line_reader_create(f);
     int rc = r ? 0 : cc_error_set(err, CC_ENOMEM, "out of memory");
     int64_t lines_here = 0;
+    if (!rc && ing->opts.threads > 1 && !ing->pipe && !ing->pipe_failed) {
+        if ((ing->pipe = cc_pipe_create(ing->opts.threads - 1)) && ing->has_range)
+            cc_pipe_ts_range(ing->pipe, ing->ts_first, ing->ts_last);
+        ing->pipe_failed = ing->pipe == NULL; /* then all on this thread, same result */
+    }
+    if (!rc && ing->pipe) {
+        pipe_ctx x = {ing, source, kind, err};
+        int status;
+        int64_t line, before = ing->stats.lines;
+        rc = cc_pipe_run(ing->pipe, r, kind, first_line, take_prepared, &x, &status, &line);
+        lines_here = ing->stats.lines - before;
+        if (!rc && status == -1) {
+            rc = cc_error_set(err, CC_EIO, "%s:%lld: cannot read: %s", source, (long long)line,
+                              strerror(errno));
+            ing->file_failed = 1;
+        } else if (!rc && status == -2) {
+            rc = cc_error_set(err, CC_EIO, "%s:%lld: line longer than %u MiB without a newline: "
+                              "not a file of JSON lines, the rest of it is skipped", source,
+                              (long long)line, CC_LINE_SKIP_MAX >> 20);
+            ing->file_failed = 1;
+        } else if (!rc && status == -3) {
+            rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+        }
+    }
     cc_line ln;
-    while (!rc) {
+    while (!rc && !ing->pipe) {
         int got = cc_line_reader_next(r, &ln);
         if (got == 0)
             break;
@@ -848,6 +924,7 @@ void cc_ingest_free(cc_ingest *ing)
     }
     free(ing->held);
     cc_parser_free(ing->parser);
+    cc_pipe_free(ing->pipe);
     free(ing);
 }
 

@@ -36,6 +36,9 @@ typedef struct cc_ingest_opts {
     size_t delta_budget;        /* bytes of day-summary deltas held at once; 0 = default */
     int max_slices;             /* slice limit of models this run creates; 0 = default
                                    (CC_SLICES_DEFAULT_MAX, store_slices.h) */
+    int threads;                /* cc_ingest_stream/_file: 0 or 1 = all on the calling
+                                   thread; N > 1 = N - 1 threads parse ahead of it
+                                   (same stored result, see ingest_pipeline.h) */
 } cc_ingest_opts;
 
 /* Default bound on the per-day summary deltas an ingest holds in memory:
@@ -43,7 +46,9 @@ typedef struct cc_ingest_opts {
  * largest shape, 64 x 256 (15.3 MiB each). At least one day is always held. */
 #define CC_INGEST_DELTA_BUDGET ((size_t)32 << 20)
 
-#define CC_INGEST_OPTS_INIT {"default", NULL, 0, NULL, 0, 0, 20000, NULL, NULL, 0, 0, 0}
+#define CC_INGEST_MAX_THREADS 64 /* opts.threads at most */
+
+#define CC_INGEST_OPTS_INIT {"default", NULL, 0, NULL, 0, 0, 20000, NULL, NULL, 0, 0, 0, 0}
 
 typedef struct cc_ingest_stats {
     int64_t lines;              /* non-blank lines read */

@@ -93,3 +93,11 @@ int cc_line_reader_next(cc_line_reader *r, cc_line *out)
     out->text = r->line;
     return 1;
 }
+
+int cc_line_blank(const char *s, size_t n)
+{
+    for (size_t i = 0; i < n; i++)
+        if (s[i] != ' ' && s[i] != '\t' && s[i] != '\r')
+            return 0;
+    return 1;
+}

@@ -33,4 +33,8 @@ void cc_line_reader_free(cc_line_reader *r);
  * On -1 and -2, out->number is the number of the line being read. */
 int cc_line_reader_next(cc_line_reader *r, cc_line *out);
 
+/* 1 when the n bytes at s are only spaces, tabs and carriage returns (a
+ * blank line, skipped by ingest without being counted). */
+int cc_line_blank(const char *s, size_t n);
+
 #endif

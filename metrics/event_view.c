@@ -55,16 +55,20 @@ int cc_event_view_compute(cc_event_view *out, const float *probs, int m, int k, 
     }
 
     out->entropy = out->expected_entropy = out->mutual_information = NAN;
-
-    out->label = label;
-    out->ens_right = label < 0 ? -1 : out->ens == label;
-    out->n_right = label < 0 ? -1 : 0;
-    for (int i = 0; i < m; i++) {
-        out->member_right[i] = label < 0 ? -1 : out->member_class[i] == label;
-        if (label >= 0)
-            out->n_right += out->member_right[i];
-    }
+    cc_event_view_set_label(out, label);
     return 0;
+}
+
+void cc_event_view_set_label(cc_event_view *v, int label)
+{
+    v->label = label;
+    v->ens_right = label < 0 ? -1 : v->ens == label;
+    v->n_right = label < 0 ? -1 : 0;
+    for (int i = 0; i < v->m; i++) {
+        v->member_right[i] = label < 0 ? -1 : v->member_class[i] == label;
+        if (label >= 0)
+            v->n_right += v->member_right[i];
+    }
 }
 
 void cc_event_view_uncertainty(cc_event_view *v, const float *probs)

@@ -35,6 +35,12 @@ typedef struct cc_event_view {
  * entropies (they cost a logarithm per value). */
 int cc_event_view_compute(cc_event_view *out, const float *probs, int m, int k, int label);
 
+/* Sets the label-dependent fields (label, ens_right, member_right, n_right)
+ * of a view whose label-free fields are filled; label -1 = none, else
+ * 0..k-1. cc_event_view_compute ends with this call, so a view computed
+ * without a label and labelled later is the same view. */
+void cc_event_view_set_label(cc_event_view *v, int label);
+
 /* Adds entropy, expected entropy and mutual information (nats) to a view
  * computed from the same probs. */
 void cc_event_view_uncertainty(cc_event_view *v, const float *probs);

@@ -232,7 +232,13 @@ void cc_summary_add_unlabeled_view(cc_summary *s, const cc_event_view *e, const 
                 sign * (e->member_class[i] == e->member_class[j]);
 
     cc_uncertainty u;
-    cc_uncertainty_split(&u, probs, m, k, NULL);
+    if (isnan(e->entropy)) {
+        cc_uncertainty_split(&u, probs, m, k, NULL);
+    } else { /* cc_event_view_uncertainty ran the same split on the same probs */
+        u.total_nats = e->entropy;
+        u.expected_nats = e->expected_entropy;
+        u.mutual_nats = e->mutual_information;
+    }
     v[L->tu_fx] += sign * fx(u.total_nats);
     v[L->au_fx] += sign * fx(u.expected_nats);
 

@@ -109,7 +109,9 @@ void cc_summary_add_labeled(cc_summary *s, const float *probs, int label, int si
 
 /* The same from an event view already computed from the same probs
  * (metrics/event_view.h; for the labelled part, computed with the label),
- * so a caller that needs the view too computes it once. */
+ * so a caller that needs the view too computes it once. When the view's
+ * entropies are filled (cc_event_view_uncertainty) they are used instead of
+ * computing them again. */
 struct cc_event_view;
 void cc_summary_add_unlabeled_view(cc_summary *s, const struct cc_event_view *e,
                                    const float *probs, int sign);

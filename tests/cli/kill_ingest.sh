@@ -27,14 +27,15 @@ CLASSES=premium,extra,class-1,class-2,juice,cull
 "$CONCORD" label --db "$T/ref.db" --model g "$T/d/labels.jsonl" 2> /dev/null
 "$CONCORD" report --db "$T/ref.db" --model g --format json -o "$T/ref.json"
 
-# run_to POINT DB: starts an ingest of $EV into DB, waits until it reports
+# run_to POINT DB: starts an ingest of $EV into DB (with --threads $THREADS),
+# waits until it reports
 # the testpoint POINT (NAME:N), then kills it with SIGKILL. Returns 1 (and
 # says why) when the ingest ended or hung without reaching the point.
 run_to() {
   local point=$1 db=$2 fifo=$T/stderr.fifo line reached=0
   rm -f "$fifo"; mkfifo "$fifo"
   CONCORD_TESTPOINT=$point "$CONCORD" ingest --db "$db" --model g --classes "$CLASSES" \
-    --batch $BATCH "$EV" 2> "$fifo" &
+    --batch $BATCH --threads "$THREADS" "$EV" 2> "$fifo" &
   local pid=$!
   while IFS= read -r -t $HANG_GUARD line; do
     case $line in
@@ -49,10 +50,13 @@ run_to() {
   fi
 }
 
-# point -> events that must be committed when the process dies there
+# point -> events that must be committed when the process dies there; with
+# one thread, and with three threads parsing ahead of the writer (their
+# parsed but unstored chunks die with the process)
+for THREADS in 1 4; do
 for case in ingest-batch-written:1=0 ingest-batch-committed:3=3000 ingest-batch-written:7=6000; do
   point=${case%=*}; want=${case#*=}
-  db=$T/crash-${point//:/-}.db
+  db=$T/crash-${point//:/-}-t$THREADS.db
   if ! why=$(run_to "$point" "$db"); then
     fail "$why"
     continue
@@ -61,13 +65,13 @@ for case in ingest-batch-written:1=0 ingest-batch-committed:3=3000 ingest-batch-
   summed=$(sqlite3 "$db" "SELECT coalesce(sum(events),0) FROM summaries" 2> /dev/null || echo "no summaries table")
   [ "$stored" = "$want" ] || fail "killed at $point: expected $want committed rows, found $stored"
   [ "$stored" = "$summed" ] || fail "killed at $point: $stored rows but the summaries count $summed"
-  echo "killed at $point: $stored of $total events committed"
+  echo "killed at $point (--threads $THREADS): $stored of $total events committed"
   if [ "$stored" != 0 ]; then
     "$CONCORD" verify --db "$db" --model g > "$T/verify" ||
       fail "verify after the kill at $point: expected every day ok, saw: $(grep -v ' ok$' "$T/verify")"
   fi
   # re-run the same file, then the labels: must equal the uninterrupted run
-  "$CONCORD" ingest --db "$db" --model g --classes "$CLASSES" "$EV" 2> "$T/err" ||
+  "$CONCORD" ingest --db "$db" --model g --classes "$CLASSES" --threads "$THREADS" "$EV" 2> "$T/err" ||
     fail "re-run after the kill at $point: expected exit 0, saw: $(cat "$T/err")"
   "$CONCORD" label --db "$db" --model g "$T/d/labels.jsonl" 2> /dev/null
   "$CONCORD" report --db "$db" --model g --format json -o "$T/again.json"
@@ -75,7 +79,10 @@ for case in ingest-batch-written:1=0 ingest-batch-committed:3=3000 ingest-batch-
     fail "report after the kill at $point and a re-run differs from an uninterrupted run: $(diff "$T/ref.json" "$T/again.json" | head -5)"
   "$CONCORD" verify --db "$db" --model g > "$T/verify" ||
     fail "verify after the re-run ($point): $(grep -v ' ok$' "$T/verify")"
+  [ "$(sqlite3 "$db" "SELECT count(*) FROM events")" = "$total" ] ||
+    fail "after the kill at $point (--threads $THREADS) and a re-run: $(sqlite3 "$db" "SELECT count(*) FROM events") events, expected each of $total once"
+done
 done
 
 if [ $fails -ne 0 ]; then echo "kill_ingest: $fails failures" >&2; exit 1; fi
-echo "kill_ingest: ok (3 kills at chosen points, committed counts exact, re-runs equal the uninterrupted run)"
+echo "kill_ingest: ok (3 kills at chosen points with 1 and with 4 threads, committed counts exact, re-runs equal the uninterrupted run)"
