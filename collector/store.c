@@ -866,12 +866,57 @@ static int sq_event_set_label(cc_store *store, const cc_model *m, const char *id
     return 0;
 }
 
+/* "model 'x' on 2026-01-02 (slice 3)" into buf, for error messages. */
+static const char *where_of(char *buf, size_t n, const cc_model *m, int64_t day, int64_t slice)
+{
+    char date[11];
+    cc_format_date(day, date);
+    if (slice)
+        snprintf(buf, n, "model '%s', %s, slice %lld", m->name, date, (long long)slice);
+    else
+        snprintf(buf, n, "model '%s', %s", m->name, date);
+    return buf;
+}
+
+int cc_sq_decode_summary(cc_store *s, const cc_model *m, const void *blob, int bytes,
+                         int64_t version, int64_t day, int64_t slice, const char *what,
+                         cc_summary *out, cc_error *err)
+{
+    char where[400];
+    int rc = cc_codec_decode_summary(blob, bytes > 0 ? (size_t)bytes : 0, version, out);
+    if (rc == -3)
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    if (rc == -2)
+        return cc_error_set(err, CC_EIO,
+                            "%s: %s of %s has layout version %lld, this concord reads 1 to %d",
+                            cc_store_path(s), what, where_of(where, sizeof where, m, day, slice),
+                            (long long)version, CC_SUMMARY_VERSION);
+    if (rc)
+        return cc_error_set(err, CC_EIO, "%s: %s of %s is damaged", cc_store_path(s), what,
+                            where_of(where, sizeof where, m, day, slice));
+    return 0;
+}
+
+int cc_sq_merge(cc_store *s, const cc_model *m, int64_t day, int64_t slice, cc_summary *dst,
+                const cc_summary *src, cc_error *err)
+{
+    char where[400];
+    int rc = cc_summary_merge(dst, src);
+    if (rc == CC_SUMMARY_OVERFLOW)
+        return cc_error_set(err, CC_EIO,
+                            "%s: summary counter overflow at %s; nothing was written",
+                            cc_store_path(s), where_of(where, sizeof where, m, day, slice));
+    if (rc)
+        return cc_error_set(err, CC_EIO, "%s: summary of %s has another shape",
+                            cc_store_path(s), where_of(where, sizeof where, m, day, slice));
+    return 0;
+}
+
 static int sq_summary_get(cc_store *store, const cc_model *m, int64_t day, cc_summary *out,
                          cc_error *err)
 {
     sq_store *s = SQ(store);
     sqlite3_stmt *st = stmt(s, ST_SUMMARY_GET);
-    const cc_layout *lay = cc_summary_layout(out);
     sqlite3_bind_int64(st, 1, m->id);
     sqlite3_bind_int64(st, 2, day);
     int step = sqlite3_step(st);
@@ -880,23 +925,11 @@ static int sq_summary_get(cc_store *store, const cc_model *m, int64_t day, cc_su
         return 0;
     if (step != SQLITE_ROW)
         return db_error(s, err, "reading summary");
-    char date[11];
-    cc_format_date(day, date);
-    sqlite3_int64 version = sqlite3_column_int64(st, 0); /* read before the reset */
-    if (version != CC_SUMMARY_VERSION) {
-        sqlite3_reset(st);
-        return cc_error_set(err, CC_EIO,
-                            "%s: summary of %s for model '%s' has layout version %lld, "
-                            "expected %d",
-                            s->path, date, m->name, (long long)version, CC_SUMMARY_VERSION);
-    }
-    int rc = cc_codec_decode(sqlite3_column_blob(st, 1), (size_t)sqlite3_column_bytes(st, 1),
-                             cc_summary_data_mut(out), lay->len);
+    int rc = cc_sq_decode_summary(store, m, sqlite3_column_blob(st, 1),
+                                  sqlite3_column_bytes(st, 1), sqlite3_column_int64(st, 0), day,
+                                  0, "summary", out, err);
     sqlite3_reset(st);
-    if (rc)
-        return cc_error_set(err, CC_EIO, "%s: summary of %s for model '%s' is damaged",
-                            s->path, date, m->name);
-    return 0;
+    return rc;
 }
 
 static int summary_put(sq_store *s, const cc_model *m, int64_t day, const cc_summary *sum,
@@ -905,6 +938,12 @@ static int summary_put(sq_store *s, const cc_model *m, int64_t day, const cc_sum
     const cc_layout *lay = cc_summary_layout(sum);
     const int64_t *v = cc_summary_data(sum);
     size_t len;
+    if (cc_summary_overflowed(sum)) {
+        char where[400];
+        return cc_error_set(err, CC_EIO,
+                            "%s: summary counter overflow at %s; nothing was written", s->path,
+                            where_of(where, sizeof where, m, day, 0));
+    }
     unsigned char *blob = cc_codec_encode(v, lay->len, &len);
     if (!blob)
         return cc_error_set(err, CC_ENOMEM, "out of memory");
@@ -932,10 +971,10 @@ static int sq_summary_add(cc_store *store, const cc_model *m, int64_t day, const
             return cc_error_set(err, CC_ENOMEM, "out of memory");
     }
     int rc = sq_summary_get(&s->base, m, day, s->scratch, err);
-    if (!rc) {
-        cc_summary_merge(s->scratch, delta);
+    if (!rc)
+        rc = cc_sq_merge(store, m, day, 0, s->scratch, delta, err);
+    if (!rc)
         rc = summary_put(s, m, day, s->scratch, err);
-    }
     return rc;
 }
 
@@ -1138,7 +1177,6 @@ static int sq_pruned_get(cc_store *store, const cc_model *m, int64_t day, int *f
 {
     sq_store *s = SQ(store);
     sqlite3_stmt *st = NULL;
-    const cc_layout *lay = cc_summary_layout(out);
     *found = 0;
     cc_summary_clear(out);
     if (!has_table(s, "pruned_days"))
@@ -1151,14 +1189,10 @@ static int sq_pruned_get(cc_store *store, const cc_model *m, int64_t day, int *f
     sqlite3_bind_int64(st, 2, day);
     int step = sqlite3_step(st), rc = 0;
     if (step == SQLITE_ROW) {
-        char date[11];
-        cc_format_date(day, date);
         *found = 1;
-        if (sqlite3_column_int64(st, 0) != CC_SUMMARY_VERSION ||
-            cc_codec_decode(sqlite3_column_blob(st, 1), (size_t)sqlite3_column_bytes(st, 1),
-                            cc_summary_data_mut(out), lay->len))
-            rc = cc_error_set(err, CC_EIO, "%s: pruned part of %s for model '%s' is damaged",
-                              s->path, date, m->name);
+        rc = cc_sq_decode_summary(store, m, sqlite3_column_blob(st, 1),
+                                  sqlite3_column_bytes(st, 1), sqlite3_column_int64(st, 0), day, 0,
+                                  "pruned part", out, err);
     } else if (step != SQLITE_DONE) {
         rc = db_error(s, err, "reading pruned days");
     }
@@ -1187,7 +1221,8 @@ static int sq_prune_day(cc_store *store, const cc_model *m, int64_t day, int64_t
         goto done;
     if ((rc = sq_pruned_get(&s->base, m, day, &found, kept, err)))
         goto done;
-    cc_summary_merge(kept, rows);
+    if ((rc = cc_sq_merge(store, m, day, 0, kept, rows, err)))
+        goto done;
     size_t len;
     if (!(blob = cc_codec_encode(cc_summary_data(kept), lay->len, &len))) {
         rc = cc_error_set(err, CC_ENOMEM, "out of memory");
