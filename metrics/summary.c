@@ -209,13 +209,17 @@ int cc_summary_merge_signed(cc_summary *dst, const cc_summary *src, int sign)
     int64_t *a = dst->v;
     const size_t n = dst->lay.len;
     /* element-wise: a count adds as it is, a wide sum's lo and hi words add
-     * separately (lo then holds less than 2^33) and carry() settles it */
-    if (sign >= 0)
+     * separately (lo then holds less than 2^33) and carry() settles it.
+     * Most counters of a day's delta are zero (histogram bins, cells). */
+    if (sign >= 0) {
         for (size_t i = 0; i < n; i++)
-            ovf |= __builtin_add_overflow(a[i], b[i], &a[i]);
-    else
+            if (b[i])
+                ovf |= __builtin_add_overflow(a[i], b[i], &a[i]);
+    } else {
         for (size_t i = 0; i < n; i++)
-            ovf |= __builtin_sub_overflow(a[i], b[i], &a[i]);
+            if (b[i])
+                ovf |= __builtin_sub_overflow(a[i], b[i], &a[i]);
+    }
     ovf |= cc_layout_normalize(&dst->lay, a) != 0;
     dst->overflow = ovf;
     return ovf ? CC_SUMMARY_OVERFLOW : 0;
