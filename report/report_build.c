@@ -280,6 +280,12 @@ static int finish_window(cc_report *r, cc_report_window *w, cc_summary *sum,
                          cc_summary *const *seg, double *level, cc_report_window_fn fn,
                          void *payload, cc_error *err)
 {
+    if (cc_summary_overflowed(sum)) { /* an hour's rows added past 2^63 (summary.h) */
+        char date[11];
+        cc_format_date(w->from, date);
+        return cc_error_set(err, CC_EIO, "summary counter overflow at model '%s', %s",
+                            r->model->name, date);
+    }
     if (window_figures(w, sum, r->baseline, r->cmp_cache) || score_window(r, w, level) ||
         (seg && segment_rows(r, w, sum, seg)))
         return cc_error_set(err, CC_ENOMEM, "out of memory");
