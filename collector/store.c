@@ -418,7 +418,7 @@ static int upgrade_table_words(sq_store *s, const char *table, const char *slice
                                int64_t *done, int64_t total, int64_t *next_ms, cc_error *err)
 {
     char sql[512];
-    sqlite3_stmt *st = NULL, *get = NULL, *put = NULL;
+    sqlite3_stmt *st = NULL, *get = NULL, *put = NULL, *mark = NULL;
     old_row *rows = NULL;
     size_t n = 0, cap = 0;
     int rc = 0, step;
@@ -455,10 +455,15 @@ static int upgrade_table_words(sq_store *s, const char *table, const char *slice
         rc = db_error(s, err, "reading summaries to upgrade");
         goto done;
     }
+    /* the day is marked for the next publish too: a cluster reads only
+     * vectors of the current layout version (its table key holds it), and
+     * an UPDATE does not fire the publish trigger */
     snprintf(sql, sizeof sql,
-             "UPDATE %s SET version = ?4, counters = ?5 WHERE model_id = ?1 AND day = ?2%s",
+             "UPDATE %s SET version = ?4, counters = ?5 WHERE model_id = ?1 AND day = ?2%s;",
              table, slice_col ? " AND slice_id = ?3" : "");
-    if (sqlite3_prepare_v2(s->db, sql, -1, &put, NULL) != SQLITE_OK) {
+    if (sqlite3_prepare_v2(s->db, sql, -1, &put, NULL) != SQLITE_OK ||
+        sqlite3_prepare_v2(s->db, "INSERT OR REPLACE INTO publish_days(model_id, day) "
+                                  "VALUES (?1, ?2)", -1, &mark, NULL) != SQLITE_OK) {
         rc = db_error(s, err, "upgrading summaries");
         goto done;
     }
@@ -508,6 +513,12 @@ static int upgrade_table_words(sq_store *s, const char *table, const char *slice
         step = sqlite3_step(put);
         sqlite3_reset(put);
         free(blob);
+        if (step == SQLITE_DONE) {
+            sqlite3_bind_int64(mark, 1, rows[i].model);
+            sqlite3_bind_int64(mark, 2, rows[i].day);
+            step = sqlite3_step(mark);
+            sqlite3_reset(mark);
+        }
         if (step != SQLITE_DONE) {
             rc = db_error(s, err, "upgrading summaries");
             break;
@@ -522,6 +533,7 @@ done:
     sqlite3_finalize(st);
     sqlite3_finalize(get);
     sqlite3_finalize(put);
+    sqlite3_finalize(mark);
     free(rows);
     cc_summary_free(sum);
     return rc;
@@ -529,7 +541,8 @@ done:
 
 /* The step to version 5: every stored summary vector (days, pruned days,
  * slices and their pruned parts) rewritten in layout version 2, where
- * each fixed-point sum takes two words (metrics/summary.h). Idempotent:
+ * each fixed-point sum takes two words (metrics/summary.h), and its day
+ * marked for the next publish. Idempotent:
  * only rows of an older version are touched, so it may run on a file
  * that another step already brought to 5. Baselines and publish marks hold
  * no vectors. Runs inside the upgrade's transaction. */

@@ -666,7 +666,9 @@ static void upgrade_summary_words_v4(const char *path)
     /* what a release before layout 2 wrote: schema 4, layout 1 rows */
     set_rows_layout1(s, sum, "summaries");
     set_rows_layout1(s, sum, "slice_summaries");
-    CHECK(sqlite3_exec(cc_store_db(s), "UPDATE meta SET value = '4' WHERE key = 'schema_version'",
+    /* ... and published since: no day marked */
+    CHECK(sqlite3_exec(cc_store_db(s), "UPDATE meta SET value = '4' WHERE key = 'schema_version';"
+                                       "DELETE FROM publish_days",
                        NULL, NULL, NULL) == SQLITE_OK);
     cc_model_free(m);
     m = NULL;
@@ -690,6 +692,8 @@ static void upgrade_summary_words_v4(const char *path)
     CHECK(query_int(s, "SELECT value FROM meta WHERE key = 'schema_version'") == 5);
     CHECK(query_int(s, "SELECT count(*) FROM summaries WHERE version = 2") == 1);
     CHECK(query_int(s, "SELECT count(*) FROM slice_summaries WHERE version = 2") == 1);
+    /* the day is marked for the next publish (the cluster reads layout 2 only) */
+    CHECK(query_int(s, "SELECT count(*) FROM publish_days WHERE day = 20400") == 1);
     CHECK(cc_store_model_get(s, "w", &m, &err) == 0);
     CHECK(m && cc_store_summary_get(s, m, 20400, got, &err) == 0 && cc_summary_equal(got, sum));
     CHECK(m && cc_store_slice_summary_get(s, m, 20400, slice, got, &err) == 0 &&
