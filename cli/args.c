@@ -225,7 +225,7 @@ static void note_upgrade(void *ctx, const char *path, const char *model, int64_t
                          int64_t total_days)
 {
     (void)ctx;
-    fprintf(stderr, "concord: upgrading %s to keep slices: model '%s', day %lld of %lld\n",
+    fprintf(stderr, "concord: upgrading %s: model '%s', day %lld of %lld\n",
             path, model, (long long)done_days, (long long)total_days);
 }
 

@@ -7,6 +7,7 @@
 
 #include "ch_client.h"
 #include "ch_schema.h"
+#include "ch_vector.h"
 #include "fetch.h"
 #include "store_backend.h"
 #include "summary.h"
@@ -148,7 +149,7 @@ static int ch_baseline_get(cc_store *s, const cc_model *m, int *has, int64_t *fr
 static void where_model(cc_buf *b, ch_store *c, const char *table, const char *cols,
                         const cc_model *m)
 {
-    char head[256];
+    char head[512];
     snprintf(head, sizeof head, "SELECT %s FROM %s.%s FINAL WHERE model = ", cols,
              cc_ch_database(c->ch), table);
     cc_buf_put(b, head, strlen(head));
@@ -195,15 +196,14 @@ static int read_vectors(ch_store *c, const cc_model *m, const char *slice, int64
 {
     cc_layout l;
     cc_buf ans = CC_BUF_INIT;
-    int rc = days_select(c, m, slice, "day, sumForEach(counters)", from, to, &l, &ans, err);
+    int rc = days_select(c, m, slice, "day, " CC_CH_VECTOR_SUM, from, to, &l, &ans, err);
     cc_rb rb = {ans.p, ans.p + ans.len};
+    char what[300];
+    snprintf(what, sizeof what, "model '%s'%s%s", m->name, *slice ? ", slice " : "", slice);
     while (!rc && rb.p < rb.end) {
         int64_t day;
-        uint64_t n;
-        if (cc_rb_i64(&rb, &day) || cc_rb_varint(&rb, &n) || n != l.len) {
-            rc = cc_error_set(err, CC_EIO, "%s: model '%s': a malformed summary row (layout %d "
-                                           "has %zu counters)", c->base.path, m->name,
-                              CC_SUMMARY_VERSION, l.len);
+        if (cc_rb_i64(&rb, &day)) {
+            rc = cc_error_set(err, CC_EIO, "%s: a truncated summary row", c->base.path);
             break;
         }
         int64_t *v = one;
@@ -221,9 +221,11 @@ static int read_vectors(ch_store *c, const cc_model *m, const char *slice, int64
             c->cache_days[c->n_cache] = day;
             c->cache_vec[c->n_cache++] = v;
         }
-        for (size_t i = 0; i < l.len && !rc; i++)
-            if (cc_rb_i64(&rb, &v[i]))
-                rc = cc_error_set(err, CC_EIO, "%s: a truncated summary row", c->base.path);
+        rc = cc_ch_vector_read(&rb, &l, v, what, day, err);
+        if (rc == -1)
+            rc = cc_error_set(err, CC_EIO, "%s: model '%s': a malformed summary row (layout %d "
+                                           "has %zu counters)", c->base.path, m->name,
+                              CC_SUMMARY_VERSION, l.len);
         if (found)
             *found = 1;
     }

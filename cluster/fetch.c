@@ -6,6 +6,7 @@
 #include <string.h>
 
 #include "ch_schema.h"
+#include "ch_vector.h"
 #include "store_slices.h"
 #include "summary.h"
 
@@ -218,9 +219,9 @@ static int fetch_summaries(cc_ch *c, cc_store *dst, const cc_fetch_opts *o, int 
                            cc_error *err)
 {
     cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
-    char head[320];
+    char head[512];
     snprintf(head, sizeof head,
-             "SELECT model, %s day, sumForEach(counters) FROM %s.summaries FINAL "
+             "SELECT model, %s day, " CC_CH_VECTOR_SUM " FROM %s.summaries FINAL "
              "WHERE layout_version = %d AND slice %s ''", slices ? "slice," : "",
              cc_ch_database(c), CC_SUMMARY_VERSION, slices ? "!=" : "=");
     build_sql(&sql, head, "model", o->model,
@@ -234,10 +235,8 @@ static int fetch_summaries(cc_ch *c, cc_store *dst, const cc_fetch_opts *o, int 
         const char *name, *key = "";
         size_t name_n, key_n = 0;
         int64_t day;
-        uint64_t n;
         if (cc_rb_string(&rb, &name, &name_n) ||
-            (slices && cc_rb_string(&rb, &key, &key_n)) || cc_rb_i64(&rb, &day) ||
-            cc_rb_varint(&rb, &n)) {
+            (slices && cc_rb_string(&rb, &key, &key_n)) || cc_rb_i64(&rb, &day)) {
             rc = truncated(c, "summaries", err);
             break;
         }
@@ -252,18 +251,16 @@ static int fetch_summaries(cc_ch *c, cc_store *dst, const cc_fetch_opts *o, int 
             }
         }
         const cc_layout *l = cc_summary_layout(sum);
-        if (n != l->len) {
+        char what[300];
+        snprintf(what, sizeof what, "model '%s'%s%.*s", m->name, slices ? ", slice " : "",
+                 (int)(key_n > 64 ? 64 : key_n), key);
+        cc_summary_clear(sum);
+        rc = cc_ch_vector_read(&rb, l, cc_summary_data_mut(sum), what, day, err);
+        if (rc == -1)
             rc = cc_error_set(err, CC_EIO,
-                              "cluster: model '%s' day %lld: %llu counters where layout %d of "
-                              "%d members and %d classes has %zu",
-                              m->name, (long long)day, (unsigned long long)n,
-                              CC_SUMMARY_VERSION, m->m, m->k, l->len);
-            break;
-        }
-        int64_t *v = cc_summary_data_mut(sum);
-        for (size_t i = 0; i < l->len && !rc; i++)
-            if (cc_rb_i64(&rb, &v[i]))
-                rc = truncated(c, "summaries", err);
+                              "cluster: model '%s' day %lld: a summary row of another length "
+                              "than layout %d of %d members and %d classes (%zu), or truncated",
+                              m->name, (long long)day, CC_SUMMARY_VERSION, m->m, m->k, l->len);
         if (!rc && !slices)
             rc = cc_store_summary_add(dst, m, day, sum, err);
         if (!rc && slices) {

@@ -9,6 +9,7 @@
 #include <time.h>
 
 #include "ch_schema.h"
+#include "ch_vector.h"
 #include "ingest.h"
 #include "summary.h"
 
@@ -312,6 +313,9 @@ static int put_vector(run *r, const char *model, int64_t day, const char *slice,
 {
     const cc_layout *l = cc_summary_layout(sum);
     const int64_t *v = cc_summary_data(sum);
+    int rc = cc_ch_vector_check(sum, model, day, slice, r->err);
+    if (rc)
+        return rc;
     cc_buf_string(&r->body, model, strlen(model));
     cc_buf_i64(&r->body, day);
     cc_buf_u32(&r->body, CC_SUMMARY_VERSION);

@@ -29,8 +29,10 @@ static void sq_snapshot_end(cc_store *store);
  * follow_offsets join the versioned schema (earlier, alerts/ and follow
  * created them on their own; upgrade_v4_alert_tables), what changed since
  * the last publish to a cluster (upgrade_publish_marks), and per-segment
- * summaries (slices, store_slices.h; upgrade_to_v4_slices). */
-#define SCHEMA_VERSION 4
+ * summaries (slices, store_slices.h; upgrade_to_v4_slices); 5: every stored
+ * summary in layout version 2, its fixed-point sums in two words
+ * (metrics/summary.h; upgrade_summary_words). */
+#define SCHEMA_VERSION 5
 
 
 static const char *const stmt_sql[ST_COUNT] = {
@@ -166,6 +168,7 @@ static const char publish_marks_sql[] =
     " END;";
 
 static int exec(sq_store *s, const char *sql, cc_error *err);
+static int has_table(sq_store *s, const char *name);
 
 /* The upgrade step to version 4: the publish bookkeeping above. A store
  * upgraded from version 3 has never been published: its days are all marked
@@ -396,6 +399,177 @@ static int upgrade_to_v4_slices(sq_store *s, cc_error *err)
     return rc;
 }
 
+/* The tables holding summary vectors, and the key of their rows beyond
+ * (model_id, day). */
+static const char *const summary_tables[][2] = {
+    {"summaries", NULL},
+    {"pruned_days", NULL},
+    {"slice_summaries", "slice_id"},
+    {"slice_pruned", "slice_id"},
+};
+
+typedef struct old_row {
+    int64_t model, day, slice;
+} old_row;
+
+/* Rewrites the rows of one table whose layout version is older than
+ * CC_SUMMARY_VERSION; *done counts rows for the progress note. */
+static int upgrade_table_words(sq_store *s, const char *table, const char *slice_col,
+                               int64_t *done, int64_t total, int64_t *next_ms, cc_error *err)
+{
+    char sql[512];
+    sqlite3_stmt *st = NULL, *get = NULL, *put = NULL, *mark = NULL;
+    old_row *rows = NULL;
+    size_t n = 0, cap = 0;
+    int rc = 0, step;
+    cc_summary *sum = NULL;
+    /* the keys first: the rows are rewritten while no statement reads the table */
+    snprintf(sql, sizeof sql,
+             "SELECT model_id, day, %s FROM %s WHERE version != %d ORDER BY model_id, day",
+             slice_col ? slice_col : "0", table, CC_SUMMARY_VERSION);
+    if (sqlite3_prepare_v2(s->db, sql, -1, &st, NULL) != SQLITE_OK)
+        return db_error(s, err, "reading summaries to upgrade");
+    while ((step = sqlite3_step(st)) == SQLITE_ROW) {
+        if (n == cap) {
+            size_t grown_cap = cap ? 2 * cap : 64;
+            old_row *grown = realloc(rows, grown_cap * sizeof *grown);
+            if (!grown) {
+                rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+                goto done;
+            }
+            rows = grown;
+            cap = grown_cap;
+        }
+        rows[n++] = (old_row){sqlite3_column_int64(st, 0), sqlite3_column_int64(st, 1),
+                              sqlite3_column_int64(st, 2)};
+    }
+    if (step != SQLITE_DONE) {
+        rc = db_error(s, err, "reading summaries to upgrade");
+        goto done;
+    }
+    snprintf(sql, sizeof sql,
+             "SELECT t.version, t.counters, m.name, m.members, m.classes FROM %s t "
+             "JOIN models m USING (model_id) WHERE t.model_id = ?1 AND t.day = ?2%s%s",
+             table, slice_col ? " AND t." : "", slice_col ? "slice_id = ?3" : "");
+    if (sqlite3_prepare_v2(s->db, sql, -1, &get, NULL) != SQLITE_OK) {
+        rc = db_error(s, err, "reading summaries to upgrade");
+        goto done;
+    }
+    /* the day is marked for the next publish too: a cluster reads only
+     * vectors of the current layout version (its table key holds it), and
+     * an UPDATE does not fire the publish trigger */
+    snprintf(sql, sizeof sql,
+             "UPDATE %s SET version = ?4, counters = ?5 WHERE model_id = ?1 AND day = ?2%s;",
+             table, slice_col ? " AND slice_id = ?3" : "");
+    if (sqlite3_prepare_v2(s->db, sql, -1, &put, NULL) != SQLITE_OK ||
+        sqlite3_prepare_v2(s->db, "INSERT OR REPLACE INTO publish_days(model_id, day) "
+                                  "VALUES (?1, ?2)", -1, &mark, NULL) != SQLITE_OK) {
+        rc = db_error(s, err, "upgrading summaries");
+        goto done;
+    }
+    for (size_t i = 0; i < n && !rc; i++) {
+        sqlite3_bind_int64(get, 1, rows[i].model);
+        sqlite3_bind_int64(get, 2, rows[i].day);
+        if (slice_col)
+            sqlite3_bind_int64(get, 3, rows[i].slice);
+        if (sqlite3_step(get) != SQLITE_ROW) {
+            rc = db_error(s, err, "reading a summary to upgrade");
+            break;
+        }
+        cc_model m = {rows[i].model, (char *)sqlite3_column_text(get, 2),
+                      sqlite3_column_int(get, 3), sqlite3_column_int(get, 4), NULL, NULL};
+        const cc_layout *have = sum ? cc_summary_layout(sum) : NULL;
+        if (!have || have->m != m.m || have->k != m.k) {
+            cc_summary_free(sum);
+            if (!(sum = cc_summary_create(m.m, m.k))) {
+                rc = cc_error_set(err, CC_ENOMEM, "%s: model '%s' of %d members and %d "
+                                                  "classes cannot be read (out of memory, "
+                                                  "or a shape out of range)",
+                                  s->path, m.name ? m.name : "?", m.m, m.k);
+                break;
+            }
+        }
+        char name[128];
+        snprintf(name, sizeof name, "%s", m.name ? m.name : "?");
+        rc = cc_sq_decode_summary(&s->base, &m, sqlite3_column_blob(get, 1),
+                                  sqlite3_column_bytes(get, 1), sqlite3_column_int64(get, 0),
+                                  rows[i].day, rows[i].slice, table, sum, err);
+        sqlite3_reset(get);
+        if (rc)
+            break;
+        size_t len;
+        unsigned char *blob = cc_codec_encode(cc_summary_data(sum), cc_summary_layout(sum)->len,
+                                              &len);
+        if (!blob) {
+            rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+            break;
+        }
+        sqlite3_bind_int64(put, 1, rows[i].model);
+        sqlite3_bind_int64(put, 2, rows[i].day);
+        if (slice_col)
+            sqlite3_bind_int64(put, 3, rows[i].slice);
+        sqlite3_bind_int(put, 4, CC_SUMMARY_VERSION);
+        sqlite3_bind_blob(put, 5, blob, (int)len, SQLITE_STATIC);
+        step = sqlite3_step(put);
+        sqlite3_reset(put);
+        free(blob);
+        if (step == SQLITE_DONE) {
+            sqlite3_bind_int64(mark, 1, rows[i].model);
+            sqlite3_bind_int64(mark, 2, rows[i].day);
+            step = sqlite3_step(mark);
+            sqlite3_reset(mark);
+        }
+        if (step != SQLITE_DONE) {
+            rc = db_error(s, err, "upgrading summaries");
+            break;
+        }
+        ++*done;
+        if (s->o.on_progress && now_ms() >= *next_ms) {
+            s->o.on_progress(s->o.progress_ctx, s->path, name, *done, total);
+            *next_ms = now_ms() + 2000;
+        }
+    }
+done:
+    sqlite3_finalize(st);
+    sqlite3_finalize(get);
+    sqlite3_finalize(put);
+    sqlite3_finalize(mark);
+    free(rows);
+    cc_summary_free(sum);
+    return rc;
+}
+
+/* The step to version 5: every stored summary vector (days, pruned days,
+ * slices and their pruned parts) rewritten in layout version 2, where
+ * each fixed-point sum takes two words (metrics/summary.h), and its day
+ * marked for the next publish. Idempotent:
+ * only rows of an older version are touched, so it may run on a file
+ * that another step already brought to 5. Baselines and publish marks hold
+ * no vectors. Runs inside the upgrade's transaction. */
+static int upgrade_summary_words(sq_store *s, cc_error *err)
+{
+    int64_t total = 0, done = 0, next_ms = now_ms() + 2000;
+    char sql[256];
+    int rc = 0;
+    for (size_t t = 0; t < sizeof summary_tables / sizeof *summary_tables; t++) {
+        sqlite3_stmt *st;
+        if (!has_table(s, summary_tables[t][0]))
+            continue;
+        snprintf(sql, sizeof sql, "SELECT count(*) FROM %s WHERE version != %d",
+                 summary_tables[t][0], CC_SUMMARY_VERSION);
+        if (sqlite3_prepare_v2(s->db, sql, -1, &st, NULL) != SQLITE_OK)
+            return db_error(s, err, "counting summaries to upgrade");
+        if (sqlite3_step(st) == SQLITE_ROW)
+            total += sqlite3_column_int64(st, 0);
+        sqlite3_finalize(st);
+    }
+    for (size_t t = 0; !rc && total && t < sizeof summary_tables / sizeof *summary_tables; t++)
+        if (has_table(s, summary_tables[t][0]))
+            rc = upgrade_table_words(s, summary_tables[t][0], summary_tables[t][1], &done, total,
+                                     &next_ms, err);
+    return rc;
+}
+
 /* Creates or upgrades the schema in one write transaction, unless it is
  * current already (then nothing is written). */
 static int bring_up_to_date(sq_store *s, cc_error *err)
@@ -416,7 +590,8 @@ static int bring_up_to_date(sq_store *s, cc_error *err)
         (version >= 1 && version < 4 && (rc = upgrade_v4_alert_tables(s, err))) ||
         (rc = exec(s, schema_sql, err)) || (rc = upgrade_publish_marks(s, version, err)) ||
         (rc = exec(s, slices_schema_sql, err)) ||
-        (version >= 1 && version < 4 && (rc = upgrade_to_v4_slices(s, err)))) {
+        (version >= 1 && version < 4 && (rc = upgrade_to_v4_slices(s, err))) ||
+        (version >= 1 && version < 5 && (rc = upgrade_summary_words(s, err)))) {
         sq_work_abort(&s->base);
         return rc;
     }
@@ -866,12 +1041,57 @@ static int sq_event_set_label(cc_store *store, const cc_model *m, const char *id
     return 0;
 }
 
+/* "model 'x' on 2026-01-02 (slice 3)" into buf, for error messages. */
+static const char *where_of(char *buf, size_t n, const cc_model *m, int64_t day, int64_t slice)
+{
+    char date[11];
+    cc_format_date(day, date);
+    if (slice)
+        snprintf(buf, n, "model '%s', %s, slice %lld", m->name, date, (long long)slice);
+    else
+        snprintf(buf, n, "model '%s', %s", m->name, date);
+    return buf;
+}
+
+int cc_sq_decode_summary(cc_store *s, const cc_model *m, const void *blob, int bytes,
+                         int64_t version, int64_t day, int64_t slice, const char *what,
+                         cc_summary *out, cc_error *err)
+{
+    char where[400];
+    int rc = cc_codec_decode_summary(blob, bytes > 0 ? (size_t)bytes : 0, version, out);
+    if (rc == -3)
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    if (rc == -2)
+        return cc_error_set(err, CC_EIO,
+                            "%s: %s of %s has layout version %lld, this concord reads 1 to %d",
+                            cc_store_path(s), what, where_of(where, sizeof where, m, day, slice),
+                            (long long)version, CC_SUMMARY_VERSION);
+    if (rc)
+        return cc_error_set(err, CC_EIO, "%s: %s of %s is damaged", cc_store_path(s), what,
+                            where_of(where, sizeof where, m, day, slice));
+    return 0;
+}
+
+int cc_sq_merge(cc_store *s, const cc_model *m, int64_t day, int64_t slice, cc_summary *dst,
+                const cc_summary *src, cc_error *err)
+{
+    char where[400];
+    int rc = cc_summary_merge(dst, src);
+    if (rc == CC_SUMMARY_OVERFLOW)
+        return cc_error_set(err, CC_EIO,
+                            "%s: summary counter overflow at %s; nothing was written",
+                            cc_store_path(s), where_of(where, sizeof where, m, day, slice));
+    if (rc)
+        return cc_error_set(err, CC_EIO, "%s: summary of %s has another shape",
+                            cc_store_path(s), where_of(where, sizeof where, m, day, slice));
+    return 0;
+}
+
 static int sq_summary_get(cc_store *store, const cc_model *m, int64_t day, cc_summary *out,
                          cc_error *err)
 {
     sq_store *s = SQ(store);
     sqlite3_stmt *st = stmt(s, ST_SUMMARY_GET);
-    const cc_layout *lay = cc_summary_layout(out);
     sqlite3_bind_int64(st, 1, m->id);
     sqlite3_bind_int64(st, 2, day);
     int step = sqlite3_step(st);
@@ -880,23 +1100,11 @@ static int sq_summary_get(cc_store *store, const cc_model *m, int64_t day, cc_su
         return 0;
     if (step != SQLITE_ROW)
         return db_error(s, err, "reading summary");
-    char date[11];
-    cc_format_date(day, date);
-    sqlite3_int64 version = sqlite3_column_int64(st, 0); /* read before the reset */
-    if (version != CC_SUMMARY_VERSION) {
-        sqlite3_reset(st);
-        return cc_error_set(err, CC_EIO,
-                            "%s: summary of %s for model '%s' has layout version %lld, "
-                            "expected %d",
-                            s->path, date, m->name, (long long)version, CC_SUMMARY_VERSION);
-    }
-    int rc = cc_codec_decode(sqlite3_column_blob(st, 1), (size_t)sqlite3_column_bytes(st, 1),
-                             cc_summary_data_mut(out), lay->len);
+    int rc = cc_sq_decode_summary(store, m, sqlite3_column_blob(st, 1),
+                                  sqlite3_column_bytes(st, 1), sqlite3_column_int64(st, 0), day,
+                                  0, "summary", out, err);
     sqlite3_reset(st);
-    if (rc)
-        return cc_error_set(err, CC_EIO, "%s: summary of %s for model '%s' is damaged",
-                            s->path, date, m->name);
-    return 0;
+    return rc;
 }
 
 static int summary_put(sq_store *s, const cc_model *m, int64_t day, const cc_summary *sum,
@@ -905,6 +1113,12 @@ static int summary_put(sq_store *s, const cc_model *m, int64_t day, const cc_sum
     const cc_layout *lay = cc_summary_layout(sum);
     const int64_t *v = cc_summary_data(sum);
     size_t len;
+    if (cc_summary_overflowed(sum)) {
+        char where[400];
+        return cc_error_set(err, CC_EIO,
+                            "%s: summary counter overflow at %s; nothing was written", s->path,
+                            where_of(where, sizeof where, m, day, 0));
+    }
     unsigned char *blob = cc_codec_encode(v, lay->len, &len);
     if (!blob)
         return cc_error_set(err, CC_ENOMEM, "out of memory");
@@ -932,10 +1146,10 @@ static int sq_summary_add(cc_store *store, const cc_model *m, int64_t day, const
             return cc_error_set(err, CC_ENOMEM, "out of memory");
     }
     int rc = sq_summary_get(&s->base, m, day, s->scratch, err);
-    if (!rc) {
-        cc_summary_merge(s->scratch, delta);
+    if (!rc)
+        rc = cc_sq_merge(store, m, day, 0, s->scratch, delta, err);
+    if (!rc)
         rc = summary_put(s, m, day, s->scratch, err);
-    }
     return rc;
 }
 
@@ -1138,7 +1352,6 @@ static int sq_pruned_get(cc_store *store, const cc_model *m, int64_t day, int *f
 {
     sq_store *s = SQ(store);
     sqlite3_stmt *st = NULL;
-    const cc_layout *lay = cc_summary_layout(out);
     *found = 0;
     cc_summary_clear(out);
     if (!has_table(s, "pruned_days"))
@@ -1151,14 +1364,10 @@ static int sq_pruned_get(cc_store *store, const cc_model *m, int64_t day, int *f
     sqlite3_bind_int64(st, 2, day);
     int step = sqlite3_step(st), rc = 0;
     if (step == SQLITE_ROW) {
-        char date[11];
-        cc_format_date(day, date);
         *found = 1;
-        if (sqlite3_column_int64(st, 0) != CC_SUMMARY_VERSION ||
-            cc_codec_decode(sqlite3_column_blob(st, 1), (size_t)sqlite3_column_bytes(st, 1),
-                            cc_summary_data_mut(out), lay->len))
-            rc = cc_error_set(err, CC_EIO, "%s: pruned part of %s for model '%s' is damaged",
-                              s->path, date, m->name);
+        rc = cc_sq_decode_summary(store, m, sqlite3_column_blob(st, 1),
+                                  sqlite3_column_bytes(st, 1), sqlite3_column_int64(st, 0), day, 0,
+                                  "pruned part", out, err);
     } else if (step != SQLITE_DONE) {
         rc = db_error(s, err, "reading pruned days");
     }
@@ -1187,7 +1396,8 @@ static int sq_prune_day(cc_store *store, const cc_model *m, int64_t day, int64_t
         goto done;
     if ((rc = sq_pruned_get(&s->base, m, day, &found, kept, err)))
         goto done;
-    cc_summary_merge(kept, rows);
+    if ((rc = cc_sq_merge(store, m, day, 0, kept, rows, err)))
+        goto done;
     size_t len;
     if (!(blob = cc_codec_encode(cc_summary_data(kept), lay->len, &len))) {
         rc = cc_error_set(err, CC_ENOMEM, "out of memory");

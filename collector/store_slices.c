@@ -277,16 +277,8 @@ int cc_sq_slice_list(cc_store *s, const cc_model *m, cc_slice **out, int *n, cc_
 static int decode_row(cc_store *s, const cc_model *m, sqlite3_stmt *st, int64_t day,
                       int64_t slice, const char *what, cc_summary *out, cc_error *err)
 {
-    const cc_layout *lay = cc_summary_layout(out);
-    if (sqlite3_column_int64(st, 0) != CC_SUMMARY_VERSION ||
-        cc_codec_decode(sqlite3_column_blob(st, 1), (size_t)sqlite3_column_bytes(st, 1),
-                        cc_summary_data_mut(out), lay->len)) {
-        char date[11];
-        cc_format_date(day, date);
-        return cc_error_set(err, CC_EIO, "%s: %s of %s, slice %lld, model '%s' is damaged",
-                            cc_store_path(s), what, date, (long long)slice, m->name);
-    }
-    return 0;
+    return cc_sq_decode_summary(s, m, sqlite3_column_blob(st, 1), sqlite3_column_bytes(st, 1),
+                                sqlite3_column_int64(st, 0), day, slice, what, out, err);
 }
 
 static int get_row(cc_store *s, const cc_model *m, const char *sql, const char *what,
@@ -339,6 +331,14 @@ static int put_row(cc_store *s, const cc_model *m, int pruned, int64_t day, int6
     size_t len;
     sqlite3_stmt *st;
     int rc;
+    if (cc_summary_overflowed(sum)) {
+        char date[11];
+        cc_format_date(day, date);
+        return cc_error_set(err, CC_EIO,
+                            "%s: summary counter overflow at model '%s', %s, slice %lld; "
+                            "nothing was written", cc_store_path(s), m->name, date,
+                            (long long)slice);
+    }
     unsigned char *blob = cc_codec_encode(v, lay->len, &len);
     if (!blob)
         return cc_error_set(err, CC_ENOMEM, "out of memory");
@@ -372,10 +372,10 @@ int cc_sq_slice_summary_add(cc_store *s, const cc_model *m, int64_t day, int64_t
     if (!sum)
         return cc_error_set(err, CC_ENOMEM, "out of memory");
     int rc = cc_sq_slice_summary_get(s, m, day, slice, sum, err);
-    if (!rc) {
-        cc_summary_merge(sum, delta);
+    if (!rc)
+        rc = cc_sq_merge(s, m, day, slice, sum, delta, err);
+    if (!rc)
         rc = put_row(s, m, 0, day, slice, sum, 0, err);
-    }
     cc_summary_free(sum);
     return rc;
 }
@@ -511,10 +511,9 @@ int cc_sq_slice_prune_day(cc_store *s, const cc_model *m, int64_t day, int64_t n
         int found;
         if (cc_summary_data(parts[i])[lay->n_events] == 0)
             continue;
-        if (!(rc = cc_sq_slice_pruned_get(s, m, day, list[i].id, &found, kept, err))) {
-            cc_summary_merge(kept, parts[i]);
+        if (!(rc = cc_sq_slice_pruned_get(s, m, day, list[i].id, &found, kept, err)) &&
+            !(rc = cc_sq_merge(s, m, day, list[i].id, kept, parts[i], err)))
             rc = put_row(s, m, 1, day, list[i].id, kept, now, err);
-        }
     }
 done:
     summaries_free(parts, n);

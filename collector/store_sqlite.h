@@ -53,6 +53,16 @@ int cc_sq_exec(sq_store *s, const char *sql, cc_error *err);
 sqlite3_stmt *cc_sq_stmt(sq_store *s, int which);
 /* 1 when the table exists (a reader may open an older schema). */
 int cc_sq_has_table(sq_store *s, const char *name);
+/* Decodes a stored (version, counters) row of `what` into out (summary.h's
+ * conversion of older layouts); a damaged or unknown row is an error naming
+ * the model, day and slice (0 = the model's own row). */
+int cc_sq_decode_summary(cc_store *s, const cc_model *m, const void *blob, int bytes,
+                         int64_t version, int64_t day, int64_t slice, const char *what,
+                         cc_summary *out, cc_error *err);
+/* dst += src, or an error "summary counter overflow" naming the model, day
+ * and slice; never writes a wrapped counter. */
+int cc_sq_merge(cc_store *s, const cc_model *m, int64_t day, int64_t slice, cc_summary *dst,
+                const cc_summary *src, cc_error *err);
 /* Steps st (bound, not yet stepped) and appends its first column to
  * the array *days of *n days (caller frees it); finalizes st. Errors name what. */
 int cc_sq_collect_days(sq_store *s, sqlite3_stmt *st, const char *what, int64_t **days, int *n,

@@ -1,4 +1,5 @@
-/* summary_codec.c — zero-run + zigzag-varint encoding of summary counters. */
+/* summary_codec.c — zero-run + zigzag-varint encoding of summary counters,
+ * and reading a stored summary of any layout version still understood. */
 #include "summary_codec.h"
 
 #include <stdlib.h>
@@ -91,4 +92,30 @@ int cc_codec_decode(const unsigned char *buf, size_t len, int64_t *v, size_t n)
         v[i++] = (int64_t)(z >> 1) ^ -(int64_t)(z & 1);
     }
     return i == n ? 0 : -1;
+}
+
+int cc_codec_decode_summary(const unsigned char *buf, size_t len, int64_t version,
+                            cc_summary *out)
+{
+    const cc_layout *lay = cc_summary_layout(out);
+    cc_layout old;
+    if (version == CC_SUMMARY_VERSION) {
+        cc_summary_clear(out);
+        if (cc_codec_decode(buf, len, cc_summary_data_mut(out), lay->len) ||
+            !cc_layout_is_normalized(lay, cc_summary_data(out)))
+            return -1;
+        return 0;
+    }
+    if (version < 1 || version > CC_SUMMARY_VERSION ||
+        cc_layout_init_version(&old, lay->m, lay->k, (int)version))
+        return -2;
+    int64_t *v = malloc(old.len * sizeof *v);
+    if (!v)
+        return -3;
+    int rc = cc_codec_decode(buf, len, v, old.len) ||
+                     cc_summary_convert(out, v, old.len, (int)version)
+                 ? -1
+                 : 0;
+    free(v);
+    return rc;
 }

@@ -32,13 +32,13 @@ static void set_undefined(cc_calibration *out)
  *   NLL = -(1/n) sum_i ln max(p_i,y_i, CC_NLL_EPS)  (nats).
  * n = sum of the bin counts; n = 0, or counters that cannot come from events
  * (negative count, correct outside 0..count), leave everything undefined. */
-void cc_calibration_compute(cc_calibration *out, const int64_t *calib, int64_t brier_fx,
-                            int64_t nll_fx)
+void cc_calibration_compute(cc_calibration *out, const int64_t *calib, const int64_t *brier_fx,
+                            const int64_t *nll_fx)
 {
     set_undefined(out);
     int64_t n = 0;
     for (int b = 0; b < CC_CALIB_BINS; b++) {
-        int64_t count = calib[b * 3 + 0], correct = calib[b * 3 + 1];
+        int64_t count = calib[b * CC_CALIB_STRIDE + 0], correct = calib[b * CC_CALIB_STRIDE + 1];
         if (count < 0 || correct < 0 || correct > count)
             return;
         n += count;
@@ -48,12 +48,12 @@ void cc_calibration_compute(cc_calibration *out, const int64_t *calib, int64_t b
 
     double gap_sum = 0.0, mce = 0.0;
     for (int b = 0; b < CC_CALIB_BINS; b++) {
-        int64_t count = calib[b * 3 + 0];
+        int64_t count = calib[b * CC_CALIB_STRIDE + 0];
         out->bins[b].count = count;
         if (count == 0)
             continue;
-        double correct = (double)calib[b * 3 + 1];
-        double conf_sum = (double)calib[b * 3 + 2] / CC_FIXED_SCALE;
+        double correct = (double)calib[b * CC_CALIB_STRIDE + 1];
+        double conf_sum = cc_wide_value(calib + b * CC_CALIB_STRIDE + 2) / CC_FIXED_SCALE;
         out->bins[b].confidence = conf_sum / (double)count;
         out->bins[b].accuracy = correct / (double)count;
         gap_sum += fabs(correct - conf_sum);
@@ -64,6 +64,6 @@ void cc_calibration_compute(cc_calibration *out, const int64_t *calib, int64_t b
     out->n = n;
     out->ece = gap_sum / (double)n;
     out->mce = mce;
-    out->brier = (double)brier_fx / CC_FIXED_SCALE / (double)n;
-    out->nll = (double)nll_fx / CC_FIXED_SCALE / (double)n;
+    out->brier = cc_wide_value(brier_fx) / CC_FIXED_SCALE / (double)n;
+    out->nll = cc_wide_value(nll_fx) / CC_FIXED_SCALE / (double)n;
 }

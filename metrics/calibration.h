@@ -24,9 +24,10 @@ typedef struct cc_calibration {
     cc_calib_bin bins[CC_CALIB_BINS];
 } cc_calibration;
 
-/* calib: CC_CALIB_BINS triples (count, correct, confidence_fx);
- * brier_fx, nll_fx: sums in fixed point (CC_FIXED_SCALE). */
-void cc_calibration_compute(cc_calibration *out, const int64_t *calib, int64_t brier_fx,
-                            int64_t nll_fx);
+/* calib: CC_CALIB_BINS bins of CC_CALIB_STRIDE counters (count, correct,
+ * confidence_fx as a wide sum); brier_fx, nll_fx: wide sums in fixed point
+ * (CC_FIXED_SCALE), see summary.h. */
+void cc_calibration_compute(cc_calibration *out, const int64_t *calib, const int64_t *brier_fx,
+                            const int64_t *nll_fx);
 
 #endif

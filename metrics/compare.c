@@ -75,8 +75,8 @@ static int em_from_cells(cc_comparison *out, const cc_layout *L, const int64_t *
         goto done;
     }
     for (int g = 0; g < cells; g++) {
-        const int64_t *cell = v + L->em_cells + (size_t)g * (size_t)(k + 1);
-        const int64_t *bcell = bv + L->em_cells + (size_t)g * (size_t)(k + 1);
+        const int64_t *cell = v + L->em_cells + (size_t)g * L->em_stride;
+        const int64_t *bcell = bv + L->em_cells + (size_t)g * L->em_stride;
         const int64_t *blab = bv + L->em_cell_labels + (size_t)g * (size_t)k;
         if (cell[0] <= 0)
             continue;
@@ -86,7 +86,7 @@ static int em_from_cells(cc_comparison *out, const cc_layout *L, const int64_t *
             nlab += blab[c];
         double *row = post + (size_t)n * k, sum = 0.0;
         for (int c = 0; c < k; c++) {
-            double mean = (double)mean_of[1 + c] / CC_FIXED_SCALE / (double)mean_of[0];
+            double mean = cc_wide_value(mean_of + 1 + 2 * c) / CC_FIXED_SCALE / (double)mean_of[0];
             row[c] = ((double)blab[c] + EM_PRIOR_WEIGHT * mean) / ((double)nlab + EM_PRIOR_WEIGHT);
             sum += row[c];
         }
@@ -180,16 +180,18 @@ int cc_comparison_compute_cached(cc_comparison *out, const cc_summary *w, const 
 
     const int64_t events = v[L->n_events], labeled = v[L->n_labeled];
     out->has_labels = labeled > 0;
-    cc_calibration_compute(&out->calibration, v + L->calib, v[L->brier_fx], v[L->nll_fx]);
+    cc_calibration_compute(&out->calibration, v + L->calib, v + L->brier_fx, v + L->nll_fx);
     for (int i = 0; i < m; i++)
         cc_calibration_compute(&out->member_calibration[i],
-                               v + L->member_calib + (size_t)i * CC_CALIB_BINS * 3,
-                               v[L->member_brier_fx + i], v[L->member_nll_fx + i]);
+                               v + L->member_calib + (size_t)i * CC_CALIB_BINS * CC_CALIB_STRIDE,
+                               v + L->member_brier_fx + 2 * (size_t)i,
+                               v + L->member_nll_fx + 2 * (size_t)i);
     out->label_coverage = events > 0 ? (double)labeled / (double)events : NAN;
     out->delayed_labels = v[L->delayed_labels];
-    out->mean_label_delay_hours =
-        out->delayed_labels > 0 ? (double)v[L->label_delay_s] / 3600.0 / (double)out->delayed_labels
-                                : NAN;
+    out->mean_label_delay_hours = out->delayed_labels > 0
+                                      ? cc_wide_value(v + L->label_delay_s) / 3600.0 /
+                                            (double)out->delayed_labels
+                                      : NAN;
     for (int c = 0; labeled > 0 && c < k; c++)
         out->label_mix[c] = (double)v[L->label_counts + c] / (double)labeled;
 

@@ -10,6 +10,26 @@
  * Fixed-point sums hold nats (or squared-probability units) times
  * CC_FIXED_SCALE, rounded per event with llround().
  *
+ * Wide sums (layout version 2). A fixed-point sum grows by up to 34.5e9
+ * units per event (the log-loss at CC_NLL_EPS), so one int64 would wrap
+ * after about 2.7e8 events. Every fixed-point sum, and the seconds of label
+ * delay, is therefore two counters (lo, hi) with value hi * 2^32 + lo, lo in
+ * [0, 2^32) and hi signed: "normalized". Adding an event or merging carries
+ * lo's excess into hi with floor division, so retractions (negative
+ * amounts) work too. Why two words rather than a coarser scale: every
+ * counter stays an int64 element, so merging stays element-wise addition
+ * everywhere (C, and sumForEach on a ClickHouse cluster, which cannot
+ * carry): up to 2^31 normalized vectors add without lo overflowing, and the
+ * reader normalizes. Capacity: 1e12 events x 34.5e9 units / 2^32 gives
+ * hi ~ 8e12, six orders below 2^63; counts stay one word (1e12 < 2^63).
+ * Precision: reading hi * 2^32 + lo as a double keeps 2^-52 relative,
+ * far inside the 1e-9 of the fixed point.
+ *
+ * Overflow is detected, never wrapped: every add, merge and retraction of a
+ * count or hi word is checked. A summary that overflowed is marked
+ * (cc_summary_overflowed), every merge with it fails, and the store and the
+ * publisher refuse to write it.
+ *
  * Pure numbers: no I/O, no globals. */
 #ifndef CC_METRICS_SUMMARY_H
 #define CC_METRICS_SUMMARY_H
@@ -21,9 +41,18 @@
 #define CC_CALIB_BINS 15       /* equal-width confidence bins, Guo et al. 2017 */
 #define CC_HIST_BINS 2048      /* fine score histograms, see cc_hist_bin_* */
 #define CC_EM_BINS 10          /* confidence cells per predicted class for EM, see em_cells */
-#define CC_SUMMARY_VERSION 1   /* bump when the layout below changes */
+#define CC_SUMMARY_VERSION 2   /* bump when the layout below changes (2: wide sums) */
 #define CC_MAX_MEMBERS 64
 #define CC_MAX_CLASSES 256
+#define CC_WIDE_BASE 4294967296.0 /* 2^32: a wide sum is hi * CC_WIDE_BASE + lo */
+#define CC_CALIB_STRIDE 4      /* counters per calibration bin: count, correct, confidence (wide) */
+
+/* Wide sums in a layout: for o < outer, i < inner, a (lo, hi) pair starts at
+ * at + o * outer_stride + 2 * i. */
+typedef struct cc_wide_run {
+    size_t at, outer, outer_stride, inner;
+} cc_wide_run;
+#define CC_WIDE_RUNS 12
 
 /* Offsets (in counters) of each section; all derived from m and k. */
 typedef struct cc_layout {
@@ -36,8 +65,8 @@ typedef struct cc_layout {
     size_t member_pred;        /* M*K: member m predicted class c */
     size_t pair_agree;         /* P: members i and j of pair p predict the same class */
     size_t fleiss_sumsq;       /* 1: sum over events of sum_c n_c^2, n_c = members voting c */
-    size_t tu_fx;              /* 1: sum of H(mean p) */
-    size_t au_fx;              /* 1: sum of mean_m H(p_m) */
+    size_t tu_fx;              /* 2 (wide): sum of H(mean p) */
+    size_t au_fx;              /* 2 (wide): sum of mean_m H(p_m) */
     size_t contested;          /* K*K: [a*K+b], a<b, top-two of averaged output when member argmaxes differ */
     size_t hist_maxprob;       /* HIST_BINS: max_k of averaged output, probability binning */
     size_t hist_entropy;       /* HIST_BINS: H(mean p), nats binning */
@@ -56,19 +85,25 @@ typedef struct cc_layout {
     size_t n_right_hist;       /* M+1: events on which exactly l members are right */
     size_t ens_only;           /* M: ensemble right, member m wrong */
     size_t member_only;        /* M: member m right, ensemble wrong */
-    size_t calib;              /* CALIB_BINS*3: count, correct, confidence_fx of averaged output */
-    size_t brier_fx;           /* 1: sum_k (p_k - o_k)^2 of averaged output */
-    size_t nll_fx;             /* 1: -ln max(p_y, CC_NLL_EPS) of averaged output */
-    size_t member_calib;       /* M*CALIB_BINS*3 */
-    size_t member_brier_fx;    /* M */
-    size_t member_nll_fx;      /* M */
+    size_t calib;              /* CALIB_BINS*CALIB_STRIDE: count, correct, confidence_fx
+                                  (wide) of averaged output */
+    size_t brier_fx;           /* 2 (wide): sum_k (p_k - o_k)^2 of averaged output */
+    size_t nll_fx;             /* 2 (wide): -ln max(p_y, CC_NLL_EPS) of averaged output */
+    size_t member_calib;       /* M*CALIB_BINS*CALIB_STRIDE */
+    size_t member_brier_fx;    /* M*2 (wide) */
+    size_t member_nll_fx;      /* M*2 (wide) */
     /* label-free again (added for label-shift estimation and label age) */
-    size_t em_cells;           /* K*EM_BINS*(1+K): per (predicted class, confidence cell):
-                                  count, then K sums of the averaged output (fixed point) */
+    size_t em_cells;           /* K*EM_BINS*em_stride: per (predicted class, confidence cell):
+                                  count, then K wide sums of the averaged output (fixed point) */
+    size_t em_stride;          /* 1 + 2K counters per EM cell */
     size_t em_cell_labels;     /* K*EM_BINS*K: labelled events per (cell, true class), to
                                   recalibrate the cells' posteriors (histogram binning) */
     size_t delayed_labels;     /* 1: labels that arrived after their event was stored */
-    size_t label_delay_s;      /* 1: sum of (label arrival - event time), seconds */
+    size_t label_delay_s;      /* 2 (wide): sum of (label arrival - event time), seconds */
+    int version;               /* CC_SUMMARY_VERSION, or 1 (one word per sum) for conversion */
+    int n_runs;                /* wide sums, in ascending order (version 2 only) */
+    cc_wide_run runs[CC_WIDE_RUNS];
+    size_t n_wide;             /* number of wide sums */
 } cc_layout;
 
 #define CC_NLL_EPS 1e-15       /* probability floor for the log-loss (common practice) */
@@ -92,12 +127,40 @@ const cc_layout *cc_summary_layout(const cc_summary *s);
 const int64_t *cc_summary_data(const cc_summary *s);
 int64_t *cc_summary_data_mut(cc_summary *s);
 
-/* dst += src. Returns -1 if the layouts differ. */
+/* The layout of an older version, for reading stored vectors of it:
+ * version 1 = this layout with every wide sum one word. Returns -1 for an
+ * unknown version or a bad shape. */
+int cc_layout_init_version(cc_layout *out, int m, int k, int version);
+
+/* dst += src. Returns 0, -1 if the layouts differ, or CC_SUMMARY_OVERFLOW
+ * if a counter would overflow or either summary overflowed before: dst is
+ * then marked overflowed (its counters are not to be used). dst may be src. */
+#define CC_SUMMARY_OVERFLOW (-2)
 int cc_summary_merge(cc_summary *dst, const cc_summary *src);
-/* dst += sign * src, sign = +1 or -1. */
+/* dst += sign * src, sign = +1 or -1 (a retraction); returns as merge. */
 int cc_summary_merge_signed(cc_summary *dst, const cc_summary *src, int sign);
 /* 1 if every counter is equal. */
 int cc_summary_equal(const cc_summary *a, const cc_summary *b);
+/* 1 if an add or merge into s overflowed (cc_summary_clear resets it). */
+int cc_summary_overflowed(const cc_summary *s);
+
+/* Brings every wide sum of v (a vector of layout L written through
+ * cc_summary_data_mut or summed element-wise elsewhere) to lo in [0, 2^32).
+ * Returns 0, or CC_SUMMARY_OVERFLOW if a hi word would overflow. */
+int cc_layout_normalize(const cc_layout *L, int64_t *v);
+/* The same on a summary; marks it overflowed on failure. */
+int cc_summary_normalize(cc_summary *s);
+/* 1 if every wide sum of v is normalized. */
+int cc_layout_is_normalized(const cc_layout *L, const int64_t *v);
+
+/* Converts v_old (n_old counters of an older layout version of the same
+ * shape as out) into out. Returns 0, or -1 if the length does not match. */
+int cc_summary_convert(cc_summary *out, const int64_t *v_old, size_t n_old, int version);
+
+/* A wide sum's value hi * 2^32 + lo, as a double (2^-52 relative). */
+double cc_wide_value(const int64_t *w);
+/* Sets a wide sum to x, normalized (for loading and tests). */
+void cc_wide_set(int64_t *w, int64_t x);
 
 /* Contribution of one event, probs = M rows of K probabilities (row-major).
  * Values should already be what storage keeps (float32) so that a summary

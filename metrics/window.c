@@ -146,8 +146,8 @@ static void label_free_part(cc_window_metrics *out, const cc_layout *L, const in
 
     if (out->events > 0) {
         double events = (double)out->events;
-        out->entropy = (double)v[L->tu_fx] / CC_FIXED_SCALE / events;
-        out->expected_entropy = (double)v[L->au_fx] / CC_FIXED_SCALE / events;
+        out->entropy = cc_wide_value(v + L->tu_fx) / CC_FIXED_SCALE / events;
+        out->expected_entropy = cc_wide_value(v + L->au_fx) / CC_FIXED_SCALE / events;
         double mi = out->entropy - out->expected_entropy;
         out->mutual_information = mi > 0.0 ? mi : 0.0;
     }

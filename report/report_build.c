@@ -108,6 +108,19 @@ static int load_slices(cc_report *r, cc_store *store, const cc_report_opts *opts
                         r->n_slices ? names : "none (no events yet)");
 }
 
+/* dst += the summary of one day (of a slice when slice is not NULL); an
+ * overflowing counter is an error, never a wrapped figure (summary.h). */
+static int merge_day(cc_summary *dst, const cc_summary *src, const cc_model *m, int64_t day,
+                     const char *slice, cc_error *err)
+{
+    if (cc_summary_merge(dst, src) == 0)
+        return 0;
+    char date[11];
+    cc_format_date(day, date);
+    return cc_error_set(err, CC_EIO, "summary counter overflow at model '%s', %s%s%s",
+                        m->name, date, slice ? ", slice " : "", slice ? slice : "");
+}
+
 /* Each slice's baseline (--by-segment): its days within the baseline period, merged. */
 static int load_slice_baselines(cc_report *r, cc_store *store, cc_summary *day_sum,
                                 cc_error *err)
@@ -128,7 +141,8 @@ static int load_slice_baselines(cc_report *r, cc_store *store, cc_summary *day_s
         for (int d = 0; d < n && !rc; d++)
             if (!(rc = cc_store_slice_summary_get(store, m, days[d], r->slices[i].id, day_sum,
                                                   err)))
-                cc_summary_merge(r->slice_baselines[i], day_sum);
+                rc = merge_day(r->slice_baselines[i], day_sum, m, days[d],
+                               cc_slice_name(&r->slices[i]), err);
         free(days);
         if (rc)
             return rc;
@@ -160,9 +174,9 @@ static int load_baseline(cc_report *r, cc_store *store, cc_summary *day_sum, cc_
         goto done;
     }
     for (int i = 0; i < n_days; i++) {
-        if ((rc = src_get(r, store, days[i], day_sum, err)))
+        if ((rc = src_get(r, store, days[i], day_sum, err)) ||
+            (rc = merge_day(r->baseline, day_sum, m, days[i], NULL, err)))
             goto done;
-        cc_summary_merge(r->baseline, day_sum);
     }
     if (cc_comparison_cache_create(&r->cmp_cache, r->baseline) != 0) {
         rc = cc_error_set(err, CC_ENOMEM, "out of memory");
@@ -266,6 +280,12 @@ static int finish_window(cc_report *r, cc_report_window *w, cc_summary *sum,
                          cc_summary *const *seg, double *level, cc_report_window_fn fn,
                          void *payload, cc_error *err)
 {
+    if (cc_summary_overflowed(sum)) { /* an hour's rows added past 2^63 (summary.h) */
+        char date[11];
+        cc_format_date(w->from, date);
+        return cc_error_set(err, CC_EIO, "summary counter overflow at model '%s', %s",
+                            r->model->name, date);
+    }
     if (window_figures(w, sum, r->baseline, r->cmp_cache) || score_window(r, w, level) ||
         (seg && segment_rows(r, w, sum, seg)))
         return cc_error_set(err, CC_ENOMEM, "out of memory");
@@ -449,12 +469,13 @@ static int stream(cc_report *r, cc_store *store, const cc_report_opts *opts,
             if (opts->has_to && w.to > opts->to)
                 w.to = opts->to;
         }
-        cc_summary_merge(win_sum, day_sum);
+        if ((rc = merge_day(win_sum, day_sum, m, days[i], NULL, err)))
+            goto done;
         for (int j = 0; seg && j < r->n_slices; j++) {
             if ((rc = cc_store_slice_summary_get(store, m, days[i], r->slices[j].id, day_sum,
-                                                 err)))
+                                                 err)) ||
+                (rc = merge_day(seg[j], day_sum, m, days[i], cc_slice_name(&r->slices[j]), err)))
                 goto done;
-            cc_summary_merge(seg[j], day_sum);
         }
     }
     if (have && (rc = finish_window(r, &w, win_sum, seg, level, fn, payload, err)))
@@ -503,7 +524,8 @@ static int keep_window(void *payload, const cc_report *same, cc_report_window *w
         r->windows = grown;
         r->cap_windows = cap;
     }
-    cc_summary_merge(r->range, w->summary);
+    if (cc_summary_merge(r->range, w->summary) != 0)
+        return 1;
     cc_report_window *kept = &r->windows[r->n_windows++];
     *kept = *w;
     kept->summary = NULL;

@@ -65,7 +65,7 @@ sum_before=$(sha256sum < "$OLD")
 # the first writer converts: the same file again, every line a duplicate
 "$C" ingest --db "$OLD" --model g "$T/first.jsonl" 2> "$T/err" || fail "ingest into version 2: $(cat "$T/err")"
 grep -q " 0 events stored, $rows duplicates skipped" "$T/err" || fail "duplicates after the conversion: $(cat "$T/err")"
-[ "$(q "$OLD" "SELECT value FROM meta WHERE key = 'schema_version'")" = 4 ] || fail "schema version not 4 (the current one)"
+[ "$(q "$OLD" "SELECT value FROM meta WHERE key = 'schema_version'")" = 5 ] || fail "schema version not 5 (the current one)"
 layout "$OLD" | grep -q 'WITHOUT ROWID' && fail "events is still WITHOUT ROWID"
 [ "$(q "$OLD" "SELECT count(*) FROM sqlite_master WHERE type = 'index' AND name IN ('events_by_id', 'events_by_time')")" = 2 ] ||
   fail "indexes after the conversion: $(q "$OLD" "SELECT group_concat(name) FROM sqlite_master WHERE type = 'index'")"

@@ -4,8 +4,9 @@
 # ingested and labelled into SQLite, published, and every report read back
 # through --store equals the one read with --db (counts exactly, real values
 # within 1e-9 relative, json_same.py); review and show too. Then publishing
-# again, twice, changes nothing in the cluster, and --store sqlite:PATH is
-# --db PATH.
+# again, twice, changes nothing in the cluster, a vector past the per-row
+# bound is refused by the publisher and a sum that cannot be proven free of
+# overflow by the readers, and --store sqlite:PATH is --db PATH.
 # The store backend's row reads that no command uses yet are compared with
 # the SQLite file's rows through ch_store_probe.
 # Usage: single_server.sh CONCORD SOURCE_DIR [CH_STORE_PROBE]
@@ -152,6 +153,56 @@ head -n 300 "$T/d/events.jsonl" > "$T/part.jsonl"
 same "$T/pk2-sq.json" "$T/pk2-ch.json" "ingest --publish, label --publish: report pk2"
 rc=0; "$C" ingest --db "$T/h3.db" --publish "http://x" "$T/part.jsonl" 2> /dev/null || rc=$?
 [ $rc = 2 ] || fail "ingest --publish http://x: exit $rc, expected 2"
+
+# overflow (cluster/ch_vector.h): sumForEach wraps silently, so a published
+# vector must stay within +-2^47 per counter and a reader proves the sum.
+# A publisher refuses a vector past the bound (its store edited here: the
+# day's event count set to 2^48), and sends nothing of it.
+cp "$T/h2.db" "$T/big.db"
+/usr/bin/python3 - "$T/big.db" <<'PY'
+import sqlite3, sys
+# summary_codec.c: (varint zero run, zigzag varint value) pairs
+def uvar(b, i):
+    x = s = 0
+    while True:
+        c = b[i]; i += 1; x |= (c & 0x7f) << s; s += 7
+        if c < 0x80: return x, i
+def put(x):
+    out = bytearray()
+    while x >= 0x80: out.append((x & 0x7f) | 0x80); x >>= 7
+    out.append(x); return bytes(out)
+db = sqlite3.connect(sys.argv[1])
+day, blob = db.execute("SELECT day, counters FROM summaries ORDER BY day LIMIT 1").fetchone()
+run, i = uvar(blob, 0)
+assert run == 0, "counter 0 (events) is not stored first"
+z, i = uvar(blob, i)
+big = 1 << 48
+db.execute("UPDATE summaries SET counters = ?, events = ? WHERE day = ?",
+           (put(0) + put(big << 1) + blob[i:], big, day))
+db.execute("DELETE FROM publish_state")
+db.execute("INSERT OR IGNORE INTO publish_days(model_id, day) SELECT model_id, day FROM summaries")
+db.commit()
+PY
+rows_before=$(ch_query 1 "SELECT count() FROM concord.summaries WHERE source = 'host-big'")
+rc=0; "$C" publish --db "$T/big.db" --store "$U" --source host-big > "$T/big.out" 2>&1 || rc=$?
+[ $rc != 0 ] && grep -q "summary counter overflow at model 'pk2'.*per-row bound of 2^47" "$T/big.out" \
+  || fail "a vector past the bound was published: exit $rc, $(cat "$T/big.out")"
+[ "$(ch_query 1 "SELECT count() FROM concord.summaries WHERE source = 'host-big'")" = "$rows_before" ] \
+  || fail "rows of the refused publish reached the cluster"
+# a reader refuses a sum it cannot prove: a row past the bound written by
+# another client (one counter of a copy of a real row raised by 2^50)
+ch_query 1 "INSERT INTO concord.summaries SELECT model, day, layout_version, slice, 'rogue', seq, events, arrayMap((x, i) -> if(i = 1, x + toInt64(1125899906842624), x), counters, arrayEnumerate(counters)) FROM concord.summaries FINAL WHERE model = 'pk2' AND slice = '' AND source = 'host-2' ORDER BY day LIMIT 1" > /dev/null
+rc=0; "$C" report --store "$U" --model pk2 --by all --format json > /dev/null 2> "$T/rogue.err" || rc=$?
+[ $rc = 3 ] && grep -q "cannot be proven free of overflow" "$T/rogue.err" \
+  || fail "a sum past the bound was read: exit $rc, $(cat "$T/rogue.err")"
+# (the HTML report with its review sample reads through a fetched copy, fetch.c)
+rc=0; "$C" report --store "$U" --model pk2 --format html -o "$T/rogue.html" 2> "$T/rogue2.err" || rc=$?
+[ $rc = 3 ] && grep -q "cannot be proven free of overflow" "$T/rogue2.err" \
+  || fail "a sum past the bound was fetched: exit $rc, $(cat "$T/rogue2.err")"
+# the rogue source replaced by an empty vector (a newer seq): readable again
+ch_query 1 "INSERT INTO concord.summaries SELECT model, day, layout_version, slice, source, seq + 1, 0, arrayMap(x -> toInt64(0), counters) FROM concord.summaries FINAL WHERE source = 'rogue'" > /dev/null
+"$C" report --store "$U" --model pk2 --by all --format json > "$T/pk2-ch2.json" || fail "report pk2 after the rogue row was emptied"
+same "$T/pk2-sq.json" "$T/pk2-ch2.json" "report pk2 after the rogue row was emptied"
 
 # sqlite:PATH is --db PATH; --db with --store is refused; a bad URL names the forms
 "$C" report --store "sqlite:$T/h.db" --model ref --format json > "$T/sqlite-url.json"

@@ -3,7 +3,8 @@
  * notifications and the outbox, follow offsets, the review's scan and read
  * by id, the newest labelled day), a unit of work kept or discarded whole,
  * nested snapshots, the upgrade of a version 3 file whose alert tables were
- * made outside the schema, and a backend without write ops (or built against
+ * made outside the schema, the upgrade of a version 4 file whose summaries
+ * are in layout 1 (upgrade_summary_words), and a backend without write ops (or built against
  * a shorter table) giving clear errors instead of crashing. */
 #include <math.h>
 #include <stddef.h>
@@ -16,7 +17,9 @@
 #include "store.h"
 #include "store_backend.h"
 #include "store_sqlite.h" /* cc_store_db: inspects the SQLite file directly */
+#include "store_slices.h"
 #include "summary.h"
+#include "summary_codec.h"
 
 static void remove_db(const char *path)
 {
@@ -429,11 +432,11 @@ static void upgrade_from_v3(const char *path)
         cc_store_close(s);
         s = NULL;
     }
-    /* the first writer upgrades to 4 and keeps the rows */
+    /* the first writer upgrades to the current schema (5) and keeps the rows */
     CHECK(cc_store_open(&s, path, 0, &err) == 0);
     if (!s)
         return;
-    CHECK(query_int(s, "SELECT value FROM meta WHERE key = 'schema_version'") == 4);
+    CHECK(query_int(s, "SELECT value FROM meta WHERE key = 'schema_version'") == 5);
     CHECK(query_int(s, "SELECT count(*) FROM sqlite_master WHERE name IN ('notifications', "
                        "'outbox', 'outbox_due')") == 3);
     cc_follow_offset o;
@@ -584,6 +587,138 @@ static void missing_ops(void)
     cc_store_close(NULL);
 }
 
+
+/* ---- schema 4 -> 5: summaries of layout 1 rewritten in layout 2 ---- */
+
+/* The layout 1 form of a layout 2 vector: each wide sum (lo, hi) as the one
+ * word hi * 2^32 + lo, written here from the definition in summary.h
+ * rather than by the code under test. */
+static int64_t *to_layout1(const cc_summary *sum, size_t *n1)
+{
+    const cc_layout *L = cc_summary_layout(sum);
+    const int64_t *v = cc_summary_data(sum);
+    char *lo = calloc(L->len, 1);
+    int64_t *out = malloc(L->len * sizeof *out);
+    size_t n = 0;
+    for (int r = 0; lo && r < L->n_runs; r++)
+        for (size_t o = 0; o < L->runs[r].outer; o++)
+            for (size_t i = 0; i < L->runs[r].inner; i++)
+                lo[L->runs[r].at + o * L->runs[r].outer_stride + 2 * i] = 1;
+    for (size_t j = 0; lo && out && j < L->len; j++) {
+        if (lo[j]) {
+            out[n++] = v[j + 1] * 4294967296 + v[j];
+            j++;
+        } else {
+            out[n++] = v[j];
+        }
+    }
+    free(lo);
+    *n1 = n;
+    return out;
+}
+
+static void set_rows_layout1(cc_store *s, const cc_summary *sum, const char *table)
+{
+    size_t n1, len;
+    int64_t *v1 = to_layout1(sum, &n1);
+    unsigned char *blob = v1 ? cc_codec_encode(v1, n1, &len) : NULL;
+    char sql[160];
+    sqlite3_stmt *st = NULL;
+    snprintf(sql, sizeof sql, "UPDATE %s SET version = 1, counters = ?1", table);
+    CHECK(blob && sqlite3_prepare_v2(cc_store_db(s), sql, -1, &st, NULL) == SQLITE_OK);
+    if (st) {
+        sqlite3_bind_blob(st, 1, blob, (int)len, SQLITE_STATIC);
+        CHECK(sqlite3_step(st) == SQLITE_DONE && sqlite3_changes(cc_store_db(s)) == 1);
+    }
+    sqlite3_finalize(st);
+    free(blob);
+    free(v1);
+}
+
+static void upgrade_summary_words_v4(const char *path)
+{
+    cc_error err = CC_ERROR_INIT;
+    cc_store *s = NULL;
+    cc_model *m = NULL;
+    int64_t slice = 0;
+    remove_db(path);
+    cc_summary *sum = cc_summary_create(2, 3), *got = cc_summary_create(2, 3);
+    if (!sum || !got)
+        goto done;
+    /* events whose sums pass 2^32 units: 6 x 4.6 nats of log-loss */
+    const float rows[2][6] = {{0.01f, 0.01f, 0.98f, 0.2f, 0.3f, 0.5f},
+                              {0.6f, 0.3f, 0.1f, 0.25f, 0.25f, 0.5f}};
+    for (int e = 0; e < 6; e++) {
+        cc_summary_add_unlabeled(sum, rows[e % 2], 1);
+        cc_summary_add_labeled(sum, rows[e % 2], 0, 1);
+        cc_summary_add_label_delay(sum, 3600 * (e + 1), 1);
+    }
+    CHECK(cc_wide_value(cc_summary_data(sum) + cc_summary_layout(sum)->nll_fx) > 4294967296.0);
+    CHECK(cc_store_open(&s, path, CC_STORE_CREATE, &err) == 0);
+    if (!s)
+        goto done;
+    CHECK(cc_store_work_begin(s, &err) == 0 &&
+          cc_store_model_create(s, "w", 2, 3, NULL, NULL, &m, &err) == 0 &&
+          cc_store_summary_add(s, m, 20400, sum, &err) == 0 &&
+          cc_store_slice_add(s, m, CC_SLICE_SEGMENT, "s1", 2, &slice, &err) == 0 &&
+          cc_store_slice_summary_add(s, m, 20400, slice, sum, &err) == 0 &&
+          cc_store_work_commit(s, &err) == 0);
+    /* what a release before layout 2 wrote: schema 4, layout 1 rows */
+    set_rows_layout1(s, sum, "summaries");
+    set_rows_layout1(s, sum, "slice_summaries");
+    /* ... and published since: no day marked */
+    CHECK(sqlite3_exec(cc_store_db(s), "UPDATE meta SET value = '4' WHERE key = 'schema_version';"
+                                       "DELETE FROM publish_days",
+                       NULL, NULL, NULL) == SQLITE_OK);
+    cc_model_free(m);
+    m = NULL;
+    cc_store_close(s);
+    s = NULL;
+    /* a reader converts as it reads and writes nothing */
+    CHECK(cc_store_open(&s, path, CC_STORE_READONLY, &err) == 0);
+    if (s) {
+        CHECK(cc_store_model_get(s, "w", &m, &err) == 0);
+        CHECK(m && cc_store_summary_get(s, m, 20400, got, &err) == 0 && cc_summary_equal(got, sum));
+        CHECK(query_int(s, "SELECT version FROM summaries") == 1);
+        cc_model_free(m);
+        m = NULL;
+        cc_store_close(s);
+        s = NULL;
+    }
+    /* the first writer rewrites every row in layout 2, values unchanged */
+    CHECK(cc_store_open(&s, path, 0, &err) == 0);
+    if (!s)
+        goto done;
+    CHECK(query_int(s, "SELECT value FROM meta WHERE key = 'schema_version'") == 5);
+    CHECK(query_int(s, "SELECT count(*) FROM summaries WHERE version = 2") == 1);
+    CHECK(query_int(s, "SELECT count(*) FROM slice_summaries WHERE version = 2") == 1);
+    /* the day is marked for the next publish (the cluster reads layout 2 only) */
+    CHECK(query_int(s, "SELECT count(*) FROM publish_days WHERE day = 20400") == 1);
+    CHECK(cc_store_model_get(s, "w", &m, &err) == 0);
+    CHECK(m && cc_store_summary_get(s, m, 20400, got, &err) == 0 && cc_summary_equal(got, sum));
+    CHECK(m && cc_store_slice_summary_get(s, m, 20400, slice, got, &err) == 0 &&
+          cc_summary_equal(got, sum));
+    /* a row of an unknown layout stops the upgrade, which leaves the file at 4 */
+    CHECK(sqlite3_exec(cc_store_db(s),
+                       "UPDATE summaries SET version = 7;"
+                       "UPDATE meta SET value = '4' WHERE key = 'schema_version'",
+                       NULL, NULL, NULL) == SQLITE_OK);
+    cc_store_close(s);
+    s = NULL;
+    CHECK(cc_store_open(&s, path, 0, &err) == -CC_EIO && strstr(err.msg, "layout version 7"));
+    cc_store_close(s);
+    s = NULL;
+    CHECK(cc_store_open(&s, path, CC_STORE_READONLY, &err) == 0);
+    if (s)
+        CHECK(query_int(s, "SELECT value FROM meta WHERE key = 'schema_version'") == 4);
+done:
+    cc_model_free(m);
+    cc_store_close(s);
+    cc_summary_free(sum);
+    cc_summary_free(got);
+    remove_db(path);
+}
+
 int main(void)
 {
     char path[64];
@@ -599,7 +734,7 @@ int main(void)
     }
     CHECK(strcmp(cc_store_backend_name(s), "sqlite") == 0 && cc_store_readonly(s) == 0);
     CHECK(strcmp(cc_store_path(s), path) == 0);
-    CHECK(query_int(s, "SELECT value FROM meta WHERE key = 'schema_version'") == 4);
+    CHECK(query_int(s, "SELECT value FROM meta WHERE key = 'schema_version'") == 5);
     /* every table in the versioned schema, made by the store */
     CHECK(query_int(s, "SELECT count(*) FROM sqlite_master WHERE type = 'table' AND name IN "
                        "('rule_state', 'notifications', 'outbox', 'follow_offsets')") == 4);
@@ -629,6 +764,8 @@ int main(void)
     char path2[80];
     snprintf(path2, sizeof path2, "/tmp/cc_store_backend_v3_%d.db", (int)getpid());
     upgrade_from_v3(path2);
+    snprintf(path2, sizeof path2, "/tmp/cc_store_backend_v4_%d.db", (int)getpid());
+    upgrade_summary_words_v4(path2);
     missing_ops();
     return CHECK_DONE("store_backend");
 }

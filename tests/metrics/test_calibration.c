@@ -25,30 +25,41 @@ static const char *const ex_source =
  * fixed point rounded per event. */
 static void counters_from_double_rows(int64_t *calib, int64_t *brier, int64_t *nll)
 {
-    memset(calib, 0, CC_CALIB_BINS * 3 * sizeof *calib);
-    *brier = *nll = 0;
+    int64_t conf[CC_CALIB_BINS] = {0}, bsum = 0, nsum = 0;
+    memset(calib, 0, CC_CALIB_BINS * CC_CALIB_STRIDE * sizeof *calib);
     for (int i = 0; i < EX_N; i++) {
         const double *p = ex_rows[i];
         int top = cc_argmax_d(p, EX_K);
         int b = (int)ceil(p[top] * CC_CALIB_BINS) - 1;
-        calib[b * 3 + 0] += 1;
-        calib[b * 3 + 1] += top == ex_labels[i];
-        calib[b * 3 + 2] += llround(p[top] * CC_FIXED_SCALE);
+        calib[b * CC_CALIB_STRIDE + 0] += 1;
+        calib[b * CC_CALIB_STRIDE + 1] += top == ex_labels[i];
+        conf[b] += llround(p[top] * CC_FIXED_SCALE);
         double bs = 0.0;
         for (int c = 0; c < EX_K; c++) {
             double d = p[c] - (c == ex_labels[i]);
             bs += d * d;
         }
-        *brier += llround(bs * CC_FIXED_SCALE);
-        *nll += llround(-log(p[ex_labels[i]]) * CC_FIXED_SCALE);
+        bsum += llround(bs * CC_FIXED_SCALE);
+        nsum += llround(-log(p[ex_labels[i]]) * CC_FIXED_SCALE);
     }
+    for (int b = 0; b < CC_CALIB_BINS; b++)
+        cc_wide_set(calib + b * CC_CALIB_STRIDE + 2, conf[b]);
+    cc_wide_set(brier, bsum);
+    cc_wide_set(nll, nsum);
+}
+
+/* A wide sum (summary.h) holding x, for hand-made counters. */
+static const int64_t *wide(int64_t *w, int64_t x)
+{
+    cc_wide_set(w, x);
+    return w;
 }
 
 static void worked_example(check_log *log)
 {
-    int64_t calib[CC_CALIB_BINS * 3], brier, nll;
+    int64_t calib[CC_CALIB_BINS * CC_CALIB_STRIDE], brier[2], nll[2];
     cc_calibration r;
-    counters_from_double_rows(calib, &brier, &nll);
+    counters_from_double_rows(calib, brier, nll);
     cc_calibration_compute(&r, calib, brier, nll);
     check_int(log, "n, METHODS 6 example (double rows)", r.n, 8, ex_source);
     check_close(log, "ECE, METHODS 6 example (double rows)", r.ece, 0.2575, 2e-9, 0, ex_source);
@@ -89,7 +100,7 @@ static void worked_example(check_log *log)
     }
     const cc_layout *L = cc_summary_layout(s);
     const int64_t *v = cc_summary_data(s);
-    cc_calibration_compute(&r, v + L->calib, v[L->brier_fx], v[L->nll_fx]);
+    cc_calibration_compute(&r, v + L->calib, v + L->brier_fx, v + L->nll_fx);
     check_int(log, "n, METHODS 6 example via cc_summary_add_labeled", r.n, 8, ex_source);
     check_close(log, "ECE, METHODS 6 example via cc_summary_add_labeled", r.ece, 0.2575, 1e-7, 0,
                 "computed, METHODS section 6; float32 storage moves inputs by < 3e-8");
@@ -112,9 +123,10 @@ static void worked_example(check_log *log)
 
 static void edge_cases(check_log *log)
 {
-    int64_t calib[CC_CALIB_BINS * 3] = {0};
+    int64_t calib[CC_CALIB_BINS * CC_CALIB_STRIDE] = {0}, w1[2], w2[2];
+    const int64_t zero[2] = {0, 0};
     cc_calibration r;
-    cc_calibration_compute(&r, calib, 0, 0);
+    cc_calibration_compute(&r, calib, zero, zero);
     check_int(log, "n = 0: n", r.n, 0, "METHODS 6 edge: n = 0 undefined");
     check_close(log, "n = 0: ECE", r.ece, NAN, 0, 0, "METHODS 6 edge: n = 0 undefined");
     check_close(log, "n = 0: MCE", r.mce, NAN, 0, 0, "METHODS 6 edge: n = 0 undefined");
@@ -122,10 +134,10 @@ static void edge_cases(check_log *log)
     check_close(log, "n = 0: NLL", r.nll, NAN, 0, 0, "METHODS 6 edge: n = 0 undefined");
 
     /* 4 events at confidence 0.75 (bin 11), 3 right: perfectly calibrated. */
-    calib[11 * 3 + 0] = 4;
-    calib[11 * 3 + 1] = 3;
-    calib[11 * 3 + 2] = 3000000000;
-    cc_calibration_compute(&r, calib, 4 * 125000000, 4 * 287682072);
+    calib[11 * CC_CALIB_STRIDE + 0] = 4;
+    calib[11 * CC_CALIB_STRIDE + 1] = 3;
+    cc_wide_set(calib + 11 * CC_CALIB_STRIDE + 2, 3000000000);
+    cc_calibration_compute(&r, calib, wide(w1, 4 * 125000000), wide(w2, 4 * 287682072));
     check_close(log, "calibrated bin: ECE", r.ece, 0.0, 1e-15, 0,
                 "hand-computed: accuracy 3/4 = mean confidence 0.75");
     check_close(log, "calibrated bin: Brier from its fixed-point sum", r.brier, 0.125, 1e-15, 0,
@@ -135,24 +147,24 @@ static void edge_cases(check_log *log)
 
     /* Two bins: 10 events at 0.95 all right, 10 at 0.55 with 2 right. */
     memset(calib, 0, sizeof calib);
-    calib[14 * 3 + 0] = 10;
-    calib[14 * 3 + 1] = 10;
-    calib[14 * 3 + 2] = 9500000000;
-    calib[8 * 3 + 0] = 10;
-    calib[8 * 3 + 1] = 2;
-    calib[8 * 3 + 2] = 5500000000;
-    cc_calibration_compute(&r, calib, 0, 0);
+    calib[14 * CC_CALIB_STRIDE + 0] = 10;
+    calib[14 * CC_CALIB_STRIDE + 1] = 10;
+    cc_wide_set(calib + 14 * CC_CALIB_STRIDE + 2, 9500000000);
+    calib[8 * CC_CALIB_STRIDE + 0] = 10;
+    calib[8 * CC_CALIB_STRIDE + 1] = 2;
+    cc_wide_set(calib + 8 * CC_CALIB_STRIDE + 2, 5500000000);
+    cc_calibration_compute(&r, calib, zero, zero);
     check_close(log, "two bins: ECE", r.ece, 0.5 * 0.05 + 0.5 * 0.35, 1e-12, 0,
                 "hand-computed: (10/20) |1 - 0.95| + (10/20) |0.2 - 0.55|");
     check_close(log, "two bins: MCE", r.mce, 0.35, 1e-12, 0, "hand-computed: max(0.05, 0.35)");
 
-    calib[8 * 3 + 1] = 11;
-    cc_calibration_compute(&r, calib, 0, 0);
+    calib[8 * CC_CALIB_STRIDE + 1] = 11;
+    cc_calibration_compute(&r, calib, zero, zero);
     check_close(log, "correct > count: ECE undefined", r.ece, NAN, 0, 0,
                 "calibration.c: counters that cannot come from events");
-    calib[8 * 3 + 1] = 2;
-    calib[14 * 3 + 0] = -1;
-    cc_calibration_compute(&r, calib, 0, 0);
+    calib[8 * CC_CALIB_STRIDE + 1] = 2;
+    calib[14 * CC_CALIB_STRIDE + 0] = -1;
+    cc_calibration_compute(&r, calib, zero, zero);
     check_close(log, "negative count: ECE undefined", r.ece, NAN, 0, 0,
                 "calibration.c: counters that cannot come from events");
 }
@@ -204,7 +216,7 @@ static void reference_checks(check_log *log, const cJSON *root)
         const cc_layout *L = cc_summary_layout(s);
         const int64_t *v = cc_summary_data(s);
         cc_calibration r;
-        cc_calibration_compute(&r, v + L->calib, v[L->brier_fx], v[L->nll_fx]);
+        cc_calibration_compute(&r, v + L->calib, v + L->brier_fx, v + L->nll_fx);
 
         snprintf(what, sizeof what, "calibration[%d] (M %d, K %d, n %d) n", idx, m, k, n);
         check_int(log, what, r.n, n, "count of reference rows");
