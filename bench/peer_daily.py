@@ -44,7 +44,9 @@ def load(path):
             probs.append(e["probs"])
             lab = e.get("label")
             labels.append(lab if isinstance(lab, int) else -1)
-    day = np.array([np.datetime64(t.replace("Z", ""), "D").astype(np.int64) for t in ids_ts])
+    # UTC timestamps ending in Z (as concord-gen writes them): the date is the
+    # first ten characters; numpy parses them all at once
+    day = np.array([t[:10] for t in ids_ts], dtype="datetime64[D]").astype(np.int64)
     return day, np.asarray(probs, dtype=np.float64), np.asarray(labels)
 
 
