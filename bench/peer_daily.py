@@ -14,8 +14,9 @@ as the baseline, and for every day write
   predicted-class mix, its PSI against the baseline's (epsilon 1e-4, then
   renormalised) and a chi-square test of the day's against the baseline's
   counts (scipy.stats.chi2_contingency, empty classes dropped);
-  two-sample KS tests (scipy.stats.ks_2samp) of the ensemble's max probability
-  and of mutual information against the baseline events;
+  two-sample KS tests (scipy.stats.ks_2samp: statistic and p) of the
+  ensemble's max probability and of mutual information against the baseline
+  events;
   BBSE label-shift estimate (Lipton et al. 2018) from the baseline's labelled
   confusion, by numpy.linalg.lstsq, clipped at 0 and renormalised.
 Output: one JSON document (days in order) to the file given, or stdout.
@@ -43,7 +44,9 @@ def load(path):
             probs.append(e["probs"])
             lab = e.get("label")
             labels.append(lab if isinstance(lab, int) else -1)
-    day = np.array([np.datetime64(t.replace("Z", ""), "D").astype(np.int64) for t in ids_ts])
+    # UTC timestamps ending in Z (as concord-gen writes them): the date is the
+    # first ten characters; numpy parses them all at once
+    day = np.array([t[:10] for t in ids_ts], dtype="datetime64[D]").astype(np.int64)
     return day, np.asarray(probs, dtype=np.float64), np.asarray(labels)
 
 
@@ -90,7 +93,8 @@ def main():
                "labelled": int(lab.sum()),
                "entropy": float(tu[s].mean()), "expected_entropy": float(au[s].mean()),
                "mutual_information": float(mi[s].mean()), "disagreement": float(dis[s].mean()),
-               "class_mix": (mix / mix.sum()).tolist(), "class_mix_psi": psi(base_mix, mix)}
+               "class_counts": mix.astype(int).tolist(), "class_mix": (mix / mix.sum()).tolist(),
+               "class_mix_psi": psi(base_mix, mix)}
         if lab.any():
             row["ensemble_accuracy"] = float((pred[lab] == labels[lab]).mean())
             row["member_accuracy"] = (member_pred[lab] == labels[lab, None]).mean(axis=0).tolist()
@@ -99,8 +103,10 @@ def main():
         if table.shape[1] > 1:
             chi2, p, dof, _ = stats.chi2_contingency(table, correction=False)
             row["class_mix_chi2"] = {"statistic": float(chi2), "p": float(p), "df": int(dof)}
-        row["ks_max_prob"] = float(stats.ks_2samp(maxp[base], maxp[s]).pvalue)
-        row["ks_mutual_information"] = float(stats.ks_2samp(mi[base], mi[s]).pvalue)
+        ks = stats.ks_2samp(maxp[base], maxp[s])
+        row["ks_max_prob"] = {"statistic": float(ks.statistic), "p": float(ks.pvalue)}
+        ks = stats.ks_2samp(mi[base], mi[s])
+        row["ks_mutual_information"] = {"statistic": float(ks.statistic), "p": float(ks.pvalue)}
         if conf.sum() > 0:
             cols = p_src > 0
             w = np.linalg.lstsq(conf[:, cols], mix / mix.sum(), rcond=1e-6)[0]

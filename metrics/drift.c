@@ -137,16 +137,22 @@ double cc_ks_hist(const int64_t *a, const int64_t *b, int bins, int64_t *n_a, in
         *n_b = nb < 0 ? 0 : nb;
     if (na <= 0 || nb <= 0)
         return NAN;
+    /* |A_b/n_a - B_b/n_b| = |A_b n_b - B_b n_a| / (n_a n_b): the largest
+     * numerator, then one division (in double: exact while the products stay
+     * below 2^53). Past the bin where both cumulative counts reach their
+     * totals every difference is 0, so the scan stops there; a by-day report
+     * runs this on (3 + K) histograms of 2,048 bins per window. */
+    const double fa = (double)na, fb = (double)nb;
     int64_t ca = 0, cb = 0;
-    double d = 0.0;
-    for (int i = 0; i < bins; i++) {
+    double num = 0.0;
+    for (int i = 0; i < bins && (ca < na || cb < nb); i++) {
         ca += a[i];
         cb += b[i];
-        double diff = fabs((double)ca / (double)na - (double)cb / (double)nb);
-        if (diff > d)
-            d = diff;
+        double diff = fabs((double)ca * fb - (double)cb * fa);
+        if (diff > num)
+            num = diff;
     }
-    return d;
+    return num / (fa * fb);
 }
 
 /* Kolmogorov's limiting distribution (Kolmogorov 1933):

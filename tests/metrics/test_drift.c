@@ -163,6 +163,14 @@ static void ks_published(check_log *log)
                 "two-sample calculator), so exact P(D >= 0.11) = 0.58301; the asymptotic "
                 "value may differ by the stated tolerance");
 
+    /* unequal sizes; b's last event in bin 3 and a's in bin 4, so the scan
+     * stops at bin 4 of 8: F_a = 0, 0, 3/4, 3/4, 1; F_b = 1/3, 1/3, 1/3, 1, 1 */
+    const int64_t ua[8] = {0, 0, 3, 0, 1, 0, 0, 0}, ub[8] = {1, 0, 0, 2, 0, 0, 0, 0};
+    check_close(log, "cc_ks_hist n_a = 4, n_b = 3", cc_ks_hist(ua, ub, 8, NULL, NULL),
+                5.0 / 12.0, 1e-15, 0, "hand-computed: |3/4 - 1/3| at bin 2");
+    check_close(log, "cc_ks_hist n_b = 3, n_a = 4 (swapped)", cc_ks_hist(ub, ua, 8, NULL, NULL),
+                5.0 / 12.0, 1e-15, 0, "hand-computed: D is symmetric");
+
     int64_t hz[BINS] = {0};
     check_close(log, "cc_ks_hist empty histogram", cc_ks_hist(hx, hz, BINS, &n, &m), NAN, 0, 0,
                 "METHODS 4.1 edge: empty window, no test");
