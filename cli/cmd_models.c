@@ -106,6 +106,13 @@ static const char *str(const cJSON *o, const char *key)
     return cJSON_IsString(v) ? v->valuestring : NULL;
 }
 
+/* The same, "" when missing (for printing). */
+static const char *text(const cJSON *o, const char *key)
+{
+    const char *s = str(o, key);
+    return s ? s : "";
+}
+
 static double number(const cJSON *o, const char *key)
 {
     const cJSON *v = cJSON_GetObjectItemCaseSensitive(o, key);
@@ -125,12 +132,12 @@ static void names_line(FILE *f, const char *label, const cJSON *arr)
 /* The text rendering, read back from the JSON entries (one source). */
 static void model_text(FILE *f, const cJSON *o)
 {
-    fprintf(f, "model %s\n", str(o, "name"));
+    fprintf(f, "model %s\n", text(o, "name"));
     names_line(f, "members", cJSON_GetObjectItemCaseSensitive(o, "members"));
     names_line(f, "classes", cJSON_GetObjectItemCaseSensitive(o, "classes"));
     if (str(o, "first_day"))
-        fprintf(f, "  %-9s%s..%s (%.0f with events)\n", "days", str(o, "first_day"),
-                str(o, "last_day"), number(o, "days"));
+        fprintf(f, "  %-9s%s..%s (%.0f with events)\n", "days", text(o, "first_day"),
+                text(o, "last_day"), number(o, "days"));
     else
         fprintf(f, "  %-9snone with events\n", "days");
     double ev = number(o, "events"), lab = number(o, "labeled");
@@ -145,7 +152,7 @@ static void model_text(FILE *f, const cJSON *o)
                 number(o, "pruned_days"));
     const cJSON *b = cJSON_GetObjectItemCaseSensitive(o, "baseline");
     if (cJSON_IsObject(b))
-        fprintf(f, "  %-9s%s..%s\n", "baseline", str(b, "from"), str(b, "to"));
+        fprintf(f, "  %-9s%s..%s\n", "baseline", text(b, "from"), text(b, "to"));
     else
         fprintf(f, "  %-9snone set\n", "baseline");
     const cJSON *sl = cJSON_GetObjectItemCaseSensitive(o, "slices"), *it;
@@ -156,11 +163,11 @@ static void model_text(FILE *f, const cJSON *o)
     }
     int named = 0;
     cJSON_ArrayForEach(it, sl)
-        named += strcmp(str(it, "kind"), "segment") == 0;
+        named += strcmp(text(it, "kind"), "segment") == 0;
     fprintf(f, "  %-9s%d (%d named, limit %.0f)\n", "slices", cJSON_GetArraySize(sl), named,
             number(o, "slice_limit"));
     cJSON_ArrayForEach(it, sl)
-        fprintf(f, "    %-24s %10.0f events %10.0f labelled\n", str(it, "segment"),
+        fprintf(f, "    %-24s %10.0f events %10.0f labelled\n", text(it, "segment"),
                 number(it, "events"), number(it, "labeled"));
 }
 
