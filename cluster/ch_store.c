@@ -7,6 +7,7 @@
 
 #include "ch_client.h"
 #include "ch_schema.h"
+#include "date.h"
 #include "fetch.h"
 #include "store_backend.h"
 #include "summary.h"
@@ -563,6 +564,122 @@ static int ch_event_read(cc_store *s, const cc_model *m, const char *id, int *fo
     return rc;
 }
 
+/* Event rows of [ts_from, ts_to) in time order, for report --by hour. Like
+ * the review's scan, FINAL leaves one row per (model, day, ts, id): a
+ * re-sent row and an older label version are not counted twice. */
+static int ch_events_between(cc_store *s, const cc_model *m, int64_t ts_from, int64_t ts_to,
+                             cc_event_row_fn fn, void *payload, cc_error *err)
+{
+    ch_store *c = CH(s);
+    if (ts_to <= ts_from)
+        return 0;
+    cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
+    char tail[320];
+    where_model(&sql, c, "events", "ts, has_segment, segment, label, label_at, probs", m);
+    /* the day bounds let ClickHouse skip by the key (model, day, ts, id) */
+    snprintf(tail, sizeof tail, " AND day >= %lld AND day <= %lld AND ts >= %lld AND ts < %lld "
+                                "ORDER BY day, ts, id FORMAT RowBinary",
+             (long long)cc_day_of_unix(ts_from), (long long)cc_day_of_unix(ts_to - 1),
+             (long long)ts_from, (long long)ts_to);
+    int rc = select_rb(c, &sql, tail, &ans, err);
+    float *probs = rc ? NULL : malloc((size_t)m->m * (size_t)m->k * sizeof *probs);
+    if (!rc && !probs)
+        rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+    cc_rb rb = {ans.p, ans.p + ans.len};
+    while (!rc && rb.p < rb.end) {
+        event_row e;
+        if (read_event(&rb, m, 0, &e, probs)) {
+            rc = cc_error_set(err, CC_EIO, "%s: a malformed event row", s->path);
+            break;
+        }
+        rc = fn(payload, e.ts, e.label, e.label_at, probs);
+    }
+    free(probs);
+    cc_buf_free(&ans);
+    return rc;
+}
+
+/* The days of [from, to] whose rows the cluster does not fully hold: the
+ * merged summary counts more events than there are rows under FINAL (a
+ * host pruned them before publishing them, or has not published them yet).
+ * Reading rows of such a day would give part of it, so a caller that needs
+ * the whole day (report --by hour) refuses it, as for a pruned day of a
+ * SQLite store; events is the number of events missing. */
+/* (day, Int64) rows of a query into days/vals, in the answer's order. */
+static int day_counts(ch_store *c, cc_buf *sql, const char *tail, int64_t **days, int64_t **vals,
+                      int *n, cc_error *err)
+{
+    cc_buf ans = CC_BUF_INIT;
+    *days = *vals = NULL;
+    *n = 0;
+    int rc = select_rb(c, sql, tail, &ans, err);
+    size_t count = rc ? 0 : ans.len / 16;
+    if (!rc && ans.len % 16)
+        rc = cc_error_set(err, CC_EIO, "%s: a truncated answer (events per day)", c->base.path);
+    if (!rc && count &&
+        (!(*days = malloc(count * sizeof **days)) || !(*vals = malloc(count * sizeof **vals))))
+        rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+    cc_rb rb = {ans.p, ans.p + ans.len};
+    for (size_t i = 0; !rc && i < count; i++)
+        cc_rb_i64(&rb, &(*days)[i]), cc_rb_i64(&rb, &(*vals)[i]);
+    cc_buf_free(&ans);
+    if (rc) {
+        free(*days);
+        free(*vals);
+        *days = *vals = NULL;
+        return rc;
+    }
+    *n = (int)count;
+    return 0;
+}
+
+/* The days of [from, to] whose rows the cluster does not fully hold: the
+ * merged summary counts more events than there are rows under FINAL (a
+ * host pruned them before publishing them, or its rows and summaries were
+ * published by different runs). Reading the rows of such a day would give
+ * part of it, so a caller that needs the whole day (report --by hour)
+ * refuses it, as it refuses a pruned day of a SQLite store; events is the
+ * number of events without a row. */
+static int ch_pruned_range(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+                           cc_pruned_range *out, cc_error *err)
+{
+    ch_store *c = CH(s);
+    memset(out, 0, sizeof *out);
+    cc_buf sql = CC_BUF_INIT;
+    char tail[320];
+    int64_t *sd = NULL, *sn = NULL, *rd = NULL, *rn = NULL;
+    int n_s = 0, n_r = 0;
+    where_model(&sql, c, "summaries", "day, toInt64(sum(events))", m);
+    snprintf(tail, sizeof tail,
+             " AND layout_version = %d AND slice = '' AND day >= %lld AND day <= %lld "
+             "GROUP BY day HAVING sum(events) > 0 ORDER BY day FORMAT RowBinary",
+             CC_SUMMARY_VERSION, (long long)from, (long long)to);
+    int rc = day_counts(c, &sql, tail, &sd, &sn, &n_s, err);
+    if (!rc) {
+        cc_buf q = CC_BUF_INIT;
+        where_model(&q, c, "events", "day, toInt64(count())", m);
+        snprintf(tail, sizeof tail, " AND day >= %lld AND day <= %lld GROUP BY day ORDER BY day "
+                                    "FORMAT RowBinary", (long long)from, (long long)to);
+        rc = day_counts(c, &q, tail, &rd, &rn, &n_r, err);
+    }
+    for (int i = 0, j = 0; !rc && i < n_s; i++) {
+        while (j < n_r && rd[j] < sd[i])
+            j++;
+        int64_t have = j < n_r && rd[j] == sd[i] ? rn[j] : 0;
+        if (sn[i] <= have)
+            continue;
+        if (out->days++ == 0)
+            out->first = sd[i];
+        out->last = sd[i];
+        out->events += sn[i] - have;
+    }
+    free(sd);
+    free(sn);
+    free(rd);
+    free(rn);
+    return rc;
+}
+
 static const cc_store_backend ch_backend = {
     .version = CC_STORE_BACKEND_VERSION,
     .size = sizeof(cc_store_backend),
@@ -577,6 +694,8 @@ static const cc_store_backend ch_backend = {
     .events_scan = ch_events_scan,
     .event_read = ch_event_read,
     .labeled_day_last = ch_labeled_day_last,
+    .pruned_range = ch_pruned_range,
+    .events_between = ch_events_between,
     .slices_kept = ch_slices_kept,
     .slice_limit_get = ch_slice_limit_get,
     .slice_list = ch_slice_list,

@@ -1,9 +1,8 @@
 /* ch_store_probe.c — prints what the ClickHouse store backend
- * (cluster/ch_store.h) answers to the row-reading ops that no command uses
- * yet (events_scan, event_read, labeled_day_last), so single_server.sh can
+ * (cluster/ch_store.h) answers to its row-reading ops one at a time
+ * (events_scan, event_read, labeled_day_last), so single_server.sh can
  * compare them with the same questions asked of the SQLite file. The ops are
- * called through the backend table (the public wrappers of these ops are
- * not in store_dispatch.c yet).
+ * called through the backend table.
  *
  *   ch_store_probe URL MODEL scan FROM_TS TO_TS   -> "id ts label" per event
  *   ch_store_probe URL MODEL read ID              -> "ts label label_at segment"

@@ -4,9 +4,10 @@
 # files) each holding half of a log, delayed labels and their corrections
 # arriving at either host (a correction always at the other host than the
 # label before it, so labels often reach a host that never saw the event).
-# After publishing, the merged report, review and show equal those of one
-# SQLite store that read the whole log (counts exactly, reals within 1e-9
-# relative). Then a shard is stopped during a publish: the publisher retries
+# After publishing, the merged report (by day, week, all and hour), review
+# (every list, segment, time cut, limit and format) and show equal those of
+# one SQLite store that read the whole log (counts exactly, reals within 1e-9
+# relative; text and CSV byte for byte). Then a shard is stopped during a publish: the publisher retries
 # with backoff and says so, a report meanwhile fails with the server's error
 # instead of answering with half the data, and once the shard is back the
 # merged report again equals the single store's: nothing lost or doubled.
@@ -78,11 +79,64 @@ compare_all() { # TAG URL
       || fail "$1: report --store --by $by"
     same "$T/sq-$by.json" "$T/ch-$by.json" "$1: merged report --by $by"
   done
-  "$C" review --db "$T/one.db" --model ref --from 2026-03-01 --to 2026-03-31 --where all \
-    --format json > "$T/sq-review.json"
-  "$C" review --store "$2" --model ref --from 2026-03-01 --to 2026-03-31 --where all \
-    --format json > "$T/ch-review.json" || fail "$1: review --store"
-  same "$T/sq-review.json" "$T/ch-review.json" "$1: merged review --where all"
+  # report --by hour: hours summed from the event rows of either store
+  # (ranges that end where an event is: d1-250 at 23:00, d2-000 at midnight)
+  for range in "2026-03-08 2026-03-12" "2026-03-08 2026-03-09" "2026-03-09T05:00:00Z 2026-03-09T23:00:00Z"; do
+    set -- "$1" "$2" $range
+    "$C" report --db "$T/one.db" --model ref --by hour --from "$3" --to "$4" --format json \
+      > "$T/sq-hour.json"
+    "$C" report --store "$2" --model ref --by hour --from "$3" --to "$4" --format json \
+      > "$T/ch-hour.json" || fail "$1: report --store --by hour $3 $4"
+    same "$T/sq-hour.json" "$T/ch-hour.json" "$1: merged report --by hour $3 $4"
+    [ "$(grep -o '"start"' "$T/ch-hour.json" | wc -l)" -gt 10 ] \
+      || fail "$1: report --by hour $3 $4 has few hour windows"
+  done
+  "$C" report --db "$T/one.db" --model ref --by hour --from 2026-03-10 --to 2026-03-10 \
+    > "$T/sq-hour.txt"
+  "$C" report --store "$2" --model ref --by hour --from 2026-03-10 --to 2026-03-10 \
+    > "$T/ch-hour.txt" || fail "$1: report --store --by hour (text)"
+  cmp -s "$T/sq-hour.txt" "$T/ch-hour.txt" \
+    || fail "$1: report --by hour (text) differs: $(diff "$T/sq-hour.txt" "$T/ch-hour.txt" | head -n 5)"
+  # review: every list, the segment filter, a range cut inside days, the
+  # limit, and the three formats; text and CSV byte for byte
+  c1=${classes%%,*}; rest=${classes#*,}; c2=${rest%%,*}
+  n=0
+  while IFS= read -r args; do
+    n=$((n + 1))
+    # shellcheck disable=SC2086
+    "$C" review --db "$T/one.db" --model ref $args > "$T/sq-review-$n.out"
+    # shellcheck disable=SC2086
+    "$C" review --store "$2" --model ref $args > "$T/ch-review-$n.out" \
+      || fail "$1: review --store $args"
+    case "$args" in
+      *json*) same "$T/sq-review-$n.out" "$T/ch-review-$n.out" "$1: review $args" ;;
+      *) cmp -s "$T/sq-review-$n.out" "$T/ch-review-$n.out" \
+           || fail "$1: review $args differs: $(diff "$T/sq-review-$n.out" "$T/ch-review-$n.out" | head -n 5)" ;;
+    esac
+  done << ARGS
+--from 2026-03-01 --to 2026-03-31 --where all --format json
+--from 2026-03-01 --to 2026-03-31 --where wrong --format json
+--from 2026-03-01 --to 2026-03-31 --where helped --limit 7 --format json
+--from 2026-03-01 --to 2026-03-31 --where hurt --format json
+--from 2026-03-01 --to 2026-03-31 --where top-mi --limit 3 --format json
+--from 2026-03-01 --to 2026-03-31 --where top-disagreement --format json
+--from 2026-03-01 --to 2026-03-31 --where low-margin --limit 50 --format json
+--from 2026-03-01 --to 2026-03-31 --where pair:$c1,$c2 --format json
+--from 2026-03-01 --to 2026-03-31 --where pair:1,3 --limit 100 --format json
+--from 2026-03-09T06:30:00Z --to 2026-03-10T17:15:59Z --where all --format json
+--from 2026-03-10 --to 2026-03-10 --where all --limit 0 --format json
+--from 2026-03-01 --to 2026-03-31 --segment site-b --where all --format json
+--from 2026-03-09T12:00:00Z --to 2026-03-11T12:00:00Z --segment site-a --where pair:0,4 --format json
+--from 2026-03-01 --to 2026-03-31 --segment nosuch --where all --format json
+--from 2026-04-01 --to 2026-04-30 --where all --format json
+--from 2026-03-01 --to 2026-03-31 --where all --format csv
+--from 2026-03-01 --to 2026-03-31 --where all --limit 5
+--from 2026-03-09 --to 2026-03-11 --segment site-c --where wrong --format csv
+ARGS
+  grep -q '"id"' "$T/ch-review-1.out" || fail "$1: the cluster's review lists no event"
+  rc=0; "$C" show --store "$2" --model ref nosuch > /dev/null 2> "$T/show-none.err" || rc=$?
+  [ $rc = 4 ] && grep -q "no event with id 'nosuch'" "$T/show-none.err" \
+    || fail "$1: show --store of an unknown id: exit $rc, $(cat "$T/show-none.err")"
   # show: every id that got more than one label, and a few others
   for id in $(cut -d'"' -f4 "$T/lab/2.jsonl" | head -n 20) d1-000 d3-002; do
     "$C" show --db "$T/one.db" --model ref --format json "$id" > "$T/sq-show.json"
