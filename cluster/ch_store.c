@@ -28,9 +28,11 @@ typedef struct ch_store {
     int64_t **cache_vec;    /* layout len counters per day */
     int n_cache;
     int64_t slices_model;   /* model id the slice list is of, 0 for none */
-    cc_slice *slices;       /* the model's slices in key order; id = index + 1 */
+    cc_slice *slices;       /* the model's slices in the hosts' order; id = index + 1 */
     char **slice_keys;      /* their keys in the summaries table */
     int n_slices;
+    int slice_limit;        /* the hosts' slice limit of slices_model */
+    int has_slice_lists;    /* 1: the cluster has the slice_lists table, 0 no, -1 unknown */
 } ch_store;
 
 #define CH(s) ((ch_store *)(s))
@@ -145,15 +147,22 @@ static int ch_baseline_get(cc_store *s, const cc_model *m, int *has, int64_t *fr
     return 0;
 }
 
-/* "... WHERE model = 'm' AND layout_version = V AND slice = ''" into b. */
+/* "SELECT cols FROM db.table FINAL WHERE col = 'name'" into b. */
+static void where_name(cc_buf *b, ch_store *c, const char *table, const char *cols,
+                       const char *col, const char *name)
+{
+    char head[256];
+    snprintf(head, sizeof head, "SELECT %s FROM %s.%s FINAL WHERE %s = ", cols,
+             cc_ch_database(c->ch), table, col);
+    cc_buf_put(b, head, strlen(head));
+    cc_ch_quote(b, name);
+}
+
+/* The same for the model column of the summaries and events tables. */
 static void where_model(cc_buf *b, ch_store *c, const char *table, const char *cols,
                         const cc_model *m)
 {
-    char head[256];
-    snprintf(head, sizeof head, "SELECT %s FROM %s.%s FINAL WHERE model = ", cols,
-             cc_ch_database(c->ch), table);
-    cc_buf_put(b, head, strlen(head));
-    cc_ch_quote(b, m->name);
+    where_name(b, c, table, cols, "model", m->name);
 }
 
 static int select_rb(ch_store *c, cc_buf *sql, const char *tail, cc_buf *ans, cc_error *err)
@@ -309,8 +318,113 @@ static int ch_slices_kept(cc_store *s)
     return 1;
 }
 
-/* The model's slices, read once per model: every key with events, in key
- * order, with its event and label totals. */
+/* ---- the hosts' slice lists (ch_schema.c, slice_lists) ---- */
+
+typedef struct slice_rank {
+    int64_t pos;            /* the smallest position at any host, INT64_MAX if none */
+    int source;             /* the first source (in name order) with that position */
+    int index;              /* in key order */
+} slice_rank;
+
+static int rank_cmp(const void *a, const void *b)
+{
+    const slice_rank *x = a, *y = b;
+    if (x->pos != y->pos)
+        return x->pos < y->pos ? -1 : 1;
+    if (x->source != y->source)
+        return x->source < y->source ? -1 : 1;
+    return (x->index > y->index) - (x->index < y->index);
+}
+
+/* Orders c's slices (read in key order) as the hosts list them: by the
+ * smallest position a host gave the slice (a host's slices are in the order
+ * it made them), ties to the source first in name order, then key order
+ * (slices no host listed, from a host of an earlier release, come last);
+ * and takes the slice limit the hosts published (the largest, if they
+ * differ), CC_SLICES_DEFAULT_MAX if none did. One host: exactly its order. */
+static int order_slices(ch_store *c, const cc_model *m, cc_error *err)
+{
+    int rc = 0;
+    c->slice_limit = CC_SLICES_DEFAULT_MAX;
+    if (c->has_slice_lists < 0) {
+        cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
+        char q[256];
+        snprintf(q, sizeof q, "EXISTS TABLE %s.slice_lists FORMAT RowBinary",
+                 cc_ch_database(c->ch));
+        cc_buf_put(&sql, q, strlen(q));
+        rc = select_rb(c, &sql, "", &ans, err);
+        if (!rc)
+            c->has_slice_lists = ans.len >= 1 && ans.p[0] == 1;
+        cc_buf_free(&ans);
+        if (rc)
+            return rc;
+    }
+    if (!c->has_slice_lists || c->n_slices == 0)
+        return 0;
+    slice_rank *rk = malloc((size_t)c->n_slices * sizeof *rk);
+    if (!rk)
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    for (int i = 0; i < c->n_slices; i++)
+        rk[i] = (slice_rank){INT64_MAX, 0, i};
+    cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
+    where_name(&sql, c, "slice_lists", "source, slice_limit, slice_keys", "name", m->name);
+    rc = select_rb(c, &sql, " ORDER BY source FORMAT RowBinary", &ans, err);
+    cc_rb rb = {ans.p, ans.p + ans.len};
+    int limit = 0;
+    for (int source = 0; !rc && rb.p < rb.end; source++) {
+        const char *src, *key;
+        size_t src_n, key_n;
+        int32_t lim;
+        uint64_t n;
+        if (cc_rb_string(&rb, &src, &src_n) || cc_rb_i32(&rb, &lim) || cc_rb_varint(&rb, &n)) {
+            rc = cc_error_set(err, CC_EIO, "%s: a truncated slice list", c->base.path);
+            break;
+        }
+        if (lim > limit)
+            limit = lim;
+        for (uint64_t p = 0; p < n; p++) {
+            if (cc_rb_string(&rb, &key, &key_n)) {
+                rc = cc_error_set(err, CC_EIO, "%s: a truncated slice list", c->base.path);
+                break;
+            }
+            for (int i = 0; i < c->n_slices; i++)
+                if (strlen(c->slice_keys[i]) == key_n &&
+                    memcmp(c->slice_keys[i], key, key_n) == 0) {
+                    if ((int64_t)p < rk[i].pos)
+                        rk[i].pos = (int64_t)p, rk[i].source = source;
+                    break;
+                }
+        }
+    }
+    cc_buf_free(&ans);
+    cc_slice *sl = rc ? NULL : malloc((size_t)c->n_slices * sizeof *sl);
+    char **keys = rc ? NULL : malloc((size_t)c->n_slices * sizeof *keys);
+    if (!rc && (!sl || !keys))
+        rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+    if (!rc) {
+        qsort(rk, (size_t)c->n_slices, sizeof *rk, rank_cmp);
+        for (int i = 0; i < c->n_slices; i++) {
+            sl[i] = c->slices[rk[i].index];
+            sl[i].id = i + 1;
+            keys[i] = c->slice_keys[rk[i].index];
+        }
+        free(c->slices);
+        free(c->slice_keys);
+        c->slices = sl;
+        c->slice_keys = keys;
+        sl = NULL;
+        keys = NULL;
+        if (limit > 0)
+            c->slice_limit = limit;
+    }
+    free(sl);
+    free(keys);
+    free(rk);
+    return rc;
+}
+
+/* The model's slices, read once per model: every key with events, in the
+ * hosts' order (order_slices), with its event and label totals. */
 static int load_slices(ch_store *c, const cc_model *m, cc_error *err)
 {
     if (c->slices_model == m->id)
@@ -367,6 +481,8 @@ static int load_slices(ch_store *c, const cc_model *m, cc_error *err)
         c->n_slices++;
     }
     cc_buf_free(&ans);
+    if (!rc)
+        rc = order_slices(c, m, err);
     if (rc)
         drop_slices(c);
     else
@@ -390,9 +506,10 @@ static int slice_key(ch_store *c, const cc_model *m, int64_t id, const char **ke
 
 static int ch_slice_limit_get(cc_store *s, const cc_model *m, int *limit, cc_error *err)
 {
-    (void)s, (void)m, (void)err;
-    *limit = CC_SLICES_DEFAULT_MAX; /* each host keeps its own; the cluster does not know it */
-    return 0;
+    ch_store *c = CH(s);
+    int rc = load_slices(c, m, err);
+    *limit = rc ? CC_SLICES_DEFAULT_MAX : c->slice_limit;
+    return rc;
 }
 
 static int ch_slice_list(cc_store *s, const cc_model *m, cc_slice **out, int *n, cc_error *err)
@@ -714,6 +831,7 @@ int cc_ch_store_open(cc_store **out, const char *url, cc_error *err)
     }
     c->base.be = &ch_backend;
     c->base.path = c->url;
+    c->has_slice_lists = -1;
     int rc = cc_ch_open(&c->ch, url, err);
     if (!rc)
         rc = cc_ch_models_load(c->ch, NULL, &c->models, &c->n_models, err);

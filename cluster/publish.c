@@ -185,10 +185,30 @@ static int apply_labels(run *r, const char *lines, size_t len, int64_t at)
     return rc;
 }
 
+/* The slice a stored event's summaries are in; *has = 0 for a store
+ * without slices. */
+static int event_slice(run *r, const cc_model *m, const char *id, int id_len, int *has,
+                       int64_t *slice)
+{
+    char *segment = NULL;
+    int found = 0, overflow = 0;
+    *has = 0;
+    if (!cc_store_slices_kept(r->store))
+        return 0;
+    int rc = cc_store_event_segment(r->store, m, id, id_len, &found, &segment, r->err);
+    if (!rc && found)
+        rc = cc_store_slice_resolve(r->store, m, segment, segment ? (int)strlen(segment) : 0, 0,
+                                    slice, &overflow, r->err);
+    free(segment);
+    *has = !rc && found;
+    return rc;
+}
+
 /* The same label as the event's, sent by another host, that arrived before
  * the one applied here: had one store read both, the later would have
  * changed nothing, so the label's arrival time is the earlier one. The
- * label-age counters of the event's day follow. */
+ * label-age counters of the event's day follow, the model's and those of
+ * the event's slice. */
 static int move_arrival_back(run *r, const cc_model *m, const char *id, int id_len,
                              const cc_stored_event *ev, const float *probs, int64_t at)
 {
@@ -198,9 +218,14 @@ static int move_arrival_back(run *r, const cc_model *m, const char *id, int id_l
         return cc_error_set(r->err, CC_ENOMEM, "out of memory");
     cc_summary_add_label_delay(d, ev->label_at - ev->ts, -1);
     cc_summary_add_label_delay(d, at - ev->ts, 1);
+    int has_slice = 0;
+    int64_t slice = 0;
     int rc = cc_store_begin(r->store, r->err);
     if (!rc) {
         if ((rc = cc_store_summary_add(r->store, m, ev->day, d, r->err)) ||
+            (rc = event_slice(r, m, id, id_len, &has_slice, &slice)) ||
+            (has_slice &&
+             (rc = cc_store_slice_summary_add(r->store, m, ev->day, slice, d, r->err))) ||
             (rc = cc_store_event_set_label(r->store, m, id, id_len, ev->label, at, r->err)) ||
             (rc = cc_store_commit(r->store, r->err)))
             cc_store_rollback(r->store);
@@ -407,6 +432,36 @@ static int put_models(run *r)
     return rc;
 }
 
+/* Each model's slice limit and its slices' keys in id order (the order the
+ * host made them), one row per model; nothing for a store without slices. */
+static int put_slice_lists(run *r)
+{
+    if (!cc_store_slices_kept(r->store))
+        return 0;
+    int rc = 0;
+    for (int i = 0; !rc && i < r->models.n; i++) {
+        const cc_model *m = r->models.m[i];
+        int limit = 0;
+        if ((rc = cc_store_slice_limit_get(r->store, m, &limit, r->err)) ||
+            (rc = slices_of(r, m, r->err)))
+            break;
+        cc_buf_string(&r->body, m->name, strlen(m->name));
+        cc_buf_string(&r->body, r->o->source, strlen(r->o->source));
+        cc_buf_u64(&r->body, (uint64_t)r->st->seq);
+        cc_buf_i32(&r->body, limit);
+        cc_buf_varint(&r->body, (uint64_t)r->n_slices);
+        for (int j = 0; j < r->n_slices; j++) {
+            char *key = cc_ch_slice_key(&r->slices[j]);
+            if (!key)
+                return cc_error_set(r->err, CC_ENOMEM, "out of memory");
+            cc_buf_string(&r->body, key, strlen(key));
+            free(key);
+        }
+        rc = row_done(r);
+    }
+    return rc;
+}
+
 static int put_event(void *ctx, const cc_published_event *e)
 {
     run *r = ctx;
@@ -469,6 +524,11 @@ int cc_publish_run(cc_store *store, cc_ch *c, const cc_publish_opts *o, cc_publi
         goto done;
     r.table = "models";
     if (!(rc = put_models(&r)) && !(rc = flush(&r))) {
+        r.table = "slice_lists";
+        if (!(rc = put_slice_lists(&r)))
+            rc = flush(&r);
+    }
+    if (!rc) {
         r.table = "summaries";
         if (!(rc = cc_store_publish_days(store, &day_mark, put_day, &r, err)) &&
             !(rc = flush(&r)) &&

@@ -37,6 +37,9 @@ classes=$(/usr/bin/python3 "$SRC/tests/e2e/e2e_compare.py" classes "$REF/e2e_exp
   --quiet "$T/d/events.jsonl"
 "$C" label --db "$T/h.db" --model packhouse "$T/d/labels.jsonl" > /dev/null
 "$C" baseline --db "$T/h.db" --model packhouse --from 2026-10-05 --to 2026-10-11 > /dev/null
+# the demo's events again with a limit of 2 slices: line-3 (the last to appear) overflows
+"$C" ingest --db "$T/h.db" --model pk2s --classes premium,extra,class-1,class-2,juice,cull \
+  --max-slices 2 --quiet "$T/d/events.jsonl" 2> /dev/null
 
 "$C" publish --db "$T/h.db" --store "$U" --source host-1 > "$T/pub1.out" \
   || fail "publish: $(cat "$T/pub1.out")"
@@ -67,25 +70,9 @@ compare_all first
 [ "$(grep -c . "$T/first-ch-ref-day.json")" -gt 0 ] || fail "empty report from the cluster"
 
 # slices through the cluster: the demo's packing lines, one slice's report
-# and every slice's rows (the cluster lists slices in name order, SQLite in
-# order of arrival: the rows are compared sorted by slice name)
-sort_segments() { # IN OUT
-  /usr/bin/python3 - "$1" "$2" << 'EOF'
-import json, sys
-def walk(v):
-    if isinstance(v, dict):
-        for k, x in v.items():
-            if k == "segments" and isinstance(x, list):
-                x.sort(key=lambda r: r.get("segment", ""))
-            walk(x)
-    elif isinstance(v, list):
-        for x in v:
-            walk(x)
-doc = json.load(open(sys.argv[1], encoding="utf-8"))
-walk(doc)
-json.dump(doc, open(sys.argv[2], "w", encoding="utf-8"))
-EOF
-}
+# and every slice's rows, in the host's order of slices and with its slice
+# limit (published in slice_lists), also for a model whose limit is not the
+# default and whose further segments went to the overflow slice
 for seg in line-1 line-2 line-3; do
   for by in day all; do
     "$C" report --db "$T/h.db" --model packhouse --segment $seg --by $by --format json > "$T/seg-sq.json"
@@ -94,15 +81,21 @@ for seg in line-1 line-2 line-3; do
     same "$T/seg-sq.json" "$T/seg-ch.json" "report packhouse --segment $seg --by $by"
   done
 done
-for model in ref packhouse; do
-  "$C" report --db "$T/h.db" --model $model --by-segment --by week --format json > "$T/bys-sq0.json"
-  "$C" report --store "$U" --model $model --by-segment --by week --format json > "$T/bys-ch0.json" \
-    || fail "report --store --by-segment $model"
-  grep -q '"segments"' "$T/bys-ch0.json" || fail "no per-slice rows from the cluster ($model)"
-  sort_segments "$T/bys-sq0.json" "$T/bys-sq.json"
-  sort_segments "$T/bys-ch0.json" "$T/bys-ch.json"
-  same "$T/bys-sq.json" "$T/bys-ch.json" "report $model --by-segment --by week"
+for model in ref packhouse pk2s; do
+  for by in week all; do
+    "$C" report --db "$T/h.db" --model $model --by-segment --by $by --format json > "$T/bys-sq.json"
+    "$C" report --store "$U" --model $model --by-segment --by $by --format json > "$T/bys-ch.json" \
+      || fail "report --store --by-segment $model"
+    grep -q '"segments"' "$T/bys-ch.json" || fail "no per-slice rows from the cluster ($model)"
+    same "$T/bys-sq.json" "$T/bys-ch.json" "report $model --by-segment --by $by (slice order and limit)"
+  done
+  "$C" report --db "$T/h.db" --model $model --by-segment --by all > "$T/bys-sq.txt"
+  "$C" report --store "$U" --model $model --by-segment --by all > "$T/bys-ch.txt"
+  cmp -s "$T/bys-sq.txt" "$T/bys-ch.txt" \
+    || fail "report $model --by-segment (text) differs: $(diff "$T/bys-sq.txt" "$T/bys-ch.txt" | head -n 6)"
 done
+/usr/bin/python3 -c 'import json, sys; sys.exit(json.load(open(sys.argv[1]))["slices"]["limit"] != 2)' \
+  "$T/bys-ch.json" || fail "pk2s: the cluster does not report the slice limit 2"
 rc=0; "$C" report --store "$U" --model packhouse --segment nosuch > /dev/null 2> "$T/noseg.err" || rc=$?
 [ $rc = 4 ] && grep -q "line-2" "$T/noseg.err" || fail "unknown segment through the cluster: exit $rc, $(cat "$T/noseg.err")"
 # report --by hour reads the cluster's event rows by time: the same hours

@@ -79,6 +79,11 @@ compare_all() { # TAG URL
       || fail "$1: report --store --by $by"
     same "$T/sq-$by.json" "$T/ch-$by.json" "$1: merged report --by $by"
   done
+  # slices in the order one store made them, with its limit (slice_lists)
+  "$C" report --db "$T/one.db" --model ref --by-segment --by all --format json > "$T/sq-bys.json"
+  "$C" report --store "$2" --model ref --by-segment --by all --format json > "$T/ch-bys.json" \
+    || fail "$1: report --store --by-segment"
+  same "$T/sq-bys.json" "$T/ch-bys.json" "$1: merged report --by-segment (slice order and limit)"
   # report --by hour: hours summed from the event rows of either store
   # (ranges that end where an event is: d1-250 at 23:00, d2-000 at midnight)
   for range in "2026-03-08 2026-03-12" "2026-03-08 2026-03-09" "2026-03-09T05:00:00Z 2026-03-09T23:00:00Z"; do
