@@ -6,7 +6,8 @@
  * labels"); (2) the full summary vector of every (model, day) written since
  * the last run goes to the summaries table under this source's name and a
  * new sequence number, slice "" (the whole model), and beside it the vector
- * of each of the model's slices with events that day (cc_ch_slice_key); (3) event rows stored or
+ * of each of the model's slices with events that day (cc_ch_slice_key), after each model's
+ * shape, baseline, slice limit and slice order; (3) event rows stored or
  * relabelled since then go to the events table; (4) only then the local
  * marks are cleared. Every insert is idempotent, so a run that fails at any
  * point is simply run again. A failed insert (a shard down, a timeout) is
