@@ -117,11 +117,12 @@ static int publish_with(cc_store *store, const char *db, const char *url, const 
     } else {
         printf("published %s as '%s' (seq %lld): %lld summary vector%s (and %lld of slices), "
                "%lld event row%s, %lld waiting label%s sent, %lld label%s from other hosts "
-               "applied; %lld bytes\n",
+               "applied (%lld label row%s read); %lld bytes\n",
                db, source, (long long)st.seq, (long long)st.days, st.days == 1 ? "" : "s",
                (long long)st.slice_days, (long long)st.events, st.events == 1 ? "" : "s", (long long)st.labels_sent,
                st.labels_sent == 1 ? "" : "s", (long long)st.labels_applied,
-               st.labels_applied == 1 ? "" : "s", (long long)st.bytes);
+               st.labels_applied == 1 ? "" : "s", (long long)st.labels_read,
+               st.labels_read == 1 ? "" : "s", (long long)st.bytes);
     }
     cc_ch_close(ch);
     return rc;

@@ -41,6 +41,7 @@ typedef struct cc_publish_stats {
     int64_t events;             /* event rows sent (new or relabelled) */
     int64_t labels_sent;        /* waiting labels sent for other hosts */
     int64_t labels_applied;     /* other hosts' labels applied here */
+    int64_t labels_read;        /* label rows read from the cluster (only what may be new) */
     int64_t bytes;              /* request bytes sent */
     int retries;
 } cc_publish_stats;

@@ -64,6 +64,20 @@ for r in 1 2; do
   "$C" publish --db "$T/b.db" --store "$CH_URL_2" --source host-b > "$T/pb$r.out"
 done
 cat "$T"/pa1.out "$T"/pb1.out "$T"/pa2.out "$T"/pb2.out
+# labels are read incrementally: a third run of a reads b's second run (b
+# sends its waiting labels with every run), a fourth reads nothing; the same
+# for b
+rows_read() { sed -n 's/.*applied (\([0-9]*\) label rows\{0,1\} read).*/\1/p' "$1"; }
+for host in a b; do
+  url=$CH_URL_1; [ $host = b ] && url=$CH_URL_2
+  for r in 3 4; do
+    "$C" publish --db "$T/$host.db" --store "$url" --source host-$host > "$T/p$host$r.out"
+  done
+  cat "$T/p${host}3.out" "$T/p${host}4.out"
+  [ "$(rows_read "$T/p${host}4.out")" = 0 ] \
+    || fail "a publish of $host with nothing new read label rows: $(cat "$T/p${host}4.out")"
+done
+[ "$(rows_read "$T/pa3.out")" -gt 0 ] || fail "host a did not read b's second run: $(cat "$T/pa3.out")"
 # both shards hold part of the summaries and of the events
 for t in summaries events; do
   for i in 1 2; do
@@ -151,6 +165,35 @@ ARGS
   done
 }
 compare_all "two hosts" "$CH_URL_1"
+
+# a label read before its event reached the host: b holds labels for three
+# events of a model a does not have yet; a publishes (nothing to apply), then
+# ingests the events and publishes again while b stays silent: the labels
+# come from the rows for a's new events, not from b's runs (already read)
+export CONCORD_NOW=1790050000
+for i in 1 2 3 4; do
+  sed -n "${i}p" "$REF/e2e_events.jsonl" | sed "s/\"id\":\"[^\"]*\"/\"id\":\"late-$i\"/"
+done > "$T/late.jsonl"
+head -n 1 "$T/late.jsonl" > "$T/late-b.jsonl"
+tail -n 3 "$T/late.jsonl" > "$T/late-a.jsonl"
+printf '{"id":"late-2","label":1}\n{"id":"late-3","label":2}\n{"id":"late-4","label":0}\n' > "$T/late-labels.jsonl"
+"$C" ingest --db "$T/one.db" --model late --classes "$classes" --quiet "$T/late.jsonl"
+"$C" ingest --db "$T/b.db" --model late --classes "$classes" --quiet "$T/late-b.jsonl"
+export CONCORD_NOW=1790053600
+"$C" label --db "$T/one.db" --model late "$T/late-labels.jsonl" > /dev/null
+"$C" label --db "$T/b.db" --model late "$T/late-labels.jsonl" > /dev/null
+"$C" publish --db "$T/b.db" --store "$CH_URL_2" --source host-b > "$T/late1.out"
+"$C" publish --db "$T/a.db" --store "$CH_URL_1" --source host-a > "$T/late2.out"
+export CONCORD_NOW=1790057200
+"$C" ingest --db "$T/a.db" --model late --classes "$classes" --quiet "$T/late-a.jsonl"
+"$C" publish --db "$T/a.db" --store "$CH_URL_1" --source host-a > "$T/late3.out"
+cat "$T/late1.out" "$T/late2.out" "$T/late3.out"
+grep -q " 3 labels from other hosts applied (3 label rows read)" "$T/late3.out" \
+  || fail "labels that were read before their events arrived: $(cat "$T/late3.out")"
+"$C" report --db "$T/one.db" --model late --by all --format json > "$T/late-sq.json"
+"$C" report --store "$CH_URL_1" --model late --by all --format json > "$T/late-ch.json" \
+  || fail "report late"
+same "$T/late-sq.json" "$T/late-ch.json" "labels read before their events arrived: report late"
 "$C" report --store "$CH_URL_2" --model ref --by all --format json > "$T/via2.json"
 same "$T/sq-all.json" "$T/via2.json" "the same merged report through the other server"
 
