@@ -2,8 +2,10 @@
  *
  * One run: (1) labels waiting here for an event this host never saw go to
  * the cluster's labels table, and labels other hosts sent for events stored
- * here are applied here, newest arrival first to last (see README, "Delayed
- * labels"); (2) the full summary vector of every (model, day) written since
+ * here are applied here, oldest arrival first (see README, "Delayed
+ * labels"); only rows that may be new here are read: other sources' runs
+ * since the last one read, and the labels of events stored since the last
+ * run (marks in publish_state); (2) the full summary vector of every (model, day) written since
  * the last run goes to the summaries table under this source's name and a
  * new sequence number, slice "" (the whole model), and beside it the vector
  * of each of the model's slices with events that day (cc_ch_slice_key), after each model's
