@@ -32,6 +32,8 @@ typedef struct ch_store {
     char **slice_keys;      /* their keys in the summaries table */
     int n_slices;
     int slice_limit;        /* the hosts' slice limit of slices_model */
+    int64_t pending_model;  /* model id pending holds the count of, 0 for none */
+    int64_t pending;        /* labels in the cluster whose event no host published */
     int has_slice_lists;    /* 1: the cluster has the slice_lists table, 0 no, -1 unknown */
 } ch_store;
 
@@ -572,7 +574,12 @@ static int ch_labeled_day_last(cc_store *s, const cc_model *m, int64_t day, int 
     ch_store *c = CH(s);
     cc_layout l;
     *found = 0;
-    if (cc_layout_init(&l, m->m, m->k))
+    /* the shape from the cluster's models: the alert evaluator passes a
+     * model with its name only */
+    const cc_ch_model *cm = find_model(c, m->name);
+    if (!cm)
+        return cc_error_set(err, CC_ENOTFOUND, "%s: no model named '%s'", s->path, m->name);
+    if (cc_layout_init(&l, cm->model->m, cm->model->k))
         return cc_error_set(err, CC_EIO, "%s: model '%s' has a shape out of range", s->path,
                             m->name);
     cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
@@ -797,6 +804,71 @@ static int ch_pruned_range(cc_store *s, const cc_model *m, int64_t from, int64_t
     return rc;
 }
 
+/* A model's totals over the merged summaries (concord models), and the
+ * labels that wait for their event: label rows of any source whose (model,
+ * id) has no event row in the cluster. The dispatch asks for that count
+ * right after the totals through pending_label_count, which has no error
+ * channel, so it is read here and kept. */
+static int ch_model_totals(cc_store *s, const cc_model *m, cc_model_totals *out, cc_error *err)
+{
+    ch_store *c = CH(s);
+    cc_layout l;
+    memset(out, 0, sizeof *out);
+    c->pending_model = 0;
+    if (cc_layout_init(&l, m->m, m->k))
+        return cc_error_set(err, CC_EIO, "%s: model '%s' has a shape out of range", s->path,
+                            m->name);
+    const char *db = cc_ch_database(c->ch);
+    cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
+    char part[512];
+    snprintf(part, sizeof part,
+             "SELECT toInt64(count()), toInt64(min(day)), toInt64(max(day)), toInt64(sum(e)), "
+             "toInt64(sum(l)) FROM (SELECT day, sum(events) AS e, sum(counters[%zu]) AS l "
+             "FROM %s.summaries FINAL WHERE model = ", l.n_labeled + 1, db);
+    cc_buf_put(&sql, part, strlen(part));
+    cc_ch_quote(&sql, m->name);
+    snprintf(part, sizeof part, " AND layout_version = %d AND slice = '' GROUP BY day "
+                                "HAVING e > 0) FORMAT RowBinary", CC_SUMMARY_VERSION);
+    int rc = select_rb(c, &sql, part, &ans, err);
+    cc_rb rb = {ans.p, ans.p + ans.len};
+    int64_t days = 0;
+    if (!rc && (cc_rb_i64(&rb, &days) || cc_rb_i64(&rb, &out->first_day) ||
+                cc_rb_i64(&rb, &out->last_day) || cc_rb_i64(&rb, &out->events) ||
+                cc_rb_i64(&rb, &out->labeled)))
+        rc = cc_error_set(err, CC_EIO, "%s: a truncated answer (model totals)", s->path);
+    cc_buf_free(&ans);
+    out->days = (int)days;
+    if (!days)
+        out->first_day = out->last_day = 0;
+    if (rc)
+        return rc;
+    /* GLOBAL: the events subquery runs once over the Distributed table and
+     * its ids go to every shard of the labels table */
+    cc_buf q = CC_BUF_INIT;
+    snprintf(part, sizeof part, "SELECT toInt64(uniqExact(id)) FROM %s.labels FINAL "
+                                "WHERE model = ", db);
+    cc_buf_put(&q, part, strlen(part));
+    cc_ch_quote(&q, m->name);
+    snprintf(part, sizeof part, " AND id GLOBAL NOT IN (SELECT id FROM %s.events WHERE model = ",
+             db);
+    cc_buf_put(&q, part, strlen(part));
+    cc_ch_quote(&q, m->name);
+    rc = select_rb(c, &q, ") FORMAT RowBinary", &ans, err);
+    rb = (cc_rb){ans.p, ans.p + ans.len};
+    if (!rc && cc_rb_i64(&rb, &c->pending))
+        rc = cc_error_set(err, CC_EIO, "%s: a truncated answer (waiting labels)", s->path);
+    cc_buf_free(&ans);
+    if (!rc)
+        c->pending_model = m->id;
+    return rc;
+}
+
+static int64_t ch_pending_label_count(cc_store *s, const cc_model *m)
+{
+    ch_store *c = CH(s);
+    return c->pending_model == m->id ? c->pending : 0;
+}
+
 static const cc_store_backend ch_backend = {
     .version = CC_STORE_BACKEND_VERSION,
     .size = sizeof(cc_store_backend),
@@ -813,6 +885,8 @@ static const cc_store_backend ch_backend = {
     .labeled_day_last = ch_labeled_day_last,
     .pruned_range = ch_pruned_range,
     .events_between = ch_events_between,
+    .model_totals = ch_model_totals,
+    .pending_label_count = ch_pending_label_count,
     .slices_kept = ch_slices_kept,
     .slice_limit_get = ch_slice_limit_get,
     .slice_list = ch_slice_list,

@@ -67,6 +67,11 @@ compare_all() { # TAG
   done
 }
 compare_all first
+# the HTML page reads its review lists from the cluster's rows: the same page
+"$C" report --db "$T/h.db" --model packhouse --format html -o "$T/sq.html"
+"$C" report --store "$U" --model packhouse --format html -o "$T/ch.html" || fail "report --store --format html"
+grep -q "review" "$T/ch.html" || fail "the cluster's HTML page has no review lists"
+cmp -s "$T/sq.html" "$T/ch.html" || fail "report --format html differs: $(diff "$T/sq.html" "$T/ch.html" | head -c 600)"
 [ "$(grep -c . "$T/first-ch-ref-day.json")" -gt 0 ] || fail "empty report from the cluster"
 
 # slices through the cluster: the demo's packing lines, one slice's report
@@ -118,6 +123,14 @@ if [ -n "$PROBE" ]; then
     got=$("$PROBE" "$U" ref read "$id")
     want=$(sqlite3 -separator ' ' "$T/h.db" "SELECT e.ts, coalesce(e.label, -1), coalesce(e.label_at, -1), coalesce(e.segment, '-') FROM events e JOIN models m ON m.model_id = e.model_id WHERE m.name = 'ref' AND e.id = '$id'")
     [ "$got" = "${want:-absent}" ] || fail "event_read $id: '$got', expected '${want:-absent}'"
+  done
+  # what `concord models` reads: totals, waiting labels, slice limit and slices
+  "$C" models --db "$T/h.db" --format json > "$T/models.json"
+  for model in ref packhouse pk2s; do
+    "$PROBE" "$U" $model totals > "$T/totals.txt" || fail "probe totals $model"
+    "$PROBE" "$U" $model slices > "$T/slices.txt" || fail "probe slices $model"
+    /usr/bin/python3 "$HERE/models_same.py" "$T/models.json" $model "$T/totals.txt" "$T/slices.txt" \
+      || fail "model totals and slices of $model differ"
   done
   for d in 20500 20521 20523 20530 20600; do
     got=$("$PROBE" "$U" ref lastlabeled "$d")

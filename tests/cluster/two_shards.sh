@@ -11,10 +11,11 @@
 # with backoff and says so, a report meanwhile fails with the server's error
 # instead of answering with half the data, and once the shard is back the
 # merged report again equals the single store's: nothing lost or doubled.
-# Usage: two_shards.sh CONCORD SOURCE_DIR
+# Usage: two_shards.sh CONCORD SOURCE_DIR [CH_STORE_PROBE]
 set -euo pipefail
 C=$1
 SRC=$2
+PROBE=${3:-}
 HERE=$SRC/tests/cluster
 T=$(mktemp -d "${TMPDIR:-/tmp}/concord-ch2.XXXXXX")
 . "$HERE/ch_fixture.sh"
@@ -165,6 +166,16 @@ ARGS
   done
 }
 compare_all "two hosts" "$CH_URL_1"
+# the model's totals, the labels still waiting for their event anywhere
+# (here those of d3-* ids), its slices and limit (ch_store_probe)
+if [ -n "$PROBE" ]; then
+  "$C" models --db "$T/one.db" --format json > "$T/models.json"
+  "$PROBE" "$CH_URL_1" ref totals > "$T/totals.txt" || fail "probe totals"
+  "$PROBE" "$CH_URL_1" ref slices > "$T/slices.txt" || fail "probe slices"
+  cat "$T/totals.txt"
+  /usr/bin/python3 "$HERE/models_same.py" "$T/models.json" ref "$T/totals.txt" "$T/slices.txt" \
+    || fail "model totals and slices of ref differ between one store and the cluster"
+fi
 
 # a label read before its event reached the host: b holds labels for three
 # events of a model a does not have yet; a publishes (nothing to apply), then
