@@ -42,7 +42,7 @@ best() { # LABEL CMD...: best of 3, "wall cpu"
   printf '%-44s wall %7.3f s  cpu %7.3f s\n' "$label" "$b_wall" "$b_cpu"
   echo "$b_wall $b_cpu" > "$T/last"
 }
-ratio() { echo "scale=1; $1 / $2" | bc -l; }
+ratio() { echo "if ($2 > 0) { scale=1; $1 / $2 }" | bc -l; }
 for what in review show; do
   if [ $what = review ]; then
     args=(review --store "$U" --model bench --from "$day" --to "$day" --where all --format json)

@@ -658,16 +658,24 @@ static int ch_events_scan(cc_store *s, const cc_model *m, int64_t from, int64_t 
     return rc;
 }
 
+/* One event by id: its newest version (the largest seq, the row FINAL
+ * would keep), without FINAL, which would merge every row of the model,
+ * probability arrays included, for each event a review lists; PREWHERE
+ * reads the id column first and the other columns only where it matches. */
 static int ch_event_read(cc_store *s, const cc_model *m, const char *id, int *found,
                          cc_event_rec *out, float *probs, cc_error *err)
 {
     ch_store *c = CH(s);
     cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
+    char head[256];
     *found = 0;
-    where_model(&sql, c, "events", "ts, has_segment, segment, label, label_at, probs", m);
-    cc_buf_put(&sql, " AND id = ", 10);
+    snprintf(head, sizeof head, "SELECT ts, has_segment, segment, label, label_at, probs "
+                                "FROM %s.events PREWHERE id = ", cc_ch_database(c->ch));
+    cc_buf_put(&sql, head, strlen(head));
     cc_ch_quote(&sql, id);
-    int rc = select_rb(c, &sql, " LIMIT 1 FORMAT RowBinary", &ans, err);
+    cc_buf_put(&sql, " WHERE model = ", 15);
+    cc_ch_quote(&sql, m->name);
+    int rc = select_rb(c, &sql, " ORDER BY seq DESC LIMIT 1 FORMAT RowBinary", &ans, err);
     cc_rb rb = {ans.p, ans.p + ans.len};
     if (!rc && ans.len) {
         event_row e;
