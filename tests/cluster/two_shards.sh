@@ -4,11 +4,15 @@
 # files) each holding half of a log, delayed labels and their corrections
 # arriving at either host (a correction always at the other host than the
 # label before it, so labels often reach a host that never saw the event).
-# After publishing, the merged report (by day, week, all and hour), review
-# (every list, segment, time cut, limit and format) and show equal those of
-# one SQLite store that read the whole log (counts exactly, reals within 1e-9
-# relative; text and CSV byte for byte). Then a shard is stopped during a publish: the publisher retries
-# with backoff and says so, a report meanwhile fails with the server's error
+# After publishing, the merged report (by day, week, all and hour; by
+# segment with the slices in the store's order and its limit), review (every
+# list, segment, time cut, limit and format), show and the model's totals
+# equal those of one SQLite store that read the whole log (counts exactly,
+# reals within 1e-9 relative; text and CSV byte for byte). Labels are read
+# incrementally: a run with nothing new reads no label rows, and a label read
+# before its event reached the host is applied when the event arrives. Then
+# a shard is stopped during a publish: the publisher retries with backoff
+# and says so, a report meanwhile fails with the server's error
 # instead of answering with half the data, and once the shard is back the
 # merged report again equals the single store's: nothing lost or doubled.
 # Usage: two_shards.sh CONCORD SOURCE_DIR [CH_STORE_PROBE]
