@@ -54,10 +54,10 @@ int cli_exit_for(int code);
 struct cc_store;
 int cli_store_open(struct cc_store **out, const char *path, int flags, cc_error *err);
 /* The store a reading command names (store_url.c): --db PATH, or --store
- * sqlite:PATH or clickhouse://HOST:PORT/DATABASE. A cluster's merged view of
- * model (NULL: all), with its event rows when events is set (only event_id's
- * when not NULL), is copied into a temporary store first. Close it with
- * cli_store_url_close, which removes the copy. */
+ * sqlite:PATH or clickhouse://HOST:PORT/DATABASE (the cluster's read-only
+ * backend, which reads summaries and rows as each call asks). model, events
+ * and event_id are what the command will read; no backend needs them now.
+ * Close it with cli_store_url_close. */
 int cli_store_url_open(const char *command, const char *db, const char *url, const char *model,
                        int events, const char *event_id, struct cc_store **out, cc_error *err);
 void cli_store_url_close(struct cc_store *s);

@@ -16,8 +16,11 @@ const char help_publish[] =
     "Sends what changed in the local store since its last publish to a ClickHouse\n"
     "cluster: the full summary vector of every (model, day) written since, under this\n"
     "host's source name and a new sequence number; the event rows stored or relabelled\n"
-    "since; and labels waiting here for events this host never saw. Labels other hosts\n"
-    "sent for events stored here are applied here first. Publishing again is harmless:\n"
+    "since; each model's slice limit and slice order; and labels waiting here for events\n"
+    "this host never saw. Labels other hosts sent for events stored here are applied\n"
+    "here first; only label rows that may be new here are read (other hosts' runs since\n"
+    "the last one read, and the labels of events stored since the last publish), and\n"
+    "the count is printed. Publishing again is harmless:\n"
     "the cluster keeps one vector per (model, day, source) and one row per event. A\n"
     "failed insert (a shard down) is retried with a growing pause, said on stderr, up\n"
     "to --retry-for seconds (default 600); then nothing is marked as published.\n"
@@ -117,11 +120,12 @@ static int publish_with(cc_store *store, const char *db, const char *url, const 
     } else {
         printf("published %s as '%s' (seq %lld): %lld summary vector%s (and %lld of slices), "
                "%lld event row%s, %lld waiting label%s sent, %lld label%s from other hosts "
-               "applied; %lld bytes\n",
+               "applied (%lld label row%s read); %lld bytes\n",
                db, source, (long long)st.seq, (long long)st.days, st.days == 1 ? "" : "s",
                (long long)st.slice_days, (long long)st.events, st.events == 1 ? "" : "s", (long long)st.labels_sent,
                st.labels_sent == 1 ? "" : "s", (long long)st.labels_applied,
-               st.labels_applied == 1 ? "" : "s", (long long)st.bytes);
+               st.labels_applied == 1 ? "" : "s", (long long)st.labels_read,
+               st.labels_read == 1 ? "" : "s", (long long)st.bytes);
     }
     cc_ch_close(ch);
     return rc;

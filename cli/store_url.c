@@ -1,44 +1,18 @@
 /* store_url.c — `--store URL` for the reading commands: sqlite:PATH (the
- * same as --db PATH) or clickhouse://HOST:PORT/DATABASE. Reports read the
- * cluster through its store backend (cluster/ch_store.h). Review and show
- * read event rows with SQL of the SQLite backend's (collector/review.c), so
- * for them the cluster's merged view is copied into a temporary local store
- * (removed on close) until review reads through the store's ops. */
-#include <stdio.h>
-#include <stdlib.h>
+ * same as --db PATH) or clickhouse://HOST:PORT/DATABASE. Every reading
+ * command reads the cluster through its read-only store backend
+ * (cluster/ch_store.h): reports its summaries, review and show its event
+ * rows, through the same store calls as on a SQLite file. */
 #include <string.h>
-#include <unistd.h>
 
-#include "ch_client.h"
 #include "ch_store.h"
 #include "cli.h"
-#include "fetch.h"
 #include "store.h"
-
-/* The temporary folder of the one cluster copy a command has open. */
-static struct {
-    cc_store *store;
-    char dir[4096];
-} copy;
-
-static void remove_copy(void)
-{
-    static const char *const files[] = {"cluster.db", "cluster.db-wal", "cluster.db-shm"};
-    char path[4200];
-    if (!copy.dir[0])
-        return;
-    for (size_t i = 0; i < sizeof files / sizeof *files; i++) {
-        snprintf(path, sizeof path, "%s/%s", copy.dir, files[i]);
-        unlink(path);
-    }
-    rmdir(copy.dir);
-    copy.dir[0] = 0;
-    copy.store = NULL;
-}
 
 int cli_store_url_open(const char *command, const char *db, const char *url, const char *model,
                        int events, const char *event_id, cc_store **out, cc_error *err)
 {
+    (void)model, (void)events, (void)event_id; /* the backend reads what each call asks */
     *out = NULL;
     if (db && url)
         return cc_error_set(err, CC_EUSAGE, "concord %s: give --db or --store, not both",
@@ -51,49 +25,10 @@ int cli_store_url_open(const char *command, const char *db, const char *url, con
         return cc_error_set(err, CC_EUSAGE,
                             "concord %s: --store '%s': expected sqlite:PATH or "
                             "clickhouse://HOST:PORT/DATABASE", command, url);
-    if (!events)
-        return cc_ch_store_open(out, url, err);
-    if (copy.dir[0])
-        return cc_error_set(err, CC_EIO, "concord %s: one cluster store at a time", command);
-    cc_ch *ch = NULL;
-    int rc = cc_ch_open(&ch, url, err);
-    if (rc)
-        return rc;
-    const char *tmp = getenv("TMPDIR");
-    snprintf(copy.dir, sizeof copy.dir, "%s/concord-cluster-XXXXXX", tmp && *tmp ? tmp : "/tmp");
-    if (!mkdtemp(copy.dir)) {
-        copy.dir[0] = 0;
-        cc_ch_close(ch);
-        return cc_error_set(err, CC_EIO, "concord %s: cannot make a temporary folder for the "
-                                         "cluster's data (TMPDIR)", command);
-    }
-    char path[4200];
-    snprintf(path, sizeof path, "%s/cluster.db", copy.dir);
-    cc_store *w = NULL;
-    cc_fetch_opts fo = CC_FETCH_OPTS_INIT;
-    fo.model = model;
-    fo.events = events;
-    fo.event_id = event_id;
-    if (!(rc = cc_store_open(&w, path, CC_STORE_CREATE, err)))
-        rc = cc_fetch_into(ch, w, &fo, err);
-    cc_store_close(w);
-    cc_ch_close(ch);
-    if (!rc)
-        rc = cc_store_open(out, path, CC_STORE_READONLY, err);
-    if (rc) {
-        remove_copy();
-        return rc;
-    }
-    copy.store = *out;
-    return 0;
+    return cc_ch_store_open(out, url, err);
 }
 
-void cli_store_url_close(cc_store *s)
-{
-    cc_store_close(s);
-    if (s && s == copy.store)
-        remove_copy();
-}
+void cli_store_url_close(cc_store *s) { cc_store_close(s); }
 
 /* ---- every command: --db PATH or --store URL (the writer side too) ---- */
 

@@ -12,6 +12,10 @@
  * labels: labels whose event the sending host does not hold, by (model, id,
  *   source); the host holding the event pulls and applies them.
  * models: each source's model shapes and baseline.
+ * slice_lists: each source's slice limit of a model and its slices' keys in
+ *   the order the host made them (its slice ids), so the cluster lists the
+ *   slices as a host does and reports the hosts' limit (a table of its own:
+ *   CREATE ... IF NOT EXISTS adds it to a cluster made by an earlier release).
  * Every Distributed table shards by a hash of its key, so a row always lands
  * on the same shard and FINAL (which works per shard) sees all its versions. */
 #include "ch_schema.h"
@@ -38,6 +42,9 @@ static const char *const local_ddl[][3] = {
                "classes Array(String), has_baseline UInt8, baseline_from Int64, "
                "baseline_to Int64",
      "ReplacingMergeTree(seq) ORDER BY (name, source)"},
+    {"slice_lists", "name String, source String, seq UInt64, slice_limit Int32, "
+                    "slice_keys Array(String)",
+     "ReplacingMergeTree(seq) ORDER BY (name, source)"},
 };
 
 static const char *const dist[][2] = {
@@ -45,6 +52,7 @@ static const char *const dist[][2] = {
     {"events", "cityHash64(model, id)"},
     {"labels", "cityHash64(model, id)"},
     {"models", "cityHash64(name, source)"},
+    {"slice_lists", "cityHash64(name, source)"},
 };
 
 int cc_ch_schema_create(cc_ch *c, cc_error *err)

@@ -8,6 +8,7 @@
 #include "ch_client.h"
 #include "ch_schema.h"
 #include "ch_vector.h"
+#include "date.h"
 #include "fetch.h"
 #include "store_backend.h"
 #include "summary.h"
@@ -28,9 +29,13 @@ typedef struct ch_store {
     int64_t **cache_vec;    /* layout len counters per day */
     int n_cache;
     int64_t slices_model;   /* model id the slice list is of, 0 for none */
-    cc_slice *slices;       /* the model's slices in key order; id = index + 1 */
+    cc_slice *slices;       /* the model's slices in the hosts' order; id = index + 1 */
     char **slice_keys;      /* their keys in the summaries table */
     int n_slices;
+    int slice_limit;        /* the hosts' slice limit of slices_model */
+    int64_t pending_model;  /* model id pending holds the count of, 0 for none */
+    int64_t pending;        /* labels in the cluster whose event no host published */
+    int has_slice_lists;    /* 1: the cluster has the slice_lists table, 0 no, -1 unknown */
 } ch_store;
 
 #define CH(s) ((ch_store *)(s))
@@ -145,15 +150,22 @@ static int ch_baseline_get(cc_store *s, const cc_model *m, int *has, int64_t *fr
     return 0;
 }
 
-/* "... WHERE model = 'm' AND layout_version = V AND slice = ''" into b. */
+/* "SELECT cols FROM db.table FINAL WHERE col = 'name'" into b. */
+static void where_name(cc_buf *b, ch_store *c, const char *table, const char *cols,
+                       const char *col, const char *name)
+{
+    char head[256];
+    snprintf(head, sizeof head, "SELECT %s FROM %s.%s FINAL WHERE %s = ", cols,
+             cc_ch_database(c->ch), table, col);
+    cc_buf_put(b, head, strlen(head));
+    cc_ch_quote(b, name);
+}
+
+/* The same for the model column of the summaries and events tables. */
 static void where_model(cc_buf *b, ch_store *c, const char *table, const char *cols,
                         const cc_model *m)
 {
-    char head[512];
-    snprintf(head, sizeof head, "SELECT %s FROM %s.%s FINAL WHERE model = ", cols,
-             cc_ch_database(c->ch), table);
-    cc_buf_put(b, head, strlen(head));
-    cc_ch_quote(b, m->name);
+    where_name(b, c, table, cols, "model", m->name);
 }
 
 static int select_rb(ch_store *c, cc_buf *sql, const char *tail, cc_buf *ans, cc_error *err)
@@ -310,8 +322,113 @@ static int ch_slices_kept(cc_store *s)
     return 1;
 }
 
-/* The model's slices, read once per model: every key with events, in key
- * order, with its event and label totals. */
+/* ---- the hosts' slice lists (ch_schema.c, slice_lists) ---- */
+
+typedef struct slice_rank {
+    int64_t pos;            /* the smallest position at any host, INT64_MAX if none */
+    int source;             /* the first source (in name order) with that position */
+    int index;              /* in key order */
+} slice_rank;
+
+static int rank_cmp(const void *a, const void *b)
+{
+    const slice_rank *x = a, *y = b;
+    if (x->pos != y->pos)
+        return x->pos < y->pos ? -1 : 1;
+    if (x->source != y->source)
+        return x->source < y->source ? -1 : 1;
+    return (x->index > y->index) - (x->index < y->index);
+}
+
+/* Orders c's slices (read in key order) as the hosts list them: by the
+ * smallest position a host gave the slice (a host's slices are in the order
+ * it made them), ties to the source first in name order, then key order
+ * (slices no host listed, from a host of an earlier release, come last);
+ * and takes the slice limit the hosts published (the largest, if they
+ * differ), CC_SLICES_DEFAULT_MAX if none did. One host: exactly its order. */
+static int order_slices(ch_store *c, const cc_model *m, cc_error *err)
+{
+    int rc = 0;
+    c->slice_limit = CC_SLICES_DEFAULT_MAX;
+    if (c->has_slice_lists < 0) {
+        cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
+        char q[256];
+        snprintf(q, sizeof q, "EXISTS TABLE %s.slice_lists FORMAT RowBinary",
+                 cc_ch_database(c->ch));
+        cc_buf_put(&sql, q, strlen(q));
+        rc = select_rb(c, &sql, "", &ans, err);
+        if (!rc)
+            c->has_slice_lists = ans.len >= 1 && ans.p[0] == 1;
+        cc_buf_free(&ans);
+        if (rc)
+            return rc;
+    }
+    if (!c->has_slice_lists || c->n_slices == 0)
+        return 0;
+    slice_rank *rk = malloc((size_t)c->n_slices * sizeof *rk);
+    if (!rk)
+        return cc_error_set(err, CC_ENOMEM, "out of memory");
+    for (int i = 0; i < c->n_slices; i++)
+        rk[i] = (slice_rank){INT64_MAX, 0, i};
+    cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
+    where_name(&sql, c, "slice_lists", "source, slice_limit, slice_keys", "name", m->name);
+    rc = select_rb(c, &sql, " ORDER BY source FORMAT RowBinary", &ans, err);
+    cc_rb rb = {ans.p, ans.p + ans.len};
+    int limit = 0;
+    for (int source = 0; !rc && rb.p < rb.end; source++) {
+        const char *src, *key;
+        size_t src_n, key_n;
+        int32_t lim;
+        uint64_t n;
+        if (cc_rb_string(&rb, &src, &src_n) || cc_rb_i32(&rb, &lim) || cc_rb_varint(&rb, &n)) {
+            rc = cc_error_set(err, CC_EIO, "%s: a truncated slice list", c->base.path);
+            break;
+        }
+        if (lim > limit)
+            limit = lim;
+        for (uint64_t p = 0; p < n; p++) {
+            if (cc_rb_string(&rb, &key, &key_n)) {
+                rc = cc_error_set(err, CC_EIO, "%s: a truncated slice list", c->base.path);
+                break;
+            }
+            for (int i = 0; i < c->n_slices; i++)
+                if (strlen(c->slice_keys[i]) == key_n &&
+                    memcmp(c->slice_keys[i], key, key_n) == 0) {
+                    if ((int64_t)p < rk[i].pos)
+                        rk[i].pos = (int64_t)p, rk[i].source = source;
+                    break;
+                }
+        }
+    }
+    cc_buf_free(&ans);
+    cc_slice *sl = rc ? NULL : malloc((size_t)c->n_slices * sizeof *sl);
+    char **keys = rc ? NULL : malloc((size_t)c->n_slices * sizeof *keys);
+    if (!rc && (!sl || !keys))
+        rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+    if (!rc) {
+        qsort(rk, (size_t)c->n_slices, sizeof *rk, rank_cmp);
+        for (int i = 0; i < c->n_slices; i++) {
+            sl[i] = c->slices[rk[i].index];
+            sl[i].id = i + 1;
+            keys[i] = c->slice_keys[rk[i].index];
+        }
+        free(c->slices);
+        free(c->slice_keys);
+        c->slices = sl;
+        c->slice_keys = keys;
+        sl = NULL;
+        keys = NULL;
+        if (limit > 0)
+            c->slice_limit = limit;
+    }
+    free(sl);
+    free(keys);
+    free(rk);
+    return rc;
+}
+
+/* The model's slices, read once per model: every key with events, in the
+ * hosts' order (order_slices), with its event and label totals. */
 static int load_slices(ch_store *c, const cc_model *m, cc_error *err)
 {
     if (c->slices_model == m->id)
@@ -368,6 +485,8 @@ static int load_slices(ch_store *c, const cc_model *m, cc_error *err)
         c->n_slices++;
     }
     cc_buf_free(&ans);
+    if (!rc)
+        rc = order_slices(c, m, err);
     if (rc)
         drop_slices(c);
     else
@@ -391,9 +510,10 @@ static int slice_key(ch_store *c, const cc_model *m, int64_t id, const char **ke
 
 static int ch_slice_limit_get(cc_store *s, const cc_model *m, int *limit, cc_error *err)
 {
-    (void)s, (void)m, (void)err;
-    *limit = CC_SLICES_DEFAULT_MAX; /* each host keeps its own; the cluster does not know it */
-    return 0;
+    ch_store *c = CH(s);
+    int rc = load_slices(c, m, err);
+    *limit = rc ? CC_SLICES_DEFAULT_MAX : c->slice_limit;
+    return rc;
 }
 
 static int ch_slice_list(cc_store *s, const cc_model *m, cc_slice **out, int *n, cc_error *err)
@@ -456,7 +576,12 @@ static int ch_labeled_day_last(cc_store *s, const cc_model *m, int64_t day, int 
     ch_store *c = CH(s);
     cc_layout l;
     *found = 0;
-    if (cc_layout_init(&l, m->m, m->k))
+    /* the shape from the cluster's models: the alert evaluator passes a
+     * model with its name only */
+    const cc_ch_model *cm = find_model(c, m->name);
+    if (!cm)
+        return cc_error_set(err, CC_ENOTFOUND, "%s: no model named '%s'", s->path, m->name);
+    if (cc_layout_init(&l, cm->model->m, cm->model->k))
         return cc_error_set(err, CC_EIO, "%s: model '%s' has a shape out of range", s->path,
                             m->name);
     cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
@@ -535,16 +660,24 @@ static int ch_events_scan(cc_store *s, const cc_model *m, int64_t from, int64_t 
     return rc;
 }
 
+/* One event by id: its newest version (the largest seq, the row FINAL
+ * would keep), without FINAL, which would merge every row of the model,
+ * probability arrays included, for each event a review lists; PREWHERE
+ * reads the id column first and the other columns only where it matches. */
 static int ch_event_read(cc_store *s, const cc_model *m, const char *id, int *found,
                          cc_event_rec *out, float *probs, cc_error *err)
 {
     ch_store *c = CH(s);
     cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
+    char head[256];
     *found = 0;
-    where_model(&sql, c, "events", "ts, has_segment, segment, label, label_at, probs", m);
-    cc_buf_put(&sql, " AND id = ", 10);
+    snprintf(head, sizeof head, "SELECT ts, has_segment, segment, label, label_at, probs "
+                                "FROM %s.events PREWHERE id = ", cc_ch_database(c->ch));
+    cc_buf_put(&sql, head, strlen(head));
     cc_ch_quote(&sql, id);
-    int rc = select_rb(c, &sql, " LIMIT 1 FORMAT RowBinary", &ans, err);
+    cc_buf_put(&sql, " WHERE model = ", 15);
+    cc_ch_quote(&sql, m->name);
+    int rc = select_rb(c, &sql, " ORDER BY seq DESC LIMIT 1 FORMAT RowBinary", &ans, err);
     cc_rb rb = {ans.p, ans.p + ans.len};
     if (!rc && ans.len) {
         event_row e;
@@ -565,49 +698,185 @@ static int ch_event_read(cc_store *s, const cc_model *m, const char *id, int *fo
     return rc;
 }
 
-/* ---- the catalog (concord models): totals of the model's merged vectors ---- */
+/* Event rows of [ts_from, ts_to) in time order, for report --by hour. Like
+ * the review's scan, FINAL leaves one row per (model, day, ts, id): a
+ * re-sent row and an older label version are not counted twice. */
+static int ch_events_between(cc_store *s, const cc_model *m, int64_t ts_from, int64_t ts_to,
+                             cc_event_row_fn fn, void *payload, cc_error *err)
+{
+    ch_store *c = CH(s);
+    if (ts_to <= ts_from)
+        return 0;
+    cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
+    char tail[320];
+    where_model(&sql, c, "events", "ts, has_segment, segment, label, label_at, probs", m);
+    /* the day bounds let ClickHouse skip by the key (model, day, ts, id) */
+    snprintf(tail, sizeof tail, " AND day >= %lld AND day <= %lld AND ts >= %lld AND ts < %lld "
+                                "ORDER BY day, ts, id FORMAT RowBinary",
+             (long long)cc_day_of_unix(ts_from), (long long)cc_day_of_unix(ts_to - 1),
+             (long long)ts_from, (long long)ts_to);
+    int rc = select_rb(c, &sql, tail, &ans, err);
+    float *probs = rc ? NULL : malloc((size_t)m->m * (size_t)m->k * sizeof *probs);
+    if (!rc && !probs)
+        rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+    cc_rb rb = {ans.p, ans.p + ans.len};
+    while (!rc && rb.p < rb.end) {
+        event_row e;
+        if (read_event(&rb, m, 0, &e, probs)) {
+            rc = cc_error_set(err, CC_EIO, "%s: a malformed event row", s->path);
+            break;
+        }
+        rc = fn(payload, e.ts, e.label, e.label_at, probs);
+    }
+    free(probs);
+    cc_buf_free(&ans);
+    return rc;
+}
 
-/* Days with events, the first and last, events and labelled events, from
- * the whole-model vectors (slice ""), as store_catalog.h asks. */
+/* The days of [from, to] whose rows the cluster does not fully hold: the
+ * merged summary counts more events than there are rows under FINAL (a
+ * host pruned them before publishing them, or has not published them yet).
+ * Reading rows of such a day would give part of it, so a caller that needs
+ * the whole day (report --by hour) refuses it, as for a pruned day of a
+ * SQLite store; events is the number of events missing. */
+/* (day, Int64) rows of a query into days/vals, in the answer's order. */
+static int day_counts(ch_store *c, cc_buf *sql, const char *tail, int64_t **days, int64_t **vals,
+                      int *n, cc_error *err)
+{
+    cc_buf ans = CC_BUF_INIT;
+    *days = *vals = NULL;
+    *n = 0;
+    int rc = select_rb(c, sql, tail, &ans, err);
+    size_t count = rc ? 0 : ans.len / 16;
+    if (!rc && ans.len % 16)
+        rc = cc_error_set(err, CC_EIO, "%s: a truncated answer (events per day)", c->base.path);
+    if (!rc && count &&
+        (!(*days = malloc(count * sizeof **days)) || !(*vals = malloc(count * sizeof **vals))))
+        rc = cc_error_set(err, CC_ENOMEM, "out of memory");
+    cc_rb rb = {ans.p, ans.p + ans.len};
+    for (size_t i = 0; !rc && i < count; i++)
+        cc_rb_i64(&rb, &(*days)[i]), cc_rb_i64(&rb, &(*vals)[i]);
+    cc_buf_free(&ans);
+    if (rc) {
+        free(*days);
+        free(*vals);
+        *days = *vals = NULL;
+        return rc;
+    }
+    *n = (int)count;
+    return 0;
+}
+
+/* The days of [from, to] whose rows the cluster does not fully hold: the
+ * merged summary counts more events than there are rows under FINAL (a
+ * host pruned them before publishing them, or its rows and summaries were
+ * published by different runs). Reading the rows of such a day would give
+ * part of it, so a caller that needs the whole day (report --by hour)
+ * refuses it, as it refuses a pruned day of a SQLite store; events is the
+ * number of events without a row. */
+static int ch_pruned_range(cc_store *s, const cc_model *m, int64_t from, int64_t to,
+                           cc_pruned_range *out, cc_error *err)
+{
+    ch_store *c = CH(s);
+    memset(out, 0, sizeof *out);
+    cc_buf sql = CC_BUF_INIT;
+    char tail[320];
+    int64_t *sd = NULL, *sn = NULL, *rd = NULL, *rn = NULL;
+    int n_s = 0, n_r = 0;
+    where_model(&sql, c, "summaries", "day, toInt64(sum(events))", m);
+    snprintf(tail, sizeof tail,
+             " AND layout_version = %d AND slice = '' AND day >= %lld AND day <= %lld "
+             "GROUP BY day HAVING sum(events) > 0 ORDER BY day FORMAT RowBinary",
+             CC_SUMMARY_VERSION, (long long)from, (long long)to);
+    int rc = day_counts(c, &sql, tail, &sd, &sn, &n_s, err);
+    if (!rc) {
+        cc_buf q = CC_BUF_INIT;
+        where_model(&q, c, "events", "day, toInt64(count())", m);
+        snprintf(tail, sizeof tail, " AND day >= %lld AND day <= %lld GROUP BY day ORDER BY day "
+                                    "FORMAT RowBinary", (long long)from, (long long)to);
+        rc = day_counts(c, &q, tail, &rd, &rn, &n_r, err);
+    }
+    for (int i = 0, j = 0; !rc && i < n_s; i++) {
+        while (j < n_r && rd[j] < sd[i])
+            j++;
+        int64_t have = j < n_r && rd[j] == sd[i] ? rn[j] : 0;
+        if (sn[i] <= have)
+            continue;
+        if (out->days++ == 0)
+            out->first = sd[i];
+        out->last = sd[i];
+        out->events += sn[i] - have;
+    }
+    free(sd);
+    free(sn);
+    free(rd);
+    free(rn);
+    return rc;
+}
+
+/* A model's totals over the merged summaries (concord models), and the
+ * labels that wait for their event: label rows of any source whose (model,
+ * id) has no event row in the cluster. The dispatch asks for that count
+ * right after the totals through pending_label_count, which has no error
+ * channel, so it is read here and kept. */
 static int ch_model_totals(cc_store *s, const cc_model *m, cc_model_totals *out, cc_error *err)
 {
     ch_store *c = CH(s);
     cc_layout l;
     memset(out, 0, sizeof *out);
+    c->pending_model = 0;
     if (cc_layout_init(&l, m->m, m->k))
         return cc_error_set(err, CC_EIO, "%s: model '%s' has a shape out of range", s->path,
                             m->name);
+    const char *db = cc_ch_database(c->ch);
     cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
-    char head[320], tail[320];
-    snprintf(head, sizeof head,
-             "SELECT toInt64(count()), toInt64(min(day)), toInt64(max(day)), toInt64(sum(ev)), "
-             "toInt64(sum(lab)) FROM (SELECT day, sum(events) AS ev, sum(counters[%zu]) AS lab "
-             "FROM %s.summaries FINAL WHERE model = ",
-             l.n_labeled + 1, cc_ch_database(c->ch));
-    cc_buf_put(&sql, head, strlen(head));
+    char part[512];
+    snprintf(part, sizeof part,
+             "SELECT toInt64(count()), toInt64(min(day)), toInt64(max(day)), toInt64(sum(e)), "
+             "toInt64(sum(l)) FROM (SELECT day, sum(events) AS e, sum(counters[%zu]) AS l "
+             "FROM %s.summaries FINAL WHERE model = ", l.n_labeled + 1, db);
+    cc_buf_put(&sql, part, strlen(part));
     cc_ch_quote(&sql, m->name);
-    snprintf(tail, sizeof tail,
-             " AND slice = '' AND layout_version = %d GROUP BY day HAVING ev > 0) "
-             "FORMAT RowBinary", CC_SUMMARY_VERSION);
-    int rc = select_rb(c, &sql, tail, &ans, err);
+    snprintf(part, sizeof part, " AND layout_version = %d AND slice = '' GROUP BY day "
+                                "HAVING e > 0) FORMAT RowBinary", CC_SUMMARY_VERSION);
+    int rc = select_rb(c, &sql, part, &ans, err);
     cc_rb rb = {ans.p, ans.p + ans.len};
     int64_t days = 0;
     if (!rc && (cc_rb_i64(&rb, &days) || cc_rb_i64(&rb, &out->first_day) ||
                 cc_rb_i64(&rb, &out->last_day) || cc_rb_i64(&rb, &out->events) ||
                 cc_rb_i64(&rb, &out->labeled)))
-        rc = cc_error_set(err, CC_EIO, "%s: a truncated totals row", s->path);
+        rc = cc_error_set(err, CC_EIO, "%s: a truncated answer (model totals)", s->path);
     cc_buf_free(&ans);
     out->days = (int)days;
+    if (!days)
+        out->first_day = out->last_day = 0;
+    if (rc)
+        return rc;
+    /* GLOBAL: the events subquery runs once over the Distributed table and
+     * its ids go to every shard of the labels table */
+    cc_buf q = CC_BUF_INIT;
+    snprintf(part, sizeof part, "SELECT toInt64(uniqExact(id)) FROM %s.labels FINAL "
+                                "WHERE model = ", db);
+    cc_buf_put(&q, part, strlen(part));
+    cc_ch_quote(&q, m->name);
+    snprintf(part, sizeof part, " AND id GLOBAL NOT IN (SELECT id FROM %s.events WHERE model = ",
+             db);
+    cc_buf_put(&q, part, strlen(part));
+    cc_ch_quote(&q, m->name);
+    rc = select_rb(c, &q, ") FORMAT RowBinary", &ans, err);
+    rb = (cc_rb){ans.p, ans.p + ans.len};
+    if (!rc && cc_rb_i64(&rb, &c->pending))
+        rc = cc_error_set(err, CC_EIO, "%s: a truncated answer (waiting labels)", s->path);
+    cc_buf_free(&ans);
+    if (!rc)
+        c->pending_model = m->id;
     return rc;
 }
 
-/* The cluster keeps no record of days a host pruned: none. */
-static int ch_pruned_range(cc_store *s, const cc_model *m, int64_t from, int64_t to,
-                           cc_pruned_range *out, cc_error *err)
+static int64_t ch_pending_label_count(cc_store *s, const cc_model *m)
 {
-    (void)s, (void)m, (void)from, (void)to, (void)err;
-    memset(out, 0, sizeof *out);
-    return 0;
+    ch_store *c = CH(s);
+    return c->pending_model == m->id ? c->pending : 0;
 }
 
 static const cc_store_backend ch_backend = {
@@ -624,15 +893,16 @@ static const cc_store_backend ch_backend = {
     .events_scan = ch_events_scan,
     .event_read = ch_event_read,
     .labeled_day_last = ch_labeled_day_last,
+    .pruned_range = ch_pruned_range,
+    .events_between = ch_events_between,
+    .model_totals = ch_model_totals,
+    .pending_label_count = ch_pending_label_count,
     .slices_kept = ch_slices_kept,
     .slice_limit_get = ch_slice_limit_get,
     .slice_list = ch_slice_list,
     .slice_overview = ch_slice_overview,
     .slice_summary_get = ch_slice_summary_get,
     .slice_summary_days = ch_slice_summary_days,
-    /* the catalog (concord models --store); added after the row ops above */
-    .model_totals = ch_model_totals,
-    .pruned_range = ch_pruned_range,
 };
 
 int cc_ch_store_open(cc_store **out, const char *url, cc_error *err)
@@ -645,6 +915,7 @@ int cc_ch_store_open(cc_store **out, const char *url, cc_error *err)
     }
     c->base.be = &ch_backend;
     c->base.path = c->url;
+    c->has_slice_lists = -1;
     int rc = cc_ch_open(&c->ch, url, err);
     if (!rc)
         rc = cc_ch_models_load(c->ch, NULL, &c->models, &c->n_models, err);

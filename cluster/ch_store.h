@@ -1,8 +1,8 @@
 /* ch_store.h — a ClickHouse cluster as a read-only store behind the store
  * interface (collector/store_backend.h): models, baselines, the merged
  * per-day summaries (sumForEach over FINAL through the Distributed table)
- * and event rows, so report (and review and show, once they read through
- * the store's ops) run unchanged on the cluster. Every write op is absent:
+ * and event rows, so report, review and show run unchanged on the cluster.
+ * There is no read snapshot: each op is one query. Every write op is absent:
  * hosts write their local SQLite store and publish it (publish.h). */
 #ifndef CC_CLUSTER_CH_STORE_H
 #define CC_CLUSTER_CH_STORE_H

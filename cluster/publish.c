@@ -18,6 +18,12 @@ typedef struct models_cache {
     int n;
 } models_cache;
 
+/* Another source's runs: the newest complete one, the last read here. */
+typedef struct source_mark {
+    char *name;
+    int64_t complete, read;
+} source_mark;
+
 typedef struct run {
     cc_store *store;
     cc_ch *ch;
@@ -32,6 +38,9 @@ typedef struct run {
     cc_slice *slices;           /* slices_of(slices_model) */
     int n_slices;
     int64_t slices_model;
+    source_mark *sources;       /* other sources (pull_labels) */
+    int n_sources;
+    int64_t label_rowid;        /* the last event rowid the pull looked at */
 } run;
 
 int cc_publish_source_ok(const char *name)
@@ -186,10 +195,30 @@ static int apply_labels(run *r, const char *lines, size_t len, int64_t at)
     return rc;
 }
 
+/* The slice a stored event's summaries are in; *has = 0 for a store
+ * without slices. */
+static int event_slice(run *r, const cc_model *m, const char *id, int id_len, int *has,
+                       int64_t *slice)
+{
+    char *segment = NULL;
+    int found = 0, overflow = 0;
+    *has = 0;
+    if (!cc_store_slices_kept(r->store))
+        return 0;
+    int rc = cc_store_event_segment(r->store, m, id, id_len, &found, &segment, r->err);
+    if (!rc && found)
+        rc = cc_store_slice_resolve(r->store, m, segment, segment ? (int)strlen(segment) : 0, 0,
+                                    slice, &overflow, r->err);
+    free(segment);
+    *has = !rc && found;
+    return rc;
+}
+
 /* The same label as the event's, sent by another host, that arrived before
  * the one applied here: had one store read both, the later would have
  * changed nothing, so the label's arrival time is the earlier one. The
- * label-age counters of the event's day follow. */
+ * label-age counters of the event's day follow, the model's and those of
+ * the event's slice. */
 static int move_arrival_back(run *r, const cc_model *m, const char *id, int id_len,
                              const cc_stored_event *ev, const float *probs, int64_t at)
 {
@@ -199,9 +228,14 @@ static int move_arrival_back(run *r, const cc_model *m, const char *id, int id_l
         return cc_error_set(r->err, CC_ENOMEM, "out of memory");
     cc_summary_add_label_delay(d, ev->label_at - ev->ts, -1);
     cc_summary_add_label_delay(d, at - ev->ts, 1);
+    int has_slice = 0;
+    int64_t slice = 0;
     int rc = cc_store_begin(r->store, r->err);
     if (!rc) {
         if ((rc = cc_store_summary_add(r->store, m, ev->day, d, r->err)) ||
+            (rc = event_slice(r, m, id, id_len, &has_slice, &slice)) ||
+            (has_slice &&
+             (rc = cc_store_slice_summary_add(r->store, m, ev->day, slice, d, r->err))) ||
             (rc = cc_store_event_set_label(r->store, m, id, id_len, ev->label, at, r->err)) ||
             (rc = cc_store_commit(r->store, r->err)))
             cc_store_rollback(r->store);
@@ -212,39 +246,308 @@ static int move_arrival_back(run *r, const cc_model *m, const char *id, int id_l
     return rc;
 }
 
-/* Other sources' labels for events stored here whose label is older. They
- * come ordered by arrival time, so the newest is applied last, as a single
- * store reading every label would. */
-static int pull_labels(run *r)
+/* ---- reading other hosts' labels, incrementally ----
+ *
+ * A label row is read again only when it may be new here: (a) the rows a
+ * source sent in runs after the last one this host read from it, up to its
+ * last run that is known to be complete (a run sends its labels before its
+ * models, so the source's newest seq in the models table bounds them; a run
+ * still inserting is read next time), and (b) every row for the events
+ * stored here since the last pull, which may have labels that were read
+ * before their event arrived. Both marks are kept in publish_state
+ * ("labels_seq:SOURCE", "label_rowid") and move only when the whole run
+ * succeeded; reading a row twice changes nothing (see pull_labels). */
+
+typedef struct label_row {
+    char *model, *id, *source;
+    int id_len;
+    int32_t label;
+    int64_t at;
+} label_row;
+
+typedef struct label_rows {
+    label_row *v;
+    int n, cap;
+} label_rows;
+
+typedef struct new_id {
+    char *model, *id;
+    int id_len;
+} new_id;
+
+typedef struct new_ids {
+    new_id *v;
+    int n, cap;
+} new_ids;
+
+static void label_rows_free(label_rows *l)
 {
-    cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT, lines = CC_BUF_INIT;
-    char head[256];
-    snprintf(head, sizeof head,
-             "SELECT model, id, label, received_at FROM %s.labels FINAL WHERE source != ",
-             cc_ch_database(r->ch));
-    cc_buf_put(&sql, head, strlen(head));
-    cc_ch_quote(&sql, r->o->source);
-    const char *tail = " ORDER BY received_at, source, model, id FORMAT RowBinary";
-    cc_buf_put(&sql, tail, strlen(tail) + 1);
-    if (sql.oom)
+    for (int i = 0; i < l->n; i++) {
+        free(l->v[i].model);
+        free(l->v[i].id);
+        free(l->v[i].source);
+    }
+    free(l->v);
+    memset(l, 0, sizeof *l);
+}
+
+static void source_marks_free(run *r)
+{
+    for (int i = 0; i < r->n_sources; i++)
+        free(r->sources[i].name);
+    free(r->sources);
+    r->sources = NULL;
+    r->n_sources = 0;
+}
+
+/* Reads (model, id, label, received_at, source) rows of a labels query. */
+static int read_label_rows(run *r, cc_buf *sql, label_rows *out)
+{
+    cc_buf ans = CC_BUF_INIT;
+    if (sql->oom) {
+        cc_buf_free(sql);
         return cc_error_set(r->err, CC_ENOMEM, "out of memory");
-    int rc = query_retrying(r, "reading labels sent by other hosts", (const char *)sql.p, NULL,
+    }
+    int rc = query_retrying(r, "reading labels sent by other hosts", (const char *)sql->p, NULL,
                             &ans);
-    cc_buf_free(&sql);
+    cc_buf_free(sql);
     cc_rb rb = {ans.p, ans.p + ans.len};
-    int64_t group_at = INT64_MIN;
-    float *probs = NULL;
     while (!rc && rb.p < rb.end) {
-        const char *model, *id;
-        size_t model_n, id_n;
+        const char *model, *id, *src;
+        size_t model_n, id_n, src_n;
         int32_t label;
         int64_t at;
         if (cc_rb_string(&rb, &model, &model_n) || cc_rb_string(&rb, &id, &id_n) ||
-            cc_rb_i32(&rb, &label) || cc_rb_i64(&rb, &at)) {
+            cc_rb_i32(&rb, &label) || cc_rb_i64(&rb, &at) || cc_rb_string(&rb, &src, &src_n)) {
             rc = cc_error_set(r->err, CC_EIO, "ClickHouse %s: labels: a truncated answer",
                               cc_ch_where(r->ch));
             break;
         }
+        if (out->n == out->cap) {
+            int cap = out->cap ? out->cap * 2 : 64;
+            label_row *grown = realloc(out->v, (size_t)cap * sizeof *grown);
+            if (!grown) {
+                rc = cc_error_set(r->err, CC_ENOMEM, "out of memory");
+                break;
+            }
+            out->v = grown;
+            out->cap = cap;
+        }
+        label_row *l = &out->v[out->n];
+        l->model = strndup(model, model_n);
+        l->id = strndup(id, id_n);
+        l->source = strndup(src, src_n);
+        l->id_len = (int)id_n;
+        l->label = label;
+        l->at = at;
+        out->n++;
+        if (!l->model || !l->id || !l->source)
+            rc = cc_error_set(r->err, CC_ENOMEM, "out of memory");
+    }
+    cc_buf_free(&ans);
+    return rc;
+}
+
+static void labels_head(run *r, cc_buf *sql)
+{
+    char head[256];
+    snprintf(head, sizeof head, "SELECT model, id, label, received_at, source FROM %s.labels "
+                                "FINAL WHERE source != ", cc_ch_database(r->ch));
+    cc_buf_put(sql, head, strlen(head));
+    cc_ch_quote(sql, r->o->source);
+}
+
+/* Each other source's newest complete run (models) and the last one read
+ * here (publish_state). */
+static int source_marks(run *r)
+{
+    cc_buf sql = CC_BUF_INIT, ans = CC_BUF_INIT;
+    char head[256];
+    snprintf(head, sizeof head, "SELECT source, max(seq) FROM %s.models FINAL WHERE source != ",
+             cc_ch_database(r->ch));
+    cc_buf_put(&sql, head, strlen(head));
+    cc_ch_quote(&sql, r->o->source);
+    const char *tail = " GROUP BY source ORDER BY source FORMAT RowBinary";
+    cc_buf_put(&sql, tail, strlen(tail) + 1);
+    if (sql.oom) {
+        cc_buf_free(&sql);
+        return cc_error_set(r->err, CC_ENOMEM, "out of memory");
+    }
+    int rc = query_retrying(r, "reading the other hosts' runs", (const char *)sql.p, NULL, &ans);
+    cc_buf_free(&sql);
+    cc_rb rb = {ans.p, ans.p + ans.len};
+    while (!rc && rb.p < rb.end) {
+        const char *src;
+        size_t src_n;
+        uint64_t seq;
+        if (cc_rb_string(&rb, &src, &src_n) || cc_rb_u64(&rb, &seq)) {
+            rc = cc_error_set(r->err, CC_EIO, "ClickHouse %s: models: a truncated answer",
+                              cc_ch_where(r->ch));
+            break;
+        }
+        source_mark *grown = realloc(r->sources, (size_t)(r->n_sources + 1) * sizeof *grown);
+        if (!grown) {
+            rc = cc_error_set(r->err, CC_ENOMEM, "out of memory");
+            break;
+        }
+        r->sources = grown;
+        source_mark *sm = &r->sources[r->n_sources];
+        if (!(sm->name = strndup(src, src_n))) {
+            rc = cc_error_set(r->err, CC_ENOMEM, "out of memory");
+            break;
+        }
+        r->n_sources++;
+        sm->complete = (int64_t)seq;
+        char key[128];
+        snprintf(key, sizeof key, "labels_seq:%s", sm->name);
+        rc = cc_store_publish_state_get(r->store, key, &sm->read, r->err);
+    }
+    cc_buf_free(&ans);
+    return rc;
+}
+
+/* (a): rows of the sources' runs not read here yet. */
+static int read_new_runs(run *r, label_rows *out)
+{
+    cc_buf sql = CC_BUF_INIT;
+    int any = 0;
+    labels_head(r, &sql);
+    cc_buf_put(&sql, " AND (", 6);
+    for (int i = 0; i < r->n_sources; i++) {
+        const source_mark *sm = &r->sources[i];
+        if (sm->complete <= sm->read)
+            continue;
+        char bounds[96];
+        if (any++)
+            cc_buf_put(&sql, " OR ", 4);
+        cc_buf_put(&sql, "(source = ", 10);
+        cc_ch_quote(&sql, sm->name);
+        snprintf(bounds, sizeof bounds, " AND seq > %lld AND seq <= %lld)", (long long)sm->read,
+                 (long long)sm->complete);
+        cc_buf_put(&sql, bounds, strlen(bounds));
+    }
+    const char *tail = ") FORMAT RowBinary";
+    cc_buf_put(&sql, tail, strlen(tail) + 1);
+    if (!any) {
+        cc_buf_free(&sql);
+        return 0;
+    }
+    return read_label_rows(r, &sql, out);
+}
+
+static int keep_id(void *ctx, const char *model, const char *id, int id_len)
+{
+    new_ids *l = ctx;
+    if (l->n == l->cap) {
+        int cap = l->cap ? l->cap * 2 : 256;
+        new_id *grown = realloc(l->v, (size_t)cap * sizeof *grown);
+        if (!grown)
+            return -CC_ENOMEM;
+        l->v = grown;
+        l->cap = cap;
+    }
+    new_id *e = &l->v[l->n];
+    e->model = strdup(model);
+    e->id = strndup(id, (size_t)id_len);
+    e->id_len = id_len;
+    l->n++;
+    return e->model && e->id ? 0 : -CC_ENOMEM;
+}
+
+static int skip_id(void *ctx, const char *model, const char *id, int id_len)
+{
+    (void)ctx, (void)model, (void)id, (void)id_len;
+    return 0;
+}
+
+static int new_id_cmp(const void *a, const void *b)
+{
+    const new_id *x = a, *y = b;
+    return strcmp(x->model, y->model);
+}
+
+/* Bytes of SQL per query of (b): well under ClickHouse's max_query_size
+ * (256 KiB by default). */
+#define IDS_SQL_BYTES ((size_t)96 << 10)
+
+/* (b): every row for the events stored here since the last pull, in
+ * queries of a bounded size, per model. */
+static int read_for_new_events(run *r, int64_t after, label_rows *out)
+{
+    new_ids ids = {NULL, 0, 0};
+    /* the first pull reads every run of every source in (a): it only needs
+     * the last rowid */
+    int first = after < 0;
+    int rc = cc_store_publish_new_ids(r->store, first ? 0 : after, &r->label_rowid,
+                                      first ? skip_id : keep_id, &ids, r->err);
+    if (rc == -CC_ENOMEM)
+        rc = cc_error_set(r->err, CC_ENOMEM, "out of memory");
+    if (!rc && ids.n > 1)
+        qsort(ids.v, (size_t)ids.n, sizeof *ids.v, new_id_cmp);
+    for (int i = 0; !rc && i < ids.n;) {
+        cc_buf sql = CC_BUF_INIT;
+        labels_head(r, &sql);
+        cc_buf_put(&sql, " AND model = ", 13);
+        cc_ch_quote(&sql, ids.v[i].model);
+        cc_buf_put(&sql, " AND id IN (", 12);
+        const char *model = ids.v[i].model;
+        for (int first_id = 1; i < ids.n && strcmp(ids.v[i].model, model) == 0 &&
+                               (first_id || sql.len < IDS_SQL_BYTES);
+             i++, first_id = 0) {
+            if (!first_id)
+                cc_buf_put(&sql, ", ", 2);
+            cc_ch_quote(&sql, ids.v[i].id);
+        }
+        const char *tail = ") FORMAT RowBinary";
+        cc_buf_put(&sql, tail, strlen(tail) + 1);
+        rc = read_label_rows(r, &sql, out);
+    }
+    for (int i = 0; i < ids.n; i++) {
+        free(ids.v[i].model);
+        free(ids.v[i].id);
+    }
+    free(ids.v);
+    return rc;
+}
+
+static int label_row_cmp(const void *a, const void *b)
+{
+    const label_row *x = a, *y = b;
+    int c;
+    if (x->at != y->at)
+        return x->at < y->at ? -1 : 1;
+    if ((c = strcmp(x->source, y->source)) || (c = strcmp(x->model, y->model)))
+        return c;
+    return strcmp(x->id, y->id);
+}
+
+/* Other sources' labels for events stored here whose label is older. They
+ * are applied in order of arrival time, so the newest is applied last, as a
+ * single store reading every label would; a row read again (by (a) and
+ * (b), or after a failed run) changes nothing: its arrival time equals the
+ * event's, or it is older with another class. */
+static int pull_labels(run *r)
+{
+    label_rows rows = {NULL, 0, 0};
+    int64_t pulled = 0, after = 0;
+    int rc = source_marks(r);
+    if (!rc && !(rc = cc_store_publish_state_get(r->store, "labels_pulled", &pulled, r->err)) &&
+        !(rc = cc_store_publish_state_get(r->store, "label_rowid", &after, r->err)))
+        rc = read_for_new_events(r, pulled ? after : -1, &rows);
+    if (!rc)
+        rc = read_new_runs(r, &rows);
+    r->st->labels_read = rows.n;
+    if (!rc && rows.n > 1)
+        qsort(rows.v, (size_t)rows.n, sizeof *rows.v, label_row_cmp);
+    cc_buf lines = CC_BUF_INIT;
+    int64_t group_at = INT64_MIN;
+    float *probs = NULL;
+    for (int i = 0; !rc && i < rows.n; i++) {
+        const label_row *lr = &rows.v[i];
+        const char *id = lr->id;
+        size_t id_n = (size_t)lr->id_len;
+        int32_t label = lr->label;
+        int64_t at = lr->at;
         /* the previous arrival time's labels first: the event's state read
          * below must include them */
         if (at != group_at && lines.len) {
@@ -253,16 +556,10 @@ static int pull_labels(run *r)
             if (rc)
                 break;
         }
-        char *name = strndup(model, model_n);
         cc_model *m = NULL;
         cc_error miss = CC_ERROR_INIT;
-        if (!name) {
-            rc = cc_error_set(r->err, CC_ENOMEM, "out of memory");
-            break;
-        }
         /* a model this host never saw: the label is not for us */
-        cc_store_model_get(r->store, name, &m, &miss);
-        free(name);
+        cc_store_model_get(r->store, lr->model, &m, &miss);
         if (!m)
             continue;
         cc_stored_event ev;
@@ -278,19 +575,17 @@ static int pull_labels(run *r)
         if (!rc && found && at > ev.label_at && label >= 0 && label < m->k) {
             group_at = at;
             cJSON *o = cJSON_CreateObject();
-            char *idz = strndup(id, id_n);
             cJSON_AddStringToObject(o, "model", m->name);
-            cJSON_AddStringToObject(o, "id", idz ? idz : "");
+            cJSON_AddStringToObject(o, "id", id);
             cJSON_AddNumberToObject(o, "label", label);
             char *text = cJSON_PrintUnformatted(o);
-            if (!text || !idz)
+            if (!text)
                 rc = cc_error_set(r->err, CC_ENOMEM, "out of memory");
             else {
                 cc_buf_put(&lines, text, strlen(text));
                 cc_buf_put(&lines, "\n", 1);
             }
             free(text);
-            free(idz);
             cJSON_Delete(o);
         }
         cc_model_free(m);
@@ -300,8 +595,26 @@ static int pull_labels(run *r)
     if (!rc && lines.oom)
         rc = cc_error_set(r->err, CC_ENOMEM, "out of memory");
     free(probs);
-    cc_buf_free(&ans);
     cc_buf_free(&lines);
+    label_rows_free(&rows);
+    return rc;
+}
+
+/* The marks of a pull, kept once the run has succeeded (inside its unit of
+ * work). */
+static int keep_label_marks(run *r)
+{
+    int rc = 0;
+    for (int i = 0; !rc && i < r->n_sources; i++) {
+        char key[128];
+        snprintf(key, sizeof key, "labels_seq:%s", r->sources[i].name);
+        if (r->sources[i].complete > r->sources[i].read)
+            rc = cc_store_publish_state_set(r->store, key, r->sources[i].complete, r->err);
+    }
+    if (!rc)
+        rc = cc_store_publish_state_set(r->store, "label_rowid", r->label_rowid, r->err);
+    if (!rc)
+        rc = cc_store_publish_state_set(r->store, "labels_pulled", 1, r->err);
     return rc;
 }
 
@@ -411,6 +724,36 @@ static int put_models(run *r)
     return rc;
 }
 
+/* Each model's slice limit and its slices' keys in id order (the order the
+ * host made them), one row per model; nothing for a store without slices. */
+static int put_slice_lists(run *r)
+{
+    if (!cc_store_slices_kept(r->store))
+        return 0;
+    int rc = 0;
+    for (int i = 0; !rc && i < r->models.n; i++) {
+        const cc_model *m = r->models.m[i];
+        int limit = 0;
+        if ((rc = cc_store_slice_limit_get(r->store, m, &limit, r->err)) ||
+            (rc = slices_of(r, m, r->err)))
+            break;
+        cc_buf_string(&r->body, m->name, strlen(m->name));
+        cc_buf_string(&r->body, r->o->source, strlen(r->o->source));
+        cc_buf_u64(&r->body, (uint64_t)r->st->seq);
+        cc_buf_i32(&r->body, limit);
+        cc_buf_varint(&r->body, (uint64_t)r->n_slices);
+        for (int j = 0; j < r->n_slices; j++) {
+            char *key = cc_ch_slice_key(&r->slices[j]);
+            if (!key)
+                return cc_error_set(r->err, CC_ENOMEM, "out of memory");
+            cc_buf_string(&r->body, key, strlen(key));
+            free(key);
+        }
+        rc = row_done(r);
+    }
+    return rc;
+}
+
 static int put_event(void *ctx, const cc_published_event *e)
 {
     run *r = ctx;
@@ -450,7 +793,7 @@ static int next_seq(run *r)
 int cc_publish_run(cc_store *store, cc_ch *c, const cc_publish_opts *o, cc_publish_stats *st,
                    cc_error *err)
 {
-    run r = {store, c, o, st, err, {NULL, 0}, CC_BUF_INIT, NULL, 0, NULL, NULL, 0, 0};
+    run r = {store, c, o, st, err, {NULL, 0}, CC_BUF_INIT, NULL, 0, NULL, NULL, 0, 0, NULL, 0, 0};
     memset(st, 0, sizeof *st);
     if (!o->source || !cc_publish_source_ok(o->source))
         return cc_error_set(err, CC_EUSAGE,
@@ -473,6 +816,11 @@ int cc_publish_run(cc_store *store, cc_ch *c, const cc_publish_opts *o, cc_publi
         goto done;
     r.table = "models";
     if (!(rc = put_models(&r)) && !(rc = flush(&r))) {
+        r.table = "slice_lists";
+        if (!(rc = put_slice_lists(&r)))
+            rc = flush(&r);
+    }
+    if (!rc) {
         r.table = "summaries";
         if (!(rc = cc_store_publish_days(store, &day_mark, put_day, &r, err)) &&
             !(rc = flush(&r)) &&
@@ -491,6 +839,7 @@ int cc_publish_run(cc_store *store, cc_ch *c, const cc_publish_opts *o, cc_publi
         goto done;
     if ((rc = cc_store_publish_state_set(store, "event_rowid", max_rowid, err)) ||
         (rc = cc_store_publish_clear(store, day_mark, relabel_mark, err)) ||
+        (rc = keep_label_marks(&r)) ||
         (rc = cc_store_commit(store, err)))
         cc_store_rollback(store);
 done:
@@ -499,6 +848,7 @@ done:
     free(r.models.m);
     cc_summary_free(r.sum);
     cc_slice_list_free(r.slices, r.n_slices);
+    source_marks_free(&r);
     cc_buf_free(&r.body);
     return rc;
 }

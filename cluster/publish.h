@@ -2,11 +2,14 @@
  *
  * One run: (1) labels waiting here for an event this host never saw go to
  * the cluster's labels table, and labels other hosts sent for events stored
- * here are applied here, newest arrival first to last (see README, "Delayed
- * labels"); (2) the full summary vector of every (model, day) written since
+ * here are applied here, oldest arrival first (see README, "Delayed
+ * labels"); only rows that may be new here are read: other sources' runs
+ * since the last one read, and the labels of events stored since the last
+ * run (marks in publish_state); (2) the full summary vector of every (model, day) written since
  * the last run goes to the summaries table under this source's name and a
  * new sequence number, slice "" (the whole model), and beside it the vector
- * of each of the model's slices with events that day (cc_ch_slice_key); (3) event rows stored or
+ * of each of the model's slices with events that day (cc_ch_slice_key), after each model's
+ * shape, baseline, slice limit and slice order; (3) event rows stored or
  * relabelled since then go to the events table; (4) only then the local
  * marks are cleared. Every insert is idempotent, so a run that fails at any
  * point is simply run again. A failed insert (a shard down, a timeout) is
@@ -40,6 +43,7 @@ typedef struct cc_publish_stats {
     int64_t events;             /* event rows sent (new or relabelled) */
     int64_t labels_sent;        /* waiting labels sent for other hosts */
     int64_t labels_applied;     /* other hosts' labels applied here */
+    int64_t labels_read;        /* label rows read from the cluster (only what may be new) */
     int64_t bytes;              /* request bytes sent */
     int retries;
 } cc_publish_stats;

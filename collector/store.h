@@ -391,6 +391,13 @@ int cc_store_publish_events(cc_store *s, int64_t after_rowid, int64_t *max_rowid
                             int64_t *relabel_upto, cc_publish_event_fn fn, void *ctx,
                             cc_error *err);
 
+/* Calls fn with the model and id of each event row past after_rowid, in
+ * rowid order; *max_rowid gets the last rowid read (after_rowid if none):
+ * the events stored since a publish run last asked (its labels pull). */
+typedef int (*cc_publish_id_fn)(void *ctx, const char *model, const char *id, int id_len);
+int cc_store_publish_new_ids(cc_store *s, int64_t after_rowid, int64_t *max_rowid,
+                             cc_publish_id_fn fn, void *ctx, cc_error *err);
+
 /* Forgets the day marks <= day_mark and relabel marks <= relabel_mark
  * (inside a write transaction). */
 int cc_store_publish_clear(cc_store *s, int64_t day_mark, int64_t relabel_mark, cc_error *err);

@@ -149,6 +149,32 @@ int cc_store_publish_events(cc_store *store, int64_t after_rowid, int64_t *max_r
     return rc;
 }
 
+int cc_store_publish_new_ids(cc_store *store, int64_t after_rowid, int64_t *max_rowid,
+                             cc_publish_id_fn fn, void *ctx, cc_error *err)
+{
+    sq_store *s = sqlite_of(store);
+    *max_rowid = after_rowid;
+    if (!s)
+        return not_sqlite(store, err);
+    sqlite3_stmt *st;
+    int rc = 0, step;
+    if (sqlite3_prepare_v2(s->db, "SELECT e.rowid, m.name, e.id FROM events e JOIN models m "
+                                  "ON m.model_id = e.model_id WHERE e.rowid > ?1 "
+                                  "ORDER BY e.rowid",
+                           -1, &st, NULL) != SQLITE_OK)
+        return cc_sq_error(s, err, "reading the events stored since the last publish");
+    sqlite3_bind_int64(st, 1, after_rowid);
+    while (!rc && (step = sqlite3_step(st)) == SQLITE_ROW) {
+        *max_rowid = sqlite3_column_int64(st, 0);
+        rc = fn(ctx, (const char *)sqlite3_column_text(st, 1),
+                (const char *)sqlite3_column_text(st, 2), sqlite3_column_bytes(st, 2));
+    }
+    if (!rc && step != SQLITE_DONE)
+        rc = cc_sq_error(s, err, "reading the events stored since the last publish");
+    sqlite3_finalize(st);
+    return rc;
+}
+
 int cc_store_publish_clear(cc_store *store, int64_t day_mark, int64_t relabel_mark, cc_error *err)
 {
     sq_store *s = sqlite_of(store);

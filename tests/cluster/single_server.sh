@@ -3,12 +3,13 @@
 # end-to-end suite's log (tests/reference/e2e_*) and the demo's 28 days are
 # ingested and labelled into SQLite, published, and every report read back
 # through --store equals the one read with --db (counts exactly, real values
-# within 1e-9 relative, json_same.py); review and show too. Then publishing
-# again, twice, changes nothing in the cluster, a vector past the per-row
-# bound is refused by the publisher and a sum that cannot be proven free of
-# overflow by the readers, and --store sqlite:PATH is --db PATH.
-# The store backend's row reads that no command uses yet are compared with
-# the SQLite file's rows through ch_store_probe.
+# within 1e-9 relative, json_same.py), --by hour too; review and show too;
+# days a host pruned before publishing are refused by --by hour on both. Then
+# publishing again, twice, changes nothing in the cluster, a vector past the
+# per-row bound is refused by the publisher and a sum that cannot be proven
+# free of overflow by the readers, and --store sqlite:PATH is --db PATH.
+# The store backend's row reads are also compared one by one with the SQLite
+# file's rows through ch_store_probe.
 # Usage: single_server.sh CONCORD SOURCE_DIR [CH_STORE_PROBE]
 set -euo pipefail
 C=$1
@@ -37,6 +38,9 @@ classes=$(/usr/bin/python3 "$SRC/tests/e2e/e2e_compare.py" classes "$REF/e2e_exp
   --quiet "$T/d/events.jsonl"
 "$C" label --db "$T/h.db" --model packhouse "$T/d/labels.jsonl" > /dev/null
 "$C" baseline --db "$T/h.db" --model packhouse --from 2026-10-05 --to 2026-10-11 > /dev/null
+# the demo's events again with a limit of 2 slices: line-3 (the last to appear) overflows
+"$C" ingest --db "$T/h.db" --model pk2s --classes premium,extra,class-1,class-2,juice,cull \
+  --max-slices 2 --quiet "$T/d/events.jsonl" 2> /dev/null
 
 "$C" publish --db "$T/h.db" --store "$U" --source host-1 > "$T/pub1.out" \
   || fail "publish: $(cat "$T/pub1.out")"
@@ -64,28 +68,17 @@ compare_all() { # TAG
   done
 }
 compare_all first
+# the HTML page reads its review lists from the cluster's rows: the same page
+"$C" report --db "$T/h.db" --model packhouse --format html -o "$T/sq.html"
+"$C" report --store "$U" --model packhouse --format html -o "$T/ch.html" || fail "report --store --format html"
+grep -q "review" "$T/ch.html" || fail "the cluster's HTML page has no review lists"
+cmp -s "$T/sq.html" "$T/ch.html" || fail "report --format html differs: $(diff "$T/sq.html" "$T/ch.html" | head -c 600)"
 [ "$(grep -c . "$T/first-ch-ref-day.json")" -gt 0 ] || fail "empty report from the cluster"
 
 # slices through the cluster: the demo's packing lines, one slice's report
-# and every slice's rows (the cluster lists slices in name order, SQLite in
-# order of arrival: the rows are compared sorted by slice name)
-sort_segments() { # IN OUT
-  /usr/bin/python3 - "$1" "$2" << 'EOF'
-import json, sys
-def walk(v):
-    if isinstance(v, dict):
-        for k, x in v.items():
-            if k == "segments" and isinstance(x, list):
-                x.sort(key=lambda r: r.get("segment", ""))
-            walk(x)
-    elif isinstance(v, list):
-        for x in v:
-            walk(x)
-doc = json.load(open(sys.argv[1], encoding="utf-8"))
-walk(doc)
-json.dump(doc, open(sys.argv[2], "w", encoding="utf-8"))
-EOF
-}
+# and every slice's rows, in the host's order of slices and with its slice
+# limit (published in slice_lists), also for a model whose limit is not the
+# default and whose further segments went to the overflow slice
 for seg in line-1 line-2 line-3; do
   for by in day all; do
     "$C" report --db "$T/h.db" --model packhouse --segment $seg --by $by --format json > "$T/seg-sq.json"
@@ -94,21 +87,32 @@ for seg in line-1 line-2 line-3; do
     same "$T/seg-sq.json" "$T/seg-ch.json" "report packhouse --segment $seg --by $by"
   done
 done
-for model in ref packhouse; do
-  "$C" report --db "$T/h.db" --model $model --by-segment --by week --format json > "$T/bys-sq0.json"
-  "$C" report --store "$U" --model $model --by-segment --by week --format json > "$T/bys-ch0.json" \
-    || fail "report --store --by-segment $model"
-  grep -q '"segments"' "$T/bys-ch0.json" || fail "no per-slice rows from the cluster ($model)"
-  sort_segments "$T/bys-sq0.json" "$T/bys-sq.json"
-  sort_segments "$T/bys-ch0.json" "$T/bys-ch.json"
-  same "$T/bys-sq.json" "$T/bys-ch.json" "report $model --by-segment --by week"
+for model in ref packhouse pk2s; do
+  for by in week all; do
+    "$C" report --db "$T/h.db" --model $model --by-segment --by $by --format json > "$T/bys-sq.json"
+    "$C" report --store "$U" --model $model --by-segment --by $by --format json > "$T/bys-ch.json" \
+      || fail "report --store --by-segment $model"
+    grep -q '"segments"' "$T/bys-ch.json" || fail "no per-slice rows from the cluster ($model)"
+    same "$T/bys-sq.json" "$T/bys-ch.json" "report $model --by-segment --by $by (slice order and limit)"
+  done
+  "$C" report --db "$T/h.db" --model $model --by-segment --by all > "$T/bys-sq.txt"
+  "$C" report --store "$U" --model $model --by-segment --by all > "$T/bys-ch.txt"
+  cmp -s "$T/bys-sq.txt" "$T/bys-ch.txt" \
+    || fail "report $model --by-segment (text) differs: $(diff "$T/bys-sq.txt" "$T/bys-ch.txt" | head -n 6)"
 done
+/usr/bin/python3 -c 'import json, sys; sys.exit(json.load(open(sys.argv[1]))["slices"]["limit"] != 2)' \
+  "$T/bys-ch.json" || fail "pk2s: the cluster does not report the slice limit 2"
 rc=0; "$C" report --store "$U" --model packhouse --segment nosuch > /dev/null 2> "$T/noseg.err" || rc=$?
 [ $rc = 4 ] && grep -q "line-2" "$T/noseg.err" || fail "unknown segment through the cluster: exit $rc, $(cat "$T/noseg.err")"
-# report --by hour reads event rows by time, which the cluster backend does not offer
-rc=0; "$C" report --store "$U" --model packhouse --by hour --from 2026-10-20T00:00:00Z \
-  --to 2026-10-20T06:00:00Z > /dev/null 2> "$T/hour.err" || rc=$?
-[ $rc = 3 ] && grep -q "does not support" "$T/hour.err" || fail "--by hour through the cluster: exit $rc, $(cat "$T/hour.err")"
+# report --by hour reads the cluster's event rows by time: the same hours
+for model in ref packhouse; do
+  case $model in ref) f=2026-03-09; t=2026-03-11 ;; *) f=2026-10-20T00:00:00Z; t=2026-10-22T06:00:00Z ;; esac
+  "$C" report --db "$T/h.db" --model $model --by hour --from $f --to $t --format json > "$T/hour-sq.json"
+  "$C" report --store "$U" --model $model --by hour --from $f --to $t --format json > "$T/hour-ch.json" \
+    || fail "report --store --by hour $model"
+  same "$T/hour-sq.json" "$T/hour-ch.json" "report $model --by hour $f $t"
+  [ "$(grep -o '"start"' "$T/hour-ch.json" | wc -l)" -gt 20 ] || fail "few hour windows ($model)"
+done
 
 # the backend's row reads (ch_store_probe) against the SQLite rows
 if [ -n "$PROBE" ]; then
@@ -120,6 +124,14 @@ if [ -n "$PROBE" ]; then
     got=$("$PROBE" "$U" ref read "$id")
     want=$(sqlite3 -separator ' ' "$T/h.db" "SELECT e.ts, coalesce(e.label, -1), coalesce(e.label_at, -1), coalesce(e.segment, '-') FROM events e JOIN models m ON m.model_id = e.model_id WHERE m.name = 'ref' AND e.id = '$id'")
     [ "$got" = "${want:-absent}" ] || fail "event_read $id: '$got', expected '${want:-absent}'"
+  done
+  # what `concord models` reads: totals, waiting labels, slice limit and slices
+  "$C" models --db "$T/h.db" --format json > "$T/models.json"
+  for model in ref packhouse pk2s; do
+    "$PROBE" "$U" $model totals > "$T/totals.txt" || fail "probe totals $model"
+    "$PROBE" "$U" $model slices > "$T/slices.txt" || fail "probe slices $model"
+    /usr/bin/python3 "$HERE/models_same.py" "$T/models.json" $model "$T/totals.txt" "$T/slices.txt" \
+      || fail "model totals and slices of $model differ"
   done
   for d in 20500 20521 20523 20530 20600; do
     got=$("$PROBE" "$U" ref lastlabeled "$d")
@@ -195,7 +207,7 @@ ch_query 1 "INSERT INTO concord.summaries SELECT model, day, layout_version, sli
 rc=0; "$C" report --store "$U" --model pk2 --by all --format json > /dev/null 2> "$T/rogue.err" || rc=$?
 [ $rc = 3 ] && grep -q "cannot be proven free of overflow" "$T/rogue.err" \
   || fail "a sum past the bound was read: exit $rc, $(cat "$T/rogue.err")"
-# (the HTML report with its review sample reads through a fetched copy, fetch.c)
+# (the HTML report with its review sample too)
 rc=0; "$C" report --store "$U" --model pk2 --format html -o "$T/rogue.html" 2> "$T/rogue2.err" || rc=$?
 [ $rc = 3 ] && grep -q "cannot be proven free of overflow" "$T/rogue2.err" \
   || fail "a sum past the bound was fetched: exit $rc, $(cat "$T/rogue2.err")"
@@ -203,6 +215,30 @@ rc=0; "$C" report --store "$U" --model pk2 --format html -o "$T/rogue.html" 2> "
 ch_query 1 "INSERT INTO concord.summaries SELECT model, day, layout_version, slice, source, seq + 1, 0, arrayMap(x -> toInt64(0), counters) FROM concord.summaries FINAL WHERE source = 'rogue'" > /dev/null
 "$C" report --store "$U" --model pk2 --by all --format json > "$T/pk2-ch2.json" || fail "report pk2 after the rogue row was emptied"
 same "$T/pk2-sq.json" "$T/pk2-ch2.json" "report pk2 after the rogue row was emptied"
+
+# a host that pruned days before publishing them: the cluster has their
+# summaries but not all their rows, so --by hour refuses those days (exit 4,
+# named) as it does on the host; review and show say the rows are gone
+"$C" ingest --db "$T/h4.db" --model pk4 --classes premium,extra,class-1,class-2,juice,cull \
+  --quiet "$T/d/events.jsonl"
+"$C" prune --db "$T/h4.db" --model pk4 --before 2026-10-10 > /dev/null
+"$C" publish --db "$T/h4.db" --store "$U" --source host-4 > /dev/null
+for s in "--db $T/h4.db" "--store $U"; do
+  rc=0
+  # shellcheck disable=SC2086
+  "$C" report $s --model pk4 --by hour --from 2026-10-08 --to 2026-10-12 > /dev/null \
+    2> "$T/pruned.err" || rc=$?
+  [ $rc = 4 ] && grep -q "2026-10-08 to 2026-10-09 were pruned" "$T/pruned.err" \
+    || fail "report $s --by hour over pruned days: exit $rc, $(cat "$T/pruned.err")"
+  # shellcheck disable=SC2086
+  "$C" review $s --model pk4 --from 2026-10-01 --to 2026-10-31 > /dev/null 2> "$T/pruned.err" \
+    || fail "review $s over pruned days"
+  grep -q "note: .* pruned" "$T/pruned.err" || fail "review $s did not note the pruned days: $(cat "$T/pruned.err")"
+done
+"$C" report --db "$T/h4.db" --model pk4 --by hour --from 2026-10-10 --to 2026-10-12 --format json > "$T/p4-sq.json"
+"$C" report --store "$U" --model pk4 --by hour --from 2026-10-10 --to 2026-10-12 --format json > "$T/p4-ch.json" \
+  || fail "report --store --by hour after the pruned days"
+same "$T/p4-sq.json" "$T/p4-ch.json" "report pk4 --by hour after the pruned days"
 
 # sqlite:PATH is --db PATH; --db with --store is refused; a bad URL names the forms
 "$C" report --store "sqlite:$T/h.db" --model ref --format json > "$T/sqlite-url.json"
