@@ -112,6 +112,12 @@ int cc_report_stream(cc_report **out, cc_store *store, const cc_report_opts *opt
  * cc_report_stream callback). */
 void cc_report_window_free(cc_report_window *w);
 
+/* Testing hook: window figure sets (a window's or a slice row's computed
+ * figures, from their computation to cc_report_window_free) alive in the
+ * process now, and the most alive at once since the last reset. */
+void cc_report_live_windows(long *now, long *peak);
+void cc_report_live_windows_reset(void);
+
 
 /* An alert timeline the caller evaluated over the report's range (the cli's
  * `report --rules`): the transitions day by day, and the rules still raised
