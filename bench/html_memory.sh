@@ -5,7 +5,8 @@
 # (concord-gen --n 2000 --days 365) and at 5 x 10 (concord-gen --n 182500
 # --days 365, 500 events a day). Baseline: the first 7 days. The 28-day page
 # is --to the 28th day of the same database, so both pages have the same
-# events per day. JSON at the same ranges is printed for comparison.
+# events per day. FORMATS="html json" adds the streamed JSON report at the
+# same ranges for comparison (default: html only).
 # usage: bench/html_memory.sh GEN WORKDIR CONCORD...
 set -eu
 gen=$1 work=$2
@@ -28,7 +29,7 @@ rss() { # prints "peak_MiB cpu_s" of a command
 echo "load: $(cut -d' ' -f1-3 /proc/loadavg), $(nproc) cores"
 for db in big small; do
     for bin in "$@"; do
-        for fmt in html json; do
+        for fmt in ${FORMATS:-html}; do
             a=$(rss "$bin" report --db "$work/$db.db" --model default --by day --format $fmt \
                 --to 2026-11-29 -o "$work/$db-28.$fmt")
             b=$(rss "$bin" report --db "$work/$db.db" --model default --by day --format $fmt \
