@@ -290,8 +290,9 @@ int cmd_report(int argc, char **argv)
 #ifdef __GLIBC__
     /* the page's alert replay builds and frees a one-day report per day (at
      * 64 x 256 a few summaries of 15.3 MiB each); glibc would hand each back
-     * to the system and fault it in again (system time up sevenfold): keep
-     * freed memory for the next day instead. The peak stays the same. */
+     * to the system and fault it in again (at 365 days 15 s of system time
+     * against 0.2 s): keep freed memory for the next day instead, for a peak
+     * about 15-30 MiB higher (bench/RESULTS.md, "HTML page"). */
     if (html) {
         mallopt(M_MMAP_THRESHOLD, 32 << 20);
         mallopt(M_TRIM_THRESHOLD, 128 << 20);
