@@ -377,14 +377,12 @@ static void daily_section(page *p, FILE *charts)
     const cc_model *m = r->model;
     static const double none[1];
     const double *shares = n > 0 ? pg->shares : none;
-    {
-        fputs("<figure><figcaption><b>Class mix of the ensemble's answers</b> per window "
-              "(share of events per class)</figcaption>\n", charts);
-        cc_svg_stacked_chart(charts, "chart-class-mix-daily", n, p->labels,
-                             x_axis_name(r->by), m->k,
-                             m->classes, shares, p->base_from, p->base_to);
-        fputs("</figure>\n", charts);
-    }
+    fputs("<figure><figcaption><b>Class mix of the ensemble's answers</b> per window "
+          "(share of events per class)</figcaption>\n", charts);
+    cc_svg_stacked_chart(charts, "chart-class-mix-daily", n, p->labels,
+                         x_axis_name(r->by), m->k,
+                         m->classes, shares, p->base_from, p->base_to);
+    fputs("</figure>\n", charts);
     fputs("</section>\n", charts);
     free(y);
     free(y2);
