@@ -220,6 +220,11 @@ static int check_model(cc_store *s, const cc_ruleset *rs, const cc_check_opts *o
         states = calloc((size_t)(n_rules ? n_rules : 1), sizeof *states);
         rc = states && res->cap_items >= want ? cc_eval_create(&ev, fig, model, res->day, err)
                                               : cc_error_set(err, CC_ENOMEM, "out of memory");
+        int max_lag = 0;
+        for (int i = 0; !rc && i < n_rules; i++)
+            max_lag = rules[i].lag_days > max_lag ? rules[i].lag_days : max_lag;
+        if (!rc)
+            cc_eval_set_horizon(ev, max_lag);
     }
     /* a dry run (a replay, `report --rules`, `rules validate`) only reads:
      * one snapshot, no write lock, so it works on a read-only store */

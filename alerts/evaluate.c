@@ -30,6 +30,7 @@ struct cc_evaluator {
     int64_t model_id;
     int m, k;                   /* the model's shape (a cluster store reads by it) */
     int64_t day;
+    int horizon;                /* largest lag of the rules; -1: unknown */
     cached cache[CACHE_MAX];
     int n_cache;
 };
@@ -54,7 +55,27 @@ static void report_opts(cc_report_opts *ro, const char *model, const char *slice
     ro->segment = slice;
 }
 
-void cc_eval_set_day(cc_evaluator *ev, int64_t day) { ev->day = day; }
+/* A report of a window day before day - horizon is not asked for again: at
+ * 64 members x 256 classes each holds two 16 MiB summaries (baseline, range). */
+void cc_eval_set_day(cc_evaluator *ev, int64_t day)
+{
+    ev->day = day;
+    if (ev->horizon < 0)
+        return;
+    int kept = 0;
+    for (int i = 0; i < ev->n_cache; i++) {
+        cached *c = &ev->cache[i];
+        if (c->day != BASE_DAY && c->day < day - ev->horizon) {
+            cc_report_free(c->report);
+            free(c->slice);
+        } else {
+            ev->cache[kept++] = *c;
+        }
+    }
+    ev->n_cache = kept;
+}
+
+void cc_eval_set_horizon(cc_evaluator *ev, int max_lag_days) { ev->horizon = max_lag_days; }
 
 int cc_eval_create(cc_evaluator **out, cc_store *store, const char *model, int64_t day,
                    cc_error *err)
@@ -75,6 +96,7 @@ int cc_eval_create(cc_evaluator **out, cc_store *store, const char *model, int64
     ev->m = m->m;
     ev->k = m->k;
     ev->day = day;
+    ev->horizon = -1;
     cc_model_free(m);
     *out = ev;
     return 0;
@@ -123,6 +145,9 @@ static int get_cached(cc_evaluator *ev, int64_t day, const char *slice, cached *
         free(copy);
         return rc;
     }
+    /* the rules read the window's figures and the baseline, not the range */
+    cc_summary_free(r->range);
+    r->range = NULL;
     cached *c = &ev->cache[ev->n_cache++];
     c->day = day;
     c->slice = copy;

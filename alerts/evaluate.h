@@ -41,14 +41,20 @@ typedef struct cc_evaluator cc_evaluator;
 /* An evaluator for one model and one checked day. */
 int cc_eval_create(cc_evaluator **out, cc_store *store, const char *model, int64_t day,
                    cc_error *err);
-/* Moves ev to another checked day, keeping the reports it built (replay). */
+/* Moves ev to another checked day, keeping the reports it built (replay)
+ * that a later day may still ask for (see cc_eval_set_horizon). */
 void cc_eval_set_day(cc_evaluator *ev, int64_t day);
+/* The rules' largest lag_days: once the checked day moves past a window
+ * day by more than this, that day's reports are dropped (days only move
+ * forward in a check). Without a horizon the last 16 reports stay. */
+void cc_eval_set_horizon(cc_evaluator *ev, int max_lag_days);
 void cc_eval_free(cc_evaluator *ev);
 
 int cc_eval_rule(cc_evaluator *ev, const cc_rule *rule, cc_eval_result *out, cc_error *err);
 
 /* The one-day report of a window day, built on first use and owned by ev;
- * *out is NULL when that day has no events. Its window is windows[0]. */
+ * *out is NULL when that day has no events. Its window is windows[0]; its
+ * range summary is not kept (range is NULL). */
 int cc_eval_report(cc_evaluator *ev, int64_t day, const cc_report **out, cc_error *err);
 /* The same for one slice alone (slice: cc_slice_name; NULL: the model). */
 int cc_eval_report_slice(cc_evaluator *ev, int64_t day, const char *slice,

@@ -1,5 +1,8 @@
 /* cmd_report.c — `concord report`: windows of stored summaries as text, JSON or HTML. */
 #include <errno.h>
+#ifdef __GLIBC__
+#include <malloc.h>
+#endif
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -9,7 +12,6 @@
 #include "report.h"
 #include "date.h"
 #include "review.h"
-#include "summary.h"
 
 const char help_report[] =
     "usage: concord report (--db FILE | --store URL) --model NAME [--from DATE] [--to DATE]\n"
@@ -59,18 +61,17 @@ const char help_report[] =
     "exit: 0 ok, 2 usage, 3 file or database error, 4 unknown model or segment (or, with\n"
     "      --by hour, a range that touches pruned days)\n";
 
-/* The alert timeline over the report's days (NULL rules_path: the default
- * rules); t stays empty when the report has no windows. */
-static int timeline_of(cc_store *store, const cc_report *r, const char *rules_path,
-                       cli_replay *rp, cc_report_timeline *t)
+/* The alert timeline over the days from..to of a report with n windows
+ * (NULL rules_path: the default rules); t stays empty when n is 0. */
+static int timeline_of(cc_store *store, const char *model, int n, int64_t from, int64_t to,
+                       const char *rules_path, cli_replay *rp, cc_report_timeline *t)
 {
     memset(rp, 0, sizeof *rp);
     memset(t, 0, sizeof *t);
     t->rules = rules_path ? rules_path : "default rules";
-    if (r->n_windows == 0)
+    if (n == 0)
         return EXIT_OK;
-    int64_t from = r->windows[0].from, to = r->windows[r->n_windows - 1].to;
-    int rc = cli_replay_run(store, rules_path, r->model->name, from, to, rp);
+    int rc = cli_replay_run(store, rules_path, model, from, to, rp);
     if (rc)
         return rc;
     t->items = rp->items;
@@ -82,22 +83,25 @@ static int timeline_of(cc_store *store, const cc_report *r, const char *rules_pa
     return EXIT_OK;
 }
 
-int cli_report_html_rules(cc_store *store, const cc_report *r, long long review_max,
-                          const char *note, const char *rules_path, char **out)
+/* The page of pg with its review and alert timeline. */
+static int page_html(cc_store *store, const cc_report_page *pg, long long review_max,
+                     const char *note, const char *rules_path, char **out)
 {
     cc_html_extras x = CC_HTML_EXTRAS_INIT;
     cc_review *rv = NULL;
     cc_error err = CC_ERROR_INIT;
+    const cc_report *r = cc_report_page_head(pg);
+    int64_t first, last;
+    int n = cc_report_page_windows(pg, &first, &last);
     x.note = note;
     *out = NULL;
-    if (review_max != 0 && r->n_windows > 0) {
+    if (review_max != 0 && n > 0) {
         cc_review_opts o = CC_REVIEW_OPTS_INIT;
-        o.from = r->windows[0].from * 86400;
-        o.to = r->windows[r->n_windows - 1].to * 86400 + 86399;
+        o.from = first * 86400;
+        o.to = last * 86400 + 86399;
         o.lists = ((1u << CC_REVIEW_KINDS) - 1) & ~(1u << CC_REVIEW_PAIR);
         o.limit = 10;
-        const int64_t events =
-            r->range ? cc_summary_data(r->range)[cc_summary_layout(r->range)->n_events] : 0;
+        const int64_t events = cc_report_page_events(pg);
         if (review_max > 0 && events > review_max)
             o.sample_every = (events + review_max - 1) / review_max;
         x.review_range_events = events;
@@ -107,16 +111,30 @@ int cli_report_html_rules(cc_store *store, const cc_report *r, long long review_
     }
     cli_replay rp;
     cc_report_timeline t;
-    int rc = timeline_of(store, r, rules_path, &rp, &t);
+    int rc = timeline_of(store, r->model->name, n, first, last, rules_path, &rp, &t);
     if (rc) {
         cc_review_free(rv);
         return rc;
     }
     x.timeline = &t;
-    *out = cc_report_html(r, &x);
+    *out = cc_report_page_html(pg, &x);
     cc_review_free(rv);
     cli_replay_free(&rp);
     return EXIT_OK;
+}
+
+int cli_report_html_rules(cc_store *store, const cc_report *r, long long review_max,
+                          const char *note, const char *rules_path, char **out)
+{
+    cc_report_page *pg = cc_report_page_of(r);
+    *out = NULL;
+    if (!pg) {
+        fprintf(stderr, "concord: out of memory\n");
+        return EXIT_IO;
+    }
+    int rc = page_html(store, pg, review_max, note, rules_path, out);
+    cc_report_page_free(pg);
+    return rc;
 }
 
 int cli_report_html(cc_store *store, const cc_report *r, long long review_max, const char *note,
@@ -268,17 +286,33 @@ int cmd_report(int argc, char **argv)
         cli_store_url_close(store);
         return rc;
     }
-    if (cc_report_build(&r, store, &ro, &err)) {
+    /* the page keeps the plotted numbers of each window, not its figures */
+    cc_report_page *pg = NULL;
+#ifdef __GLIBC__
+    /* the page's alert replay builds and frees a one-day report per day (at
+     * 64 x 256 a few summaries of 15.3 MiB each); glibc would hand each back
+     * to the system and fault it in again (at 365 days 15 s of system time
+     * against 0.2 s): keep freed memory for the next day instead, for a peak
+     * about 15-30 MiB higher (bench/RESULTS.md, "HTML page"). */
+    if (html) {
+        mallopt(M_MMAP_THRESHOLD, 32 << 20);
+        mallopt(M_TRIM_THRESHOLD, 128 << 20);
+    }
+#endif
+    if (html ? cc_report_page_build(&pg, store, &ro, &err)
+             : cc_report_build(&r, store, &ro, &err)) {
         rc = cli_fail(&err);
     } else {
         char *text = NULL;
         const char *rules = cli_get(opts, n_opts, "rules");
         if (html) {
-            rc = cli_report_html_rules(store, r, review_max, NULL, rules, &text);
+            rc = page_html(store, pg, review_max, NULL, rules, &text);
         } else if (rules) {
             cli_replay rp;
             cc_report_timeline t;
-            rc = timeline_of(store, r, rules, &rp, &t);
+            int n = r->n_windows;
+            rc = timeline_of(store, r->model->name, n, n ? r->windows[0].from : 0,
+                             n ? r->windows[n - 1].to : 0, rules, &rp, &t);
             if (rc == EXIT_OK)
                 text = json ? cc_report_json_with(r, &t) : cc_report_text_with(r, &t);
             cli_replay_free(&rp);
@@ -287,6 +321,7 @@ int cmd_report(int argc, char **argv)
         }
         if (rc != EXIT_OK) {
             cc_report_free(r);
+            cc_report_page_free(pg);
             cli_store_url_close(store);
             return rc;
         }
@@ -300,6 +335,7 @@ int cmd_report(int argc, char **argv)
         free(text);
     }
     cc_report_free(r);
+    cc_report_page_free(pg);
     cli_store_url_close(store);
     return rc;
 }

@@ -14,6 +14,7 @@
 #include "date.h"
 #include "figures.h"
 #include "html_text.h"
+#include "page_inputs.h"
 #include "svg.h"
 
 /* Figures the section may chart; the table shows the first four. */
@@ -29,23 +30,29 @@ static const struct candidate {
     {"drift.max_prob.ks", "KS distance of the top probability", "KS D", 0},
 };
 #define N_CANDS ((int)(sizeof cands / sizeof *cands))
+_Static_assert(N_CANDS == CC_PAGE_SLICE_FIGS, "page_inputs.h keeps one number per candidate");
 #define N_TABLE 4
 #define N_CHARTED 2
 
-int cc_html_slices_shown(const cc_report *r)
+int cc_html_slices_shown(const cc_report_page *pg)
 {
-    return r->by_segment && r->n_slices >= 2 && r->n_windows > 0;
+    return pg->r->by_segment && pg->r->n_slices >= 2 && pg->n > 0;
+}
+
+void cc_html_slices_figs(const cc_window_metrics *wm, const cc_comparison *cmp, double *out)
+{
+    for (int c = 0; c < N_CANDS; c++) {
+        const cc_figure *fig = cc_figures_find(cands[c].path);
+        out[c] = fig ? cc_figures_value(fig, wm, cmp, 0) : NAN;
+    }
 }
 
 /* The value of candidate c for slice s in window i; NAN without a row. */
-static double slice_value(const cc_report *r, int i, int s, int c)
+static double slice_value(const cc_report_page *pg, int i, int s, int c)
 {
-    const cc_report_window *w = &r->windows[i];
-    const cc_figure *fig = cc_figures_find(cands[c].path);
-    for (int j = 0; fig && j < w->n_segments; j++)
-        if (w->segments[j].slice == s)
-            return cc_figures_value(fig, &w->segments[j].metrics, &w->segments[j].cmp, 0);
-    return NAN;
+    if (s >= pg->n_slices)
+        return NAN;
+    return pg->slice_figs[((size_t)i * pg->n_slices + s) * CC_PAGE_SLICE_FIGS + c];
 }
 
 static int cmp_double(const void *a, const void *b)
@@ -78,8 +85,9 @@ static void cell_num(FILE *f, double x)
 /* How far apart the slices are on candidate c: the largest spread between
  * slices on one window, in units of the whole model's baseline day-to-day
  * sd (of the typical value when there is no baseline spread). */
-static double spread_score(const cc_report *r, int c, double *scratch)
+static double spread_score(const cc_report_page *pg, int c, double *scratch)
 {
+    const cc_report *r = pg->r;
     const cc_figure *fig = cc_figures_find(cands[c].path);
     int slot = fig && r->stats ? cc_tracked_slot(fig, 0, r->model->m, r->model->k) : -1;
     double scale = slot >= 0 && r->stats[slot].n >= 2 && r->stats[slot].sd > 0
@@ -87,10 +95,10 @@ static double spread_score(const cc_report *r, int c, double *scratch)
                        : NAN;
     double best = 0;
     int n = 0;
-    for (int i = 0; i < r->n_windows; i++) {
+    for (int i = 0; i < pg->n; i++) {
         double lo = INFINITY, hi = -INFINITY;
         for (int s = 0; s < r->n_slices; s++) {
-            double v = slice_value(r, i, s, c);
+            double v = slice_value(pg, i, s, c);
             if (!isfinite(v))
                 continue;
             scratch[n++] = fabs(v);
@@ -105,8 +113,10 @@ static double spread_score(const cc_report *r, int c, double *scratch)
     return isfinite(scale) && scale > 0 ? best / scale : 0;
 }
 
-static void table(FILE *f, const cc_report *r, const char *const *x_labels, double *scratch)
+static void table(FILE *f, const cc_report_page *pg, const char *const *x_labels,
+                  double *scratch)
 {
+    const cc_report *r = pg->r;
     fputs("<div class=\"scroll\"><table class=\"slices\"><thead><tr><th>slice</th>"
           "<th>windows</th><th>events</th><th>labelled</th>", f);
     for (int c = 0; c < N_TABLE; c++) {
@@ -119,13 +129,14 @@ static void table(FILE *f, const cc_report *r, const char *const *x_labels, doub
     for (int s = 0; s < r->n_slices; s++) {
         int64_t events = 0, labeled = 0;
         int windows = 0;
-        for (int i = 0; i < r->n_windows; i++)
-            for (int j = 0; j < r->windows[i].n_segments; j++)
-                if (r->windows[i].segments[j].slice == s) {
-                    events += r->windows[i].segments[j].metrics.events;
-                    labeled += r->windows[i].segments[j].metrics.labeled;
-                    windows++;
-                }
+        for (int i = 0; i < pg->n && s < pg->n_slices; i++) {
+            size_t at = (size_t)i * pg->n_slices + s;
+            if (pg->slice_events[at] > 0) {     /* a window's slice row has events */
+                events += pg->slice_events[at];
+                labeled += pg->slice_labeled[at];
+                windows++;
+            }
+        }
         if (windows == 0)
             continue;
         fputs("<tr><th scope=\"row\">", f);
@@ -135,15 +146,15 @@ static void table(FILE *f, const cc_report *r, const char *const *x_labels, doub
         for (int c = 0; c < N_TABLE; c++) {
             int at = -1;
             double ext = NAN;
-            for (int i = 0; i < r->n_windows; i++) {
-                double v = scratch[i] = slice_value(r, i, s, c);
+            for (int i = 0; i < pg->n; i++) {
+                double v = scratch[i] = slice_value(pg, i, s, c);
                 if (isfinite(v) && (at < 0 || (cands[c].lowest ? v < ext : v > ext))) {
                     ext = v;
                     at = i;
                 }
             }
             fputs("<td>", f);
-            cell_num(f, median(scratch, r->n_windows));
+            cell_num(f, median(scratch, pg->n));
             fputs(" &middot; ", f);
             cell_num(f, ext);
             if (at >= 0) {
@@ -159,20 +170,19 @@ static void table(FILE *f, const cc_report *r, const char *const *x_labels, doub
 }
 
 /* One small chart per slice for candidate c, the whole model's line beside. */
-static void multiples(FILE *f, const cc_report *r, int c, const char *const *x_labels,
+static void multiples(FILE *f, const cc_report_page *pg, int c, const char *const *x_labels,
                       const char *x_label, double *y, double *whole)
 {
-    const cc_figure *fig = cc_figures_find(cands[c].path);
-    for (int i = 0; i < r->n_windows; i++)
-        whole[i] = fig ? cc_figures_value(fig, &r->windows[i].metrics, &r->windows[i].cmp, 0)
-                       : NAN;
+    const cc_report *r = pg->r;
+    for (int i = 0; i < pg->n; i++)
+        whole[i] = pg->whole[(size_t)i * CC_PAGE_SLICE_FIGS + c];
     fputs("<h3>", f);
     cc_html_escape(f, cands[c].title);
     fputs(", per slice</h3>\n<div class=\"multiples\">\n", f);
     for (int s = 0; s < r->n_slices; s++) {
         int any = 0;
-        for (int i = 0; i < r->n_windows; i++)
-            any |= isfinite(y[i] = slice_value(r, i, s, c));
+        for (int i = 0; i < pg->n; i++)
+            any |= isfinite(y[i] = slice_value(pg, i, s, c));
         if (!any)
             continue;
         char id[48];
@@ -182,7 +192,7 @@ static void multiples(FILE *f, const cc_report *r, int c, const char *const *x_l
         ser.id = id;
         ser.y_label = cands[c].y_label;
         ser.value_name = cands[c].title;
-        ser.n = r->n_windows;
+        ser.n = pg->n;
         ser.y = y;
         ser.y2 = whole;
         ser.y2_name = "whole model";
@@ -203,15 +213,16 @@ static void multiples(FILE *f, const cc_report *r, int c, const char *const *x_l
     fputs("</div>\n", f);
 }
 
-void cc_html_slices_section(FILE *f, const cc_report *r, const char *const *x_labels,
+void cc_html_slices_section(FILE *f, const cc_report_page *pg, const char *const *x_labels,
                             const char *x_label)
 {
-    if (!cc_html_slices_shown(r))
+    if (!cc_html_slices_shown(pg))
         return;
-    size_t n = (size_t)r->n_windows * (size_t)(r->n_slices + 1) + 1;
+    const cc_report *r = pg->r;
+    size_t n = (size_t)pg->n * (size_t)(r->n_slices + 1) + 1;
     double *scratch = malloc(n * sizeof *scratch);
-    double *y = malloc((size_t)r->n_windows * sizeof *y);
-    double *whole = malloc((size_t)r->n_windows * sizeof *whole);
+    double *y = malloc((size_t)pg->n * sizeof *y);
+    double *whole = malloc((size_t)pg->n * sizeof *whole);
     if (!scratch || !y || !whole) {
         free(scratch);
         free(y);
@@ -225,12 +236,12 @@ void cc_html_slices_section(FILE *f, const cc_report *r, const char *const *x_la
           "'concord report --by-segment'). A fault in one slice is diluted in the "
           "whole model's figures by the healthy slices: look here for a slice that moves "
           "alone.</p>\n", f);
-    table(f, r, x_labels, scratch);
+    table(f, pg, x_labels, scratch);
     /* the figures that differ most between slices, largest first */
     double score[N_CANDS];
     int order[N_CANDS];
     for (int c = 0; c < N_CANDS; c++) {
-        score[c] = spread_score(r, c, scratch);
+        score[c] = spread_score(pg, c, scratch);
         order[c] = c;
     }
     for (int a = 1; a < N_CANDS; a++)
@@ -249,7 +260,7 @@ void cc_html_slices_section(FILE *f, const cc_report *r, const char *const *x_la
     fputs(").</p>\n", f);
     for (int c = 0; c < N_CHARTED; c++)
         if (score[order[c]] > 0)
-            multiples(f, r, order[c], x_labels, x_label, y, whole);
+            multiples(f, pg, order[c], x_labels, x_label, y, whole);
     fputs("</section>\n", f);
     free(scratch);
     free(y);

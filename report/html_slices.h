@@ -8,13 +8,14 @@
 
 #include "report.h"
 
-/* 1 when r has rows per slice to show (built with by_segment, two slices
- * or more, at least one window). */
-int cc_html_slices_shown(const cc_report *r);
+/* 1 when the page has rows per slice to show (a report with by_segment,
+ * two slices or more, at least one window). */
+int cc_html_slices_shown(const cc_report_page *pg);
 
-/* Writes <section id="slices"> for r (nothing when not shown). x_labels:
- * the windows' labels, x_label the axis name. Slice names are escaped. */
-void cc_html_slices_section(FILE *f, const cc_report *r, const char *const *x_labels,
+/* Writes <section id="slices"> for the page (nothing when not shown), from
+ * the numbers page_inputs.c kept of each window's slice rows. x_labels: the
+ * windows' labels, x_label the axis name. Slice names are escaped. */
+void cc_html_slices_section(FILE *f, const cc_report_page *pg, const char *const *x_labels,
                             const char *x_label);
 
 #endif

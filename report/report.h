@@ -112,6 +112,12 @@ int cc_report_stream(cc_report **out, cc_store *store, const cc_report_opts *opt
  * cc_report_stream callback). */
 void cc_report_window_free(cc_report_window *w);
 
+/* Testing hook: window figure sets (a window's or a slice row's computed
+ * figures, from their computation to cc_report_window_free) alive in the
+ * process now, and the most alive at once since the last reset. */
+void cc_report_live_windows(long *now, long *peak);
+void cc_report_live_windows_reset(void);
+
 
 /* An alert timeline the caller evaluated over the report's range (the cli's
  * `report --rules`): the transitions day by day, and the rules still raised
@@ -180,7 +186,28 @@ typedef struct cc_html_extras {
 #define CC_HTML_EXTRAS_INIT {NULL, 0, NULL, 0, 3.0, NULL, NULL, 0}
 
 /* One self-contained HTML page (inline CSS and SVG, no script); extras may
- * be NULL. Strings from the logs are escaped. */
+ * be NULL. Strings from the logs are escaped. Reads r's windows. */
 char *cc_report_html(const cc_report *r, const cc_html_extras *extras);
+
+/* What the page shows of a report, gathered from cc_report_stream: per
+ * window only the numbers the page plots (a few dozen numbers, plus k class
+ * shares and a few per slice), the last window's figures (its member-pair
+ * maps) and one merged summary of the range; so the page needs memory for
+ * one window's figures whatever the number of days. Errors are
+ * cc_report_build's. */
+typedef struct cc_report_page cc_report_page;
+int cc_report_page_build(cc_report_page **out, cc_store *store, const cc_report_opts *opts,
+                         cc_error *err);
+/* The same from a built report r, which must outlive it; NULL on out of memory. */
+cc_report_page *cc_report_page_of(const cc_report *r);
+void cc_report_page_free(cc_report_page *p);
+/* The report's head: model, baseline, slices; its windows are not kept. */
+const cc_report *cc_report_page_head(const cc_report_page *p);
+/* Number of windows; the first window's first day and the last one's last day. */
+int cc_report_page_windows(const cc_report_page *p, int64_t *first_day, int64_t *last_day);
+/* Events of the whole range. */
+int64_t cc_report_page_events(const cc_report_page *p);
+/* The page of p: the same bytes as cc_report_html of the built report. */
+char *cc_report_page_html(const cc_report_page *p, const cc_html_extras *extras);
 
 #endif

@@ -12,6 +12,7 @@
  * per slice (summaries merged the same way), against the slice's own
  * baseline and against the whole model's window. */
 #include <math.h>
+#include <stdatomic.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -20,8 +21,31 @@
 #include "report.h"
 #include "tracked.h"
 
+/* The testing hook's count of window figure sets alive in the process (see
+ * cc_report_live_windows): a set is alive from its counts' allocation in
+ * window_figures to cc_report_window_free. */
+static atomic_long live_windows, peak_windows;
+
+static void live_add(long d)
+{
+    long now = atomic_fetch_add(&live_windows, d) + d;
+    long peak = atomic_load(&peak_windows);
+    while (now > peak && !atomic_compare_exchange_weak(&peak_windows, &peak, now))
+        ;
+}
+
+void cc_report_live_windows(long *now, long *peak)
+{
+    *now = atomic_load(&live_windows);
+    *peak = atomic_load(&peak_windows);
+}
+
+void cc_report_live_windows_reset(void) { atomic_store(&peak_windows, atomic_load(&live_windows)); }
+
 void cc_report_window_free(cc_report_window *w)
 {
+    if (w->counts)
+        live_add(-1);
     for (int i = 0; i < w->n_segments; i++)
         cc_report_window_free(&w->segments[i]);
     free(w->segments);
@@ -244,6 +268,7 @@ static int window_figures(cc_report_window *w, const cc_summary *sum, const cc_s
         cc_comparison_compute_cached(&w->cmp, sum, baseline, cache) ||
         !(w->counts = malloc((2 + k) * k * sizeof *w->counts)))
         return -1;
+    live_add(1);
     memcpy(w->counts, v + L->pred_counts, k * sizeof *w->counts);
     memcpy(w->counts + k, v + L->label_counts, k * sizeof *w->counts);
     memcpy(w->counts + 2 * k, v + L->confusion, k * k * sizeof *w->counts);

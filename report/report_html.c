@@ -10,6 +10,7 @@
 #include "date.h"
 #include "html_slices.h"
 #include "html_text.h"
+#include "page_inputs.h"
 #include "report.h"
 #include "review.h"
 #include "review_render.h"
@@ -121,7 +122,7 @@ static void fmt_num(FILE *f, double x, int digits)
         fputs("&ndash;", f);
 }
 
-/* The report's range as one window (its windows merged, borrowed). */
+/* The report's range as one window (its windows' summaries merged, borrowed). */
 typedef struct whole {
     const cc_summary *sum;
     cc_window_metrics wm;
@@ -129,12 +130,13 @@ typedef struct whole {
     int ok;
 } whole;
 
-static int whole_build(whole *w, const cc_report *r)
+static int whole_build(whole *w, const cc_report_page *pg)
 {
+    const cc_report *r = pg->r;
     memset(w, 0, sizeof *w);
-    if (r->n_windows == 0)
+    if (pg->n == 0)
         return 0;
-    w->sum = r->range;
+    w->sum = pg->range;
     if (cc_window_metrics_compute(&w->wm, w->sum))
         return -1;
     if (cc_comparison_compute_cached(&w->cmp, w->sum, r->has_baseline ? r->baseline : NULL,
@@ -156,7 +158,9 @@ static void whole_free(whole *w)
 
 typedef struct page {
     FILE *f;
-    const cc_report *r;
+    const cc_report *r;         /* the head */
+    const cc_report_page *pg;   /* the windows' numbers */
+    int n;                      /* windows */
     const cc_html_extras *x;
     char (*dates)[17];          /* window labels: a date, or "YYYY-MM-DD HH:00" */
     const char **labels;
@@ -203,14 +207,14 @@ static void masthead(page *p)
         esc(f, m->members[i]);
     }
     fprintf(f, ") &middot; %d classes", m->k);
-    if (r->n_windows > 0 && r->by == CC_BY_HOUR) {
+    if (p->n > 0 && r->by == CC_BY_HOUR) {
         fprintf(f, " &middot; %s to %s, %d UTC hour%s with events", p->dates[0],
-                p->dates[r->n_windows - 1], r->n_windows, r->n_windows == 1 ? "" : "s");
-    } else if (r->n_windows > 0) {
+                p->dates[p->n - 1], p->n, p->n == 1 ? "" : "s");
+    } else if (p->n > 0) {
         char to[11];
-        cc_format_date(r->windows[r->n_windows - 1].to, to);
-        fprintf(f, " &middot; %s to %s, %d %s", p->dates[0], to, r->n_windows,
-                r->by == CC_BY_DAY ? (r->n_windows == 1 ? "day" : "days")
+        cc_format_date(p->pg->to[p->n - 1], to);
+        fprintf(f, " &middot; %s to %s, %d %s", p->dates[0], to, p->n,
+                r->by == CC_BY_DAY ? (p->n == 1 ? "day" : "days")
                 : r->by == CC_BY_WEEK ? "ISO weeks" : "window");
     }
     if (r->has_baseline) {
@@ -230,7 +234,7 @@ static void masthead(page *p)
         fputs("</p>\n", f);
     }
     fputs("<nav><a href=\"#status\">status</a><a href=\"#daily\">day by day</a>", f);
-    if (cc_html_slices_shown(r))
+    if (cc_html_slices_shown(p->pg))
         fputs("<a href=\"#slices\">slices</a>", f);
     fputs("<a href=\"#pairs\">member pairs</a><a href=\"#classmix\">class mix</a>"
           "<a href=\"#reliability\">reliability</a><a href=\"#contested\">contested pairs</a>"
@@ -319,7 +323,8 @@ static void status_line(page *p, int n_days_off)
 static void daily_section(page *p, FILE *charts)
 {
     const cc_report *r = p->r;
-    int n = r->n_windows;
+    const cc_report_page *pg = p->pg;
+    int n = p->n;
     double *y = malloc(sizeof(double) * (size_t)(n ? n : 1));
     double *y2 = malloc(sizeof(double) * (size_t)(n ? n : 1));
     fputs("<section id=\"daily\"><h2>Day by day</h2>\n<p class=\"lede\">One point per window. ",
@@ -337,9 +342,8 @@ static void daily_section(page *p, FILE *charts)
                                                        ? tracked_index(daily[c].second_path)
                                                        : -1;
         for (int i = 0; i < n; i++) {
-            const cc_report_window *w = &r->windows[i];
-            y[i] = t >= 0 ? cc_tracked_value(t, &w->metrics, &w->cmp) : NAN;
-            y2[i] = t2 >= 0 ? cc_tracked_value(t2, &w->metrics, &w->cmp) : NAN;
+            y[i] = t >= 0 ? pg->tracked[(size_t)i * pg->nt + t] : NAN;
+            y2[i] = t2 >= 0 ? pg->tracked[(size_t)i * pg->nt + t2] : NAN;
         }
         cc_svg_series s = {0};
         s.id = daily[c].id;
@@ -371,23 +375,15 @@ static void daily_section(page *p, FILE *charts)
     }
     /* class mix per window */
     const cc_model *m = r->model;
-    double *shares = malloc(sizeof(double) * (size_t)(n ? n : 1) * (size_t)m->k);
-    if (shares) {
-        for (int i = 0; i < n; i++) {
-            const cc_window_metrics *wm = &r->windows[i].metrics;
-            for (int c = 0; c < m->k; c++)
-                shares[(size_t)i * m->k + c] =
-                    wm->events > 0 ? (double)wm->class_counts[c] / (double)wm->events : NAN;
-        }
-        fputs("<figure><figcaption><b>Class mix of the ensemble's answers</b> per window "
-              "(share of events per class)</figcaption>\n", charts);
-        cc_svg_stacked_chart(charts, "chart-class-mix-daily", n, p->labels,
-                             x_axis_name(r->by), m->k,
-                             m->classes, shares, p->base_from, p->base_to);
-        fputs("</figure>\n", charts);
-    }
+    static const double none[1];
+    const double *shares = n > 0 ? pg->shares : none;
+    fputs("<figure><figcaption><b>Class mix of the ensemble's answers</b> per window "
+          "(share of events per class)</figcaption>\n", charts);
+    cc_svg_stacked_chart(charts, "chart-class-mix-daily", n, p->labels,
+                         x_axis_name(r->by), m->k,
+                         m->classes, shares, p->base_from, p->base_to);
+    fputs("</figure>\n", charts);
     fputs("</section>\n", charts);
-    free(shares);
     free(y);
     free(y2);
 }
@@ -422,16 +418,16 @@ static void pairs_section(page *p)
           "agreement beyond chance (Cohen 1960). Yule's Q on right/wrong: how alike their "
           "mistakes are, from &minus;1 to 1 (Kuncheva &amp; Whitaker 2003). Columns: the "
           "baseline, the whole range, and the last window.</p>\n", f);
-    if (m->m < 2 || r->n_windows == 0) {
+    if (m->m < 2 || p->n == 0) {
         fputs("<p class=\"empty\">Needs two members and at least one window.</p></section>\n", f);
         return;
     }
     cc_window_metrics base;
     int has_base = r->has_baseline && r->baseline &&
                    cc_window_metrics_compute(&base, r->baseline) == 0;
-    const cc_window_metrics *last = &r->windows[r->n_windows - 1].metrics;
+    const cc_window_metrics *last = &p->pg->last->metrics;
     char last_name[64];
-    snprintf(last_name, sizeof last_name, "last window, %s", p->dates[r->n_windows - 1]);
+    snprintf(last_name, sizeof last_name, "last window, %s", p->dates[p->n - 1]);
     const struct { const char *what, *key; } rows[] = {
         {"disagreement", "dis"}, {"Cohen's kappa", "kappa"}, {"Yule's Q", "q"}};
     for (int row = 0; row < 3; row++) {
@@ -442,7 +438,7 @@ static void pairs_section(page *p)
             const cc_window_metrics *wm = col == 0 ? (has_base ? &base : NULL)
                                           : col == 1 ? &p->all.wm
                                                      : last;
-            if (!wm || (col == 2 && r->n_windows < 2))
+            if (!wm || (col == 2 && p->n < 2))
                 continue;
             const char *cap = col == 0 ? "baseline" : col == 1 ? "whole range" : last_name;
             const cc_pair_matrix *pm = row == 0 ? &wm->disagreement
@@ -764,33 +760,36 @@ static void review_section(page *p)
     fputs("</section>\n", f);
 }
 
-char *cc_report_html(const cc_report *r, const cc_html_extras *extras)
+char *cc_report_page_html(const cc_report_page *pg, const cc_html_extras *extras)
 {
     cc_html_extras defaults = CC_HTML_EXTRAS_INIT;
+    const cc_report *r = pg->r;
     page p;
     memset(&p, 0, sizeof p);
     p.r = r;
+    p.pg = pg;
+    p.n = pg->n;
     p.x = extras ? extras : &defaults;
     p.base_from = p.base_to = -1;
-    int n = r->n_windows;
+    int n = pg->n;
     p.dates = malloc(sizeof *p.dates * (size_t)(n ? n : 1));
     p.labels = malloc(sizeof *p.labels * (size_t)(n ? n : 1));
     p.outside_days = calloc((size_t)(n ? n : 1), sizeof *p.outside_days);
     char *buf = NULL, *charts_buf = NULL;
     size_t len = 0, charts_len = 0;
     FILE *charts = NULL;
-    if (!p.dates || !p.labels || !p.outside_days || whole_build(&p.all, r) ||
+    if (!p.dates || !p.labels || !p.outside_days || whole_build(&p.all, pg) ||
         !(p.f = open_memstream(&buf, &len)) ||
         !(charts = open_memstream(&charts_buf, &charts_len)))
         goto fail;
     for (int i = 0; i < n; i++) {
-        cc_format_date(r->windows[i].from, p.dates[i]);
+        cc_format_date(pg->from[i], p.dates[i]);
         if (r->by == CC_BY_HOUR)
             snprintf(p.dates[i] + 10, 7, " %02d:00",
-                     (int)((r->windows[i].ts_from - r->windows[i].from * 86400) / 3600));
+                     (int)((pg->ts_from[i] - pg->from[i] * 86400) / 3600));
         p.labels[i] = p.dates[i];
-        if (r->has_baseline && r->windows[i].from >= r->baseline_from &&
-            r->windows[i].to <= r->baseline_to) {
+        if (r->has_baseline && pg->from[i] >= r->baseline_from &&
+            pg->to[i] <= r->baseline_to) {
             if (p.base_from < 0)
                 p.base_from = i;
             p.base_to = i;
@@ -817,7 +816,7 @@ char *cc_report_html(const cc_report *r, const cc_html_extras *extras)
         days_off += p.outside_days[i] > 0;
     status_line(&p, days_off);
     fputs(charts_buf, f);
-    cc_html_slices_section(f, r, p.labels, x_axis_name(r->by));
+    cc_html_slices_section(f, pg, p.labels, x_axis_name(r->by));
     pairs_section(&p);
     classmix_section(&p);
     reliability_section(&p);
@@ -851,4 +850,12 @@ fail:
     free(p.outside_days);
     whole_free(&p.all);
     return NULL;
+}
+
+char *cc_report_html(const cc_report *r, const cc_html_extras *extras)
+{
+    cc_report_page *pg = cc_report_page_of(r);
+    char *out = pg ? cc_report_page_html(pg, extras) : NULL;
+    cc_report_page_free(pg);
+    return out;
 }
