@@ -9,6 +9,7 @@
 #include "report.h"
 #include "review_render.h"
 #include "figures.h"
+#include "json_print.h"
 #include "tracked.h"
 
 static cJSON *num(double x) { return isfinite(x) ? cJSON_CreateNumber(x) : cJSON_CreateNull(); }
@@ -421,14 +422,14 @@ char *cc_report_json_with(const cc_report *r, const cc_report_timeline *tl)
         cJSON_AddItemToArray(ws, window_json(r, &r->windows[i]));
     if (tl)
         cJSON_AddItemToObject(root, "alerts", timeline_json(tl));
-    char *text = cJSON_Print(root);
+    char *text = cc_json_print(root, 0);
     cJSON_Delete(root);
     return text;
 }
 
 /* Streaming: the root is printed with its empty windows array left open,
- * then each window as cJSON_Print would lay it out inside that array (two
- * more tabs after every line break), then the closing brackets. */
+ * then each window as cJSON_Print would lay it out inside that array (at
+ * depth 2: two more tabs after every line break), then the closing brackets. */
 typedef struct json_stream {
     FILE *out;
     int n_windows;
@@ -438,7 +439,7 @@ static int json_window(void *payload, const cc_report *r, cc_report_window *w)
 {
     json_stream *js = payload;
     cJSON *tree = w ? window_json(r, w) : report_root(r);
-    char *text = tree ? cJSON_Print(tree) : NULL;
+    char *text = tree ? cc_json_print(tree, w ? 2 : 0) : NULL;
     cJSON_Delete(tree);
     if (!text)
         return 1;
@@ -453,13 +454,7 @@ static int json_window(void *payload, const cc_report *r, cc_report_window *w)
     } else {
         if (js->n_windows++)
             fputs(", ", js->out);
-        const char *p = text, *nl;
-        while ((nl = strchr(p, '\n')) != NULL) {
-            fwrite(p, 1, (size_t)(nl - p) + 1, js->out);
-            fputs("\t\t", js->out);
-            p = nl + 1;
-        }
-        fputs(p, js->out);
+        fwrite(text, 1, len, js->out);
     }
     free(text);
     return 0;
