@@ -249,14 +249,53 @@ static void layout(void)
     cJSON_Delete(root);
 }
 
-static void dump_bits(FILE *f, const cJSON *item)
+static void dump_one(FILE *f, double x)
 {
-    for (const cJSON *c = item; c; c = c->next) {
-        if (cJSON_IsNumber(c) && isfinite(c->valuedouble))
-            fprintf(f, "%a\n", c->valuedouble);
-        if (c->child)
-            dump_bits(f, c->child);
+    if (isfinite(x))
+        fprintf(f, "%a\n", x);
+}
+
+/* The doubles behind a raw matrix item (report_json.c writes the diversity
+ * pairs and the confusion matrix as raw text), from the report's window. */
+static int dump_raw(FILE *f, const cJSON *raw, const char *parent, const cc_window_metrics *x,
+                    int m, int k)
+{
+    if (!strcmp(raw->string, "confusion")) {
+        for (int t = 0; t < k; t++)
+            for (int p = 0; p < k; p++)
+                dump_one(f, (double)x->confusion[p * k + t]);
+        return 0;
     }
+    static const char *const names[] = {"disagreement", "kappa", "q", "rho", "double_fault",
+                                        "oracle_disagreement"};
+    const cc_pair_matrix *pm[] = {&x->disagreement, &x->kappa, &x->q, &x->rho, &x->double_fault,
+                                  &x->oracle_disagreement};
+    for (size_t n = 0; n < sizeof names / sizeof *names; n++) {
+        if (strcmp(parent, names[n]) || strcmp(raw->string, "pairs"))
+            continue;
+        for (int i = 0; i < m; i++)
+            for (int j = 0; j < m; j++)
+                if (pm[n]->pairs && i != j)
+                    dump_one(f, pm[n]->pairs[i * m + j]);
+        return 0;
+    }
+    fprintf(stderr, "FAIL: raw item %s in %s not known to the test\n", raw->string, parent);
+    return 1;
+}
+
+static int dump_bits(FILE *f, const cJSON *item, const char *parent, const cc_window_metrics *x,
+                     int m, int k)
+{
+    int bad = 0;
+    for (const cJSON *c = item; c; c = c->next) {
+        if (cJSON_IsNumber(c))
+            dump_one(f, c->valuedouble);
+        if (cJSON_IsRaw(c))
+            bad |= dump_raw(f, c, parent, x, m, k);
+        if (c->child)
+            bad |= dump_bits(f, c->child, c->string ? c->string : parent, x, m, k);
+    }
+    return bad;
 }
 
 static int report_windows(const char *db, const char *model, const char *json_path,
@@ -284,7 +323,8 @@ static int report_windows(const char *db, const char *model, const char *json_pa
         rc = !text;
         if (text)
             fprintf(jf, "%s%s", i ? ",\n" : "", text);
-        dump_bits(bf, w);
+        if (dump_bits(bf, w, "", &r->windows[i].metrics, r->model->m, r->model->k))
+            rc = 1;
         free(text);
         cJSON_Delete(w);
     }
