@@ -353,16 +353,68 @@ typedef struct em_problem {
     double *rows; /* n x k */
     double *u;    /* n */
     double *pinv; /* k */
+    int *col;     /* k: the class (index into the caller's k) of each column */
     int n, k;
     double used;
 } em_problem;
 
+/* A prior below EM_DROP that the last EM step lowered further is set to 0
+ * and its column dropped (an EM step keeps a zero prior at zero). At
+ * 64 x 256 with about 180 events a day, some 215 of the 256 priors of a day's
+ * estimate end below 1e-12 and keep falling; each step's work is
+ * proportional to the columns left. What is dropped moves the estimate by
+ * less than EM_DROP per class. */
+#define EM_DROP 1e-20
+
+static int dropped(const double *q0, const double *q1, int j)
+{
+    return q1[j] < EM_DROP && q1[j] <= q0[j];
+}
+
+/* Drops the columns of the classes whose prior q1 (the EM step's output
+ * from q0) is below EM_DROP and below q0's, when there are enough of them to
+ * pay for rewriting the rows (at least 8, or an eighth of the columns). q0
+ * and q1 are compacted along with the problem; q1 is renormalised to sum 1. */
+static void drop_classes(em_problem *P, double *q0, double *q1)
+{
+    const int k = P->k;
+    int drop = 0;
+    for (int j = 0; j < k; j++)
+        drop += dropped(q0, q1, j);
+    if (drop == 0 || drop == k || (drop < 8 && drop * 8 < k))
+        return;
+    /* in place, row by row: entry j of row r moves to r * kept + c <= r * k + j */
+    const int kept = k - drop;
+    for (int r = 0; r < P->n; r++) {
+        const double *src = P->rows + (size_t)r * (size_t)k;
+        double *dst = P->rows + (size_t)r * (size_t)kept;
+        for (int j = 0, c = 0; j < k; j++)
+            if (!dropped(q0, q1, j))
+                dst[c++] = src[j];
+    }
+    double sum = 0.0;
+    for (int j = 0, c = 0; j < k; j++) {
+        if (dropped(q0, q1, j))
+            continue;
+        P->pinv[c] = P->pinv[j];
+        P->col[c] = P->col[j];
+        q0[c] = q0[j];
+        q1[c] = q1[j];
+        sum += q1[c];
+        c++;
+    }
+    P->k = kept;
+    for (int j = 0; j < kept; j++)
+        q1[j] /= sum;
+}
+
 /* One EM step (the same E and M steps as em_step) on a compacted problem;
- * also gives the log-likelihood at q, sum_r u_r ln sum_j (q_j/p_j) s_rj, over
- * the rows used. ratio and acc are k-sized scratch. Returns sum_r u_r over the
- * rows used (0: nothing to estimate). */
-static double sq_step(double *next, double *loglik, double *ratio, double *acc,
-                      const double *q, const em_problem *P)
+ * also gives (loglik not NULL) the log-likelihood at q,
+ * sum_r u_r ln sum_j (q_j/p_j) s_rj, over the rows used. ratio and acc are
+ * k-sized scratch. Returns sum_r u_r over the rows used (0: nothing to
+ * estimate). */
+static double sq_step(double *next, double *loglik, double *ratio, double *acc, const double *q,
+                      const em_problem *P)
 {
     const int k = P->k;
     for (int j = 0; j < k; j++) {
@@ -387,12 +439,14 @@ static double sq_step(double *next, double *loglik, double *ratio, double *acc,
         for (int j = 0; j < k; j++)
             acc[j] += scale * row[j];
         used += P->u[r];
-        ll += P->u[r] * log(denom);
+        if (loglik)
+            ll += P->u[r] * log(denom);
     }
     if (used > 0.0)
         for (int j = 0; j < k; j++)
             next[j] = ratio[j] * acc[j] / used;
-    *loglik = ll;
+    if (loglik)
+        *loglik = ll;
     return used;
 }
 
@@ -425,11 +479,12 @@ static double max_abs_diff(const double *a, const double *b, int k)
  * is below q0's, and the next cycle then starts from q2 (plain EM steps never
  * lower it). Stops when an EM step changes no prior by tol or more, as
  * cc_em_estimate does, or (ll_tol > 0) when a cycle raised the log-likelihood
- * by less than ll_tol per unit of row weight. */
-static int squarem_run(double *q, int *iterations, int *converged, const em_problem *P,
-                       double tol, double ll_tol, int max_iter)
+ * by less than ll_tol per unit of row weight. Classes whose priors keep
+ * falling below EM_DROP leave the problem on the way (drop_classes). */
+static int squarem_run(double *q, int *iterations, int *converged, em_problem *P, double tol,
+                       double ll_tol, int max_iter)
 {
-    const int k = P->k;
+    int k = P->k; /* columns left; drop_classes lowers it */
     const size_t K = (size_t)k;
     double *buf = malloc(sizeof(double) * K * 9);
     if (!buf)
@@ -442,14 +497,16 @@ static int squarem_run(double *q, int *iterations, int *converged, const em_prob
     double ll0, ll, llprev = -INFINITY;
     *converged = 0;
     while (it < max_iter && !*converged) {
-        memcpy(q0, q, sizeof(double) * K);
+        memcpy(q0, q, sizeof(double) * (size_t)k);
         /* two plain steps; q follows the latest EM output */
         if (sq_step(q1, &ll0, ratio, acc, q0, P) <= 0.0) {
             ok = 0;
             break;
         }
         it++;
-        memcpy(q, q1, sizeof(double) * K);
+        drop_classes(P, q0, q1);
+        k = P->k;
+        memcpy(q, q1, sizeof(double) * (size_t)k);
         /* the log-likelihood at the cycle's start rose by less than ll_tol per unit weight */
         if (max_abs_diff(q1, q0, k) < tol || (ll_tol > 0.0 && ll0 - llprev < ll_tol * P->used)) {
             *converged = 1;
@@ -458,12 +515,13 @@ static int squarem_run(double *q, int *iterations, int *converged, const em_prob
         llprev = ll0;
         if (it >= max_iter)
             break;
-        if (sq_step(q2, &ll, ratio, acc, q1, P) <= 0.0) {
+        /* this step's log-likelihood is not used: no logarithms */
+        if (sq_step(q2, NULL, ratio, acc, q1, P) <= 0.0) {
             ok = 0;
             break;
         }
         it++;
-        memcpy(q, q2, sizeof(double) * K);
+        memcpy(q, q2, sizeof(double) * (size_t)k);
         if (max_abs_diff(q2, q1, k) < tol) {
             *converged = 1;
             break;
@@ -503,7 +561,7 @@ static int squarem_run(double *q, int *iterations, int *converged, const em_prob
         const double used = sq_step(fx, &ll, ratio, acc, x, P);
         it++;
         if (used > 0.0 && ll >= ll0 - slack * (1.0 + fabs(ll0))) {
-            memcpy(q, fx, sizeof(double) * K);
+            memcpy(q, fx, sizeof(double) * (size_t)k);
             if (max_abs_diff(fx, x, k) < tol)
                 *converged = 1;
         } else {
@@ -528,7 +586,7 @@ int cc_em_estimate_squarem(cc_em *out, const double *posteriors, const double *w
     if (nn == 0)
         return 0;
 
-    em_problem P = {NULL, NULL, NULL, nn, kk, 0.0};
+    em_problem P = {NULL, NULL, NULL, NULL, nn, kk, 0.0};
     int *col = malloc(sizeof(int) * (size_t)kk);
     double *q = malloc(sizeof(double) * (size_t)kk);
     P.rows = malloc(sizeof(double) * (size_t)nn * (size_t)kk);
@@ -539,6 +597,7 @@ int cc_em_estimate_squarem(cc_em *out, const double *posteriors, const double *w
         rc = -1;
         goto done;
     }
+    P.col = col;
     for (int j = 0, c = 0; j < k; j++)
         if (source_priors[j] > 0.0 && isfinite(source_priors[j])) {
             col[c] = j;
@@ -561,12 +620,12 @@ int cc_em_estimate_squarem(cc_em *out, const double *posteriors, const double *w
     int ok;
     if (max_iter <= 0) {
         /* no step taken: still report whether the rows could be used */
-        double *scratch = malloc(sizeof(double) * (size_t)kk * 3), ll;
+        double *scratch = malloc(sizeof(double) * (size_t)kk * 3);
         if (!scratch) {
             rc = -1;
             goto done;
         }
-        ok = sq_step(scratch, &ll, scratch + kk, scratch + 2 * kk, q, &P) > 0.0;
+        ok = sq_step(scratch, NULL, scratch + kk, scratch + 2 * kk, q, &P) > 0.0;
         free(scratch);
     } else {
         ok = squarem_run(q, &out->iterations, &out->converged, &P, tol, ll_tol, max_iter);
@@ -579,7 +638,7 @@ int cc_em_estimate_squarem(cc_em *out, const double *posteriors, const double *w
     if (ok) {
         for (int j = 0; j < k; j++)
             out->priors[j] = 0.0;
-        for (int c = 0; c < kk; c++)
+        for (int c = 0; c < P.k; c++)
             out->priors[col[c]] = q[c];
         out->ok = 1;
     }

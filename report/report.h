@@ -154,7 +154,9 @@ char *cc_report_json(const cc_report *r);
 char *cc_report_json_with(const cc_report *r, const cc_report_timeline *t);
 
 /* Window i of the JSON contract as a cJSON tree (caller frees with
- * cJSON_Delete). Figures by path are better read through figures.h. */
+ * cJSON_Delete). Its matrices (diversity pairs, accuracy.confusion) are raw
+ * items (cJSON_IsRaw) holding their JSON text, which cJSON_Parse reads.
+ * Figures by path are better read through figures.h. */
 struct cJSON *cc_report_window_json(const cc_report *r, int i);
 char *cc_report_text(const cc_report *r);
 char *cc_report_text_with(const cc_report *r, const cc_report_timeline *t);

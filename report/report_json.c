@@ -9,6 +9,7 @@
 #include "report.h"
 #include "review_render.h"
 #include "figures.h"
+#include "json_print.h"
 #include "tracked.h"
 
 static cJSON *num(double x) { return isfinite(x) ? cJSON_CreateNumber(x) : cJSON_CreateNull(); }
@@ -36,20 +37,72 @@ static cJSON *counts(const int64_t *v, int n)
     return a;
 }
 
+/* A rows x cols matrix of numbers as one raw cJSON item holding the text
+ * cJSON_Print gives an array of arrays of numbers ("[[a, b], [c, d]]", each
+ * number as cc_json_number writes it): the report's large matrices (k x k
+ * confusion counts, m x m pair figures) then cost one item, not one per
+ * number. at(ctx, i, j) gives entry (i, j); NAN prints as null. */
+static cJSON *raw_matrix(int rows, int cols, double (*at)(const void *, int, int),
+                         const void *ctx)
+{
+    const size_t cap = (size_t)rows * ((size_t)cols * (CC_JSON_NUMBER_MAX + 2) + 4) + 3;
+    char *text = malloc(cap), *p = text;
+    if (!text)
+        return NULL;
+    *p++ = '[';
+    for (int i = 0; i < rows; i++) {
+        if (i) {
+            *p++ = ',';
+            *p++ = ' ';
+        }
+        *p++ = '[';
+        for (int j = 0; j < cols; j++) {
+            if (j) {
+                *p++ = ',';
+                *p++ = ' ';
+            }
+            p += cc_json_number(p, at(ctx, i, j));
+        }
+        *p++ = ']';
+    }
+    *p++ = ']';
+    *p = '\0';
+    cJSON *raw = cJSON_CreateRaw(text);
+    free(text);
+    return raw;
+}
+
+typedef struct pairs_ctx {
+    const double *pairs;
+    int m;
+} pairs_ctx;
+
+static double pair_at(const void *ctx, int i, int j)
+{
+    const pairs_ctx *c = ctx;
+    return c->pairs && i != j ? c->pairs[i * c->m + j] : NAN;
+}
+
 /* {"mean": x, "pairs": m x m with null diagonal} */
 static cJSON *pair_matrix(const cc_pair_matrix *pm, int m)
 {
-    cJSON *o = cJSON_CreateObject(), *rows = cJSON_CreateArray();
+    cJSON *o = cJSON_CreateObject();
+    const pairs_ctx ctx = {pm->pairs, m};
     cJSON_AddItemToObject(o, "mean", num(pm->mean));
-    for (int i = 0; i < m; i++) {
-        cJSON *row = cJSON_CreateArray();
-        for (int j = 0; j < m; j++)
-            cJSON_AddItemToArray(row, pm->pairs && i != j ? num(pm->pairs[i * m + j])
-                                                          : cJSON_CreateNull());
-        cJSON_AddItemToArray(rows, row);
-    }
-    cJSON_AddItemToObject(o, "pairs", rows);
+    cJSON_AddItemToObject(o, "pairs", raw_matrix(m, m, pair_at, &ctx));
     return o;
+}
+
+typedef struct confusion_ctx {
+    const int64_t *confusion;
+    int k;
+} confusion_ctx;
+
+/* rows: true class, columns: predicted class (the summary keeps predicted-major) */
+static double confusion_at(const void *ctx, int t, int p)
+{
+    const confusion_ctx *c = ctx;
+    return (double)c->confusion[p * c->k + t];
 }
 
 static cJSON *nums(const double *x, int n)
@@ -271,14 +324,8 @@ static cJSON *window_json(const cc_report *r, const cc_report_window *w)
         cJSON_AddItemToObject(a, "best_member_accuracy",
                               num(x->member_accuracy[x->best_member]));
         cJSON_AddItemToObject(a, "ensemble_gain", num(fig("accuracy.ensemble_gain", w, 0)));
-        /* rows: true class, columns: predicted class */
-        cJSON *cm = cJSON_AddArrayToObject(a, "confusion");
-        for (int t = 0; t < k; t++) {
-            cJSON *row = cJSON_CreateArray();
-            for (int p = 0; p < k; p++)
-                cJSON_AddItemToArray(row, cJSON_CreateNumber((double)x->confusion[p * k + t]));
-            cJSON_AddItemToArray(cm, row);
-        }
+        const confusion_ctx cc = {x->confusion, k};
+        cJSON_AddItemToObject(a, "confusion", raw_matrix(k, k, confusion_at, &cc));
         cJSON *mc = cJSON_AddObjectToObject(a, "mcnemar");
         cJSON_AddNumberToObject(mc, "ensemble_only", (double)x->mcnemar_ensemble_only);
         cJSON_AddNumberToObject(mc, "best_only", (double)x->mcnemar_best_only);
@@ -421,14 +468,14 @@ char *cc_report_json_with(const cc_report *r, const cc_report_timeline *tl)
         cJSON_AddItemToArray(ws, window_json(r, &r->windows[i]));
     if (tl)
         cJSON_AddItemToObject(root, "alerts", timeline_json(tl));
-    char *text = cJSON_Print(root);
+    char *text = cc_json_print(root, 0);
     cJSON_Delete(root);
     return text;
 }
 
 /* Streaming: the root is printed with its empty windows array left open,
- * then each window as cJSON_Print would lay it out inside that array (two
- * more tabs after every line break), then the closing brackets. */
+ * then each window as cJSON_Print would lay it out inside that array (at
+ * depth 2: two more tabs after every line break), then the closing brackets. */
 typedef struct json_stream {
     FILE *out;
     int n_windows;
@@ -438,7 +485,7 @@ static int json_window(void *payload, const cc_report *r, cc_report_window *w)
 {
     json_stream *js = payload;
     cJSON *tree = w ? window_json(r, w) : report_root(r);
-    char *text = tree ? cJSON_Print(tree) : NULL;
+    char *text = tree ? cc_json_print(tree, w ? 2 : 0) : NULL;
     cJSON_Delete(tree);
     if (!text)
         return 1;
@@ -453,13 +500,7 @@ static int json_window(void *payload, const cc_report *r, cc_report_window *w)
     } else {
         if (js->n_windows++)
             fputs(", ", js->out);
-        const char *p = text, *nl;
-        while ((nl = strchr(p, '\n')) != NULL) {
-            fwrite(p, 1, (size_t)(nl - p) + 1, js->out);
-            fputs("\t\t", js->out);
-            p = nl + 1;
-        }
-        fputs(p, js->out);
+        fwrite(text, 1, len, js->out);
     }
     free(text);
     return 0;

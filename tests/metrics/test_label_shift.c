@@ -468,6 +468,45 @@ static void squarem_checks(check_log *log)
            e.iterations, -slope);
 }
 
+/* Many classes whose priors fall to 0 (SQUAREM drops their columns once
+ * below 1e-20): 32 classes with equal source priors, 24 rows each with 0.7 on
+ * one of the classes 0..3 and the rest spread evenly, weighted 1..24. At the
+ * maximum the 28 other classes have gradient ratio (s_rj/p_j)/denominator
+ * about 0.05 < 1, so plain EM (Saerens et al. 2002) drives them to 0 at that
+ * rate, and its long run (tol 1e-15) is the fixed point both must reach. */
+static void squarem_drop_checks(check_log *log)
+{
+    enum { K = 32, N = 24 };
+    const char *src = "plain EM, 200,000-step cap at tol 1e-15 (Saerens et al. 2002)";
+    double rows[N * K], w[N], p[K], q[K], qp[K];
+    for (int j = 0; j < K; j++)
+        p[j] = 1.0 / K;
+    for (int r = 0; r < N; r++) {
+        for (int j = 0; j < K; j++)
+            rows[r * K + j] = 0.3 / (K - 1);
+        rows[r * K + (r % 4)] = 0.7;
+        w[r] = 1.0 + r;
+    }
+    cc_em e = {q, 0, 0, 0}, ep = {qp, 0, 0, 0};
+    cc_em_estimate(&ep, rows, w, N, K, p, 1e-15, 200000);
+    /* 60 steps without a stop: the 28 priors pass 1e-20 and are dropped */
+    cc_em_estimate_squarem(&e, rows, w, N, K, p, 1e-300, 0.0, 60);
+    check_int(log, "32 classes, 28 falling to 0: plain EM converged", ep.converged, 1, src);
+    check_int(log, "32 classes, 28 falling to 0: EM (SQUAREM) took its 60 steps", e.iterations,
+              60, "hand-derived (tol 1e-300)");
+    double sum = 0.0;
+    for (int j = 0; j < K; j++) {
+        char what[96];
+        snprintf(what, sizeof what, "32 classes, 28 falling to 0: EM (SQUAREM) q[%d]", j);
+        check_close(log, what, q[j], qp[j], 1e-9, 0, src);
+        sum += q[j];
+    }
+    check_close(log, "32 classes, 28 falling to 0: EM (SQUAREM) priors sum to 1", sum, 1.0, 1e-12,
+                0, "hand-derived");
+    printf("  32 classes, 28 falling to 0: SQUAREM %d steps, plain EM %d steps, q[0] %.12f\n",
+           e.iterations, ep.iterations, q[0]);
+}
+
 /* ---------------------------------------------------------------- reference file */
 
 static int read_doubles(const cJSON *arr, double *out, int n)
@@ -738,6 +777,7 @@ int main(int argc, char **argv)
     em_edge_checks(&log, squarem_exact, "EM (SQUAREM)");
     em_edge_checks(&log, squarem_ll, "EM (SQUAREM, ll_tol 1e-11)");
     squarem_checks(&log);
+    squarem_drop_checks(&log);
     reference_run(&log, argc, argv, reference_checks);
     return check_finish(&log);
 }
