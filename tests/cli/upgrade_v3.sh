@@ -2,7 +2,8 @@
 # upgrade_v3.sh — the committed database of the release before slices
 # (tests/fixtures/v3.db, schema 3, made by tests/fixtures/make_v3_db.sh with
 # that release's binary) is read as it is by the reading commands, and
-# upgraded in place by the first writing command: afterwards it is schema 4,
+# upgraded in place by the first writing command: afterwards it is schema 5
+# (ids found through events_by_hash; tests/cli/upgrade_v4.sh checks the ids),
 # the report equals the one the old release wrote (v3_report.json) and the
 # one read before the upgrade, the slices of every day add up to the model's
 # summary (verify, and the events and labelled columns through sqlite3), the
@@ -53,7 +54,7 @@ grep -q "upgrades it in place" "$T/err" || fail "report --segment on schema 3 do
 "$C" ingest --db "$DB" --model g "$FIX/v3_late_event.jsonl" 2> "$T/err" || fail "ingest into schema 3: $(cat "$T/err")"
 grep -q "1 events stored" "$T/err" || fail "the late event was not stored: $(cat "$T/err")"
 grep -q "1 waiting labels applied" "$T/err" || fail "the waiting label was not applied: $(cat "$T/err")"
-[ "$(q "$DB" "SELECT value FROM meta WHERE key = 'schema_version'")" = 4 ] || fail "schema version not 4 after the upgrade"
+[ "$(q "$DB" "SELECT value FROM meta WHERE key = 'schema_version'")" = 5 ] || fail "schema version not 5 after the upgrade"
 "$C" verify --db "$DB" --model g --deep > "$T/v" || fail "verify after the upgrade: $(grep -v ' ok' "$T/v")"
 grep -q "^slices: 5, .* 0 mismatched, 0 days where the slices do not add up to the model, 0 stray" "$T/v" ||
   fail "verify's slice line: $(grep '^slices' "$T/v")"
@@ -95,11 +96,11 @@ PY
 # a newer schema is still refused, its tables left as they were
 cp "$FIX/v3.db" "$T/new.db"
 chmod 600 "$T/new.db"
-q "$T/new.db" "UPDATE meta SET value = '5' WHERE key = 'schema_version'"
+q "$T/new.db" "UPDATE meta SET value = '6' WHERE key = 'schema_version'"
 rc=0; "$C" ingest --db "$T/new.db" /dev/null 2> "$T/err" || rc=$?
-[ $rc = 3 ] || fail "ingest into schema 5: exit $rc, expected 3"
-grep -q "newer than this concord" "$T/err" || fail "schema 5: $(cat "$T/err")"
-[ "$(q "$T/new.db" "SELECT value FROM meta WHERE key = 'schema_version'")" = 5 ] || fail "the newer file's version was changed"
+[ $rc = 3 ] || fail "ingest into schema 6: exit $rc, expected 3"
+grep -q "newer than this concord" "$T/err" || fail "schema 6: $(cat "$T/err")"
+[ "$(q "$T/new.db" "SELECT value FROM meta WHERE key = 'schema_version'")" = 6 ] || fail "the newer file's version was changed"
 [ "$(q "$T/new.db" "SELECT count(*) FROM sqlite_master WHERE name LIKE 'slice%'")" = 0 ] || fail "slice tables were added to the newer file"
 
 [ $fails = 0 ] && echo "upgrade_v3: ok" || { echo "upgrade_v3: $fails failures"; exit 1; }

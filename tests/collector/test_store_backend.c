@@ -429,11 +429,11 @@ static void upgrade_from_v3(const char *path)
         cc_store_close(s);
         s = NULL;
     }
-    /* the first writer upgrades to 4 and keeps the rows */
+    /* the first writer upgrades to the current version (5) and keeps the rows */
     CHECK(cc_store_open(&s, path, 0, &err) == 0);
     if (!s)
         return;
-    CHECK(query_int(s, "SELECT value FROM meta WHERE key = 'schema_version'") == 4);
+    CHECK(query_int(s, "SELECT value FROM meta WHERE key = 'schema_version'") == 5);
     CHECK(query_int(s, "SELECT count(*) FROM sqlite_master WHERE name IN ('notifications', "
                        "'outbox', 'outbox_due')") == 3);
     cc_follow_offset o;
@@ -599,7 +599,7 @@ int main(void)
     }
     CHECK(strcmp(cc_store_backend_name(s), "sqlite") == 0 && cc_store_readonly(s) == 0);
     CHECK(strcmp(cc_store_path(s), path) == 0);
-    CHECK(query_int(s, "SELECT value FROM meta WHERE key = 'schema_version'") == 4);
+    CHECK(query_int(s, "SELECT value FROM meta WHERE key = 'schema_version'") == 5);
     /* every table in the versioned schema, made by the store */
     CHECK(query_int(s, "SELECT count(*) FROM sqlite_master WHERE type = 'table' AND name IN "
                        "('rule_state', 'notifications', 'outbox', 'follow_offsets')") == 4);
