@@ -55,6 +55,8 @@ grep -q "upgrades it in place" "$T/err" || fail "report --segment on schema 3 do
 grep -q "1 events stored" "$T/err" || fail "the late event was not stored: $(cat "$T/err")"
 grep -q "1 waiting labels applied" "$T/err" || fail "the waiting label was not applied: $(cat "$T/err")"
 [ "$(q "$DB" "SELECT value FROM meta WHERE key = 'schema_version'")" = 5 ] || fail "schema version not 5 after the upgrade"
+[ "$(q "$DB" "SELECT count(*) FROM sqlite_master WHERE name = 'events_by_id'")$(q "$DB" "SELECT count(*) FROM events WHERE id_hash = 0")" = 00 ] ||
+  fail "the ids are not indexed by hash after the upgrade"
 "$C" verify --db "$DB" --model g --deep > "$T/v" || fail "verify after the upgrade: $(grep -v ' ok' "$T/v")"
 grep -q "^slices: 5, .* 0 mismatched, 0 days where the slices do not add up to the model, 0 stray" "$T/v" ||
   fail "verify's slice line: $(grep '^slices' "$T/v")"
