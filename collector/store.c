@@ -422,10 +422,21 @@ static int upgrade_to_v4_slices(sq_store *s, cc_error *err)
     return rc;
 }
 
+/* The key of an id in events_by_hash: the top 40 bits are the SipHash of
+ * the id without its last 4 bytes, the low 24 bits the SipHash of the whole
+ * id (ids of up to 4 bytes: the whole id's hash). Ids that differ only in
+ * their last 4 bytes (ascending ids, e0000001, e0000002, ...) share the top
+ * bits, so a batch of them lands on a few neighbouring index pages as the
+ * text index's appends did, while random ids (UUIDs) spread as with any
+ * hash. Two ids share a key with probability 2^-64, or 2^-24 when they
+ * differ only in their last 4 bytes: the id in the row settles it. */
 int64_t cc_sq_id_hash(const sq_store *s, const char *id, int len)
 {
     size_t n = len < 0 ? strlen(id) : (size_t)len;
-    return (int64_t)(cc_siphash24(id_hash_key, id, n) & s->id_mask);
+    uint64_t h = cc_siphash24(id_hash_key, id, n);
+    if (n > 4)
+        h = (cc_siphash24(id_hash_key, id, n - 4) & ~(uint64_t)0xffffff) | (h & 0xffffff);
+    return (int64_t)(h & s->id_mask);
 }
 
 void cc_sq_bind_id(sq_store *s, sqlite3_stmt *st, const char *id, int len)
