@@ -667,6 +667,10 @@ static int open_reader(sq_store *s, cc_error *err)
                         s->db ? sqlite3_errmsg(s->db) : sqlite3_errstr(rc));
 }
 
+/* SQLite's page cache of a writer, in MiB: CONCORD_WRITER_CACHE_MIB (1..4096)
+ * or WRITER_CACHE_MIB. Readers keep 64 MiB. */
+#define WRITER_CACHE_MIB 64
+
 static int open_writer(sq_store *s, cc_error *err)
 {
     int flags = SQLITE_OPEN_READWRITE | SQLITE_OPEN_NOMUTEX;
@@ -674,10 +678,23 @@ static int open_writer(sq_store *s, cc_error *err)
         return cc_error_set(err, CC_EIO, "%s: cannot open database: %s", s->path,
                             s->db ? sqlite3_errmsg(s->db) : "out of memory");
     sqlite3_busy_handler(s->db, busy_handler, s);
-    return exec(s, "PRAGMA page_size=16384; PRAGMA journal_mode=WAL; PRAGMA synchronous=NORMAL;"
-                   "PRAGMA foreign_keys=ON; PRAGMA cache_size=-65536;"
-                   "PRAGMA wal_autocheckpoint=8192; PRAGMA journal_size_limit=67108864;",
-                err);
+    long mib = WRITER_CACHE_MIB;
+    const char *env = getenv("CONCORD_WRITER_CACHE_MIB");
+    if (env && *env) {
+        char *end;
+        long v = strtol(env, &end, 10);
+        if (*end || v < 1 || v > 4096)
+            return cc_error_set(err, CC_EUSAGE, "CONCORD_WRITER_CACHE_MIB: '%s' is not a "
+                                                "number of MiB from 1 to 4096", env);
+        mib = v;
+    }
+    char sql[320];
+    snprintf(sql, sizeof sql,
+             "PRAGMA page_size=16384; PRAGMA journal_mode=WAL; PRAGMA synchronous=NORMAL;"
+             "PRAGMA foreign_keys=ON; PRAGMA cache_size=-%ld;"
+             "PRAGMA wal_autocheckpoint=8192; PRAGMA journal_size_limit=67108864;",
+             mib * 1024);
+    return exec(s, sql, err);
 }
 
 int cc_store_open_with(cc_store **out, const char *path, const cc_store_opts *o,
