@@ -668,8 +668,11 @@ static int open_reader(sq_store *s, cc_error *err)
 }
 
 /* SQLite's page cache of a writer, in MiB: CONCORD_WRITER_CACHE_MIB (1..4096)
- * or WRITER_CACHE_MIB. Readers keep 64 MiB. */
-#define WRITER_CACHE_MIB 64
+ * or WRITER_CACHE_MIB. Readers keep 64 MiB. 32 MiB holds the id index of
+ * about 1.5 million events (about 19 MiB at 1 million), so ingest up to there
+ * runs as with 64 MiB and its peak RSS stays under 64 MiB (bench/RESULTS.md,
+ * "Random ids"). */
+#define WRITER_CACHE_MIB 32
 
 static int open_writer(sq_store *s, cc_error *err)
 {
