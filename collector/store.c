@@ -446,9 +446,9 @@ void cc_sq_bind_id(sq_store *s, sqlite3_stmt *st, const char *id, int len)
         sqlite3_bind_int64(st, 9, cc_sq_id_hash(s, id, len));
 }
 
-/* concord_id_hash(id): the same hash in SQL, for the upgrade and for the
- * pending-label drain's join (writers register it; a file never needs it
- * to be read). */
+/* concord_id_hash(id): the same key in SQL, for the upgrade, the
+ * pending-label drain's join and verify's check (every connection of a
+ * schema 5 store has it; a file never needs it to be read). */
 static void sql_id_hash(sqlite3_context *ctx, int argc, sqlite3_value **argv)
 {
     (void)argc;
@@ -459,6 +459,14 @@ static void sql_id_hash(sqlite3_context *ctx, int argc, sqlite3_value **argv)
         return;
     }
     sqlite3_result_int64(ctx, cc_sq_id_hash(s, id, sqlite3_value_bytes(argv[0])));
+}
+
+static int add_id_hash_fn(sq_store *s, cc_error *err)
+{
+    if (sqlite3_create_function(s->db, "concord_id_hash", 1, SQLITE_UTF8 | SQLITE_DETERMINISTIC,
+                                s, sql_id_hash, NULL, NULL) != SQLITE_OK)
+        return db_error(s, err, "registering the id hash");
+    return 0;
 }
 
 /* The width of the id hash: 64 bits, or what meta 'id_hash_bits' says.
@@ -730,7 +738,7 @@ int cc_store_open_with(cc_store **out, const char *path, const cc_store_opts *o,
             goto fail;
         }
         exec(s, "PRAGMA cache_size=-65536;", NULL);
-        if (s->version >= 5 && (rc = load_id_hash_bits(s, err)))
+        if (s->version >= 5 && ((rc = load_id_hash_bits(s, err)) || (rc = add_id_hash_fn(s, err))))
             goto fail;
     } else {
         /* created owner-only: it will hold webhook receivers; SQLite gives
@@ -744,13 +752,7 @@ int cc_store_open_with(cc_store **out, const char *path, const cc_store_opts *o,
         }
         if ((rc = open_writer(s, err)) || (rc = load_id_hash_bits(s, err)))
             goto fail;
-        if (sqlite3_create_function(s->db, "concord_id_hash", 1,
-                                    SQLITE_UTF8 | SQLITE_DETERMINISTIC, s, sql_id_hash, NULL,
-                                    NULL) != SQLITE_OK) {
-            rc = db_error(s, err, "registering the id hash");
-            goto fail;
-        }
-        if ((rc = bring_up_to_date(s, err)))
+        if ((rc = add_id_hash_fn(s, err)) || (rc = bring_up_to_date(s, err)))
             goto fail;
     }
     for (int i = 0; i < ST_COUNT; i++) {
@@ -1538,6 +1540,28 @@ static int sq_integrity(cc_store *store, int (*fn)(void *ctx, const char *line),
     sqlite3_finalize(st);
     if (step != SQLITE_ROW && step != SQLITE_DONE)
         return db_error(s, err, "integrity_check");
+    if (s->version < 5)
+        return 0;
+    /* a row whose key is not its id's could not be found by id: its
+     * duplicates would be stored again */
+    int64_t bad = 0;
+    if (sqlite3_prepare_v2(s->db, "SELECT count(*) FROM events WHERE id_hash <> concord_id_hash(id)",
+                           -1, &st, NULL) != SQLITE_OK)
+        return db_error(s, err, "checking the id keys");
+    step = sqlite3_step(st);
+    if (step == SQLITE_ROW)
+        bad = sqlite3_column_int64(st, 0);
+    sqlite3_finalize(st);
+    if (step != SQLITE_ROW)
+        return db_error(s, err, "checking the id keys");
+    if (bad > 0) {
+        char line[160];
+        snprintf(line, sizeof line, "events: %lld rows whose id_hash is not their id's key "
+                                    "(events_by_hash cannot find them by id)", (long long)bad);
+        *ok = 0;
+        if (fn)
+            fn(ctx, line);
+    }
     return 0;
 }
 

@@ -6,7 +6,7 @@
 # duplicates within a file and across files, an id repeated across models,
 # delayed labels and a correction by id, a label waiting for its event) done
 # on it and on an ordinary database must give the same counts, reports,
-# show output and rows.
+# show output and rows. verify --deep finds a row whose key was changed.
 # Usage: id_collisions.sh CONCORD
 set -euo pipefail
 C=$1
@@ -72,5 +72,13 @@ for id in $(sed 's/.*"id":"\([^"]*\)".*/\1/' "$T/events.jsonl"); do
 done
 rc=0; "$C" show --db "$T/narrow.db" --model g no-such-id > /dev/null 2>&1 || rc=$?
 [ $rc = 4 ] || fail "show of an unknown id whose hash is taken: exit $rc, expected 4"
+
+# verify --deep finds a row whose key is not its id's
+cp "$T/wide.db" "$T/bad.db"
+"$C" verify --db "$T/bad.db" --model g --deep > "$T/v" || fail "verify --deep before the damage: $(grep -v ' ok' "$T/v")"
+q "$T/bad.db" "UPDATE events SET id_hash = id_hash + 1 WHERE rowid = 7"
+rc=0; "$C" verify --db "$T/bad.db" --model g --deep > "$T/v" 2>&1 || rc=$?
+[ $rc = 1 ] || fail "verify --deep of a damaged key: exit $rc, expected 1"
+grep -q "events: 1 rows whose id_hash is not their id's key" "$T/v" || fail "verify does not name the damaged key: $(cat "$T/v")"
 
 [ $fails = 0 ] && echo "id_collisions: ok" || { echo "id_collisions: $fails failures"; exit 1; }
