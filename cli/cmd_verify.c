@@ -20,7 +20,8 @@ const char help_verify[] =
     "segment): on every day their summaries must add up to the model's, counter by\n"
     "counter, and each slice's summary must equal its rows plus its pruned part.\n"
     "Reads one snapshot; writes nothing.\n\n"
-    "  --deep   also run SQLite's PRAGMA integrity_check on the whole file\n\n"
+    "  --deep   also run SQLite's PRAGMA integrity_check on the whole file and check\n"
+    "           every event's id key (id_hash)\n\n"
     "exit: 0 nothing found, 1 some finding (listed), 2 usage, 3 file or database error,\n"
     "4 unknown model\n";
 
