@@ -3,7 +3,7 @@
 # vocabulary change (states ok/pending/firing/resolved, "severity" with
 # critical/warning/info, "dedupe_key", kinds fired/resolved) is upgraded in
 # place by the first writer (the store's upgrade of a version 3 file to
-# version 4): a rule that was firing stays raised (no second notification
+# the current version, 5): a rule that was firing stays raised (no second notification
 # for the same episode), no row is lost, and the history reads in the new
 # words.
 # Usage: old_alert_tables.sh CONCORD TESTDIR
@@ -74,7 +74,7 @@ PY
 [ "$(sqlite3 "$T/a.db" "SELECT notice_id || ' ' || kind || ' ' || urgency FROM notifications WHERE notification_id = 1")" = "m/split/fired/2026-03-01 raised high" ] ||
   fail "notifications after the upgrade: $(sqlite3 "$T/a.db" "SELECT * FROM notifications")"
 [ "$(sqlite3 "$T/a.db" "SELECT count(*) FROM notifications")" = 1 ] || fail "a second notification was queued for the same episode"
-[ "$(sqlite3 "$T/a.db" "SELECT value FROM meta WHERE key = 'schema_version'")" = 4 ] ||
+[ "$(sqlite3 "$T/a.db" "SELECT value FROM meta WHERE key = 'schema_version'")" = 5 ] ||
   fail "schema version after the upgrade: $(sqlite3 "$T/a.db" "SELECT value FROM meta WHERE key = 'schema_version'")"
 [ "$(sqlite3 "$T/a.db" "SELECT count(*) FROM sqlite_master WHERE name IN ('follow_offsets', 'outbox_due')")" = 2 ] ||
   fail "the upgrade did not create follow_offsets and the outbox index"
