@@ -1,6 +1,5 @@
-/* id_hash.c — SipHash-2-4 for the store's id index. A keyed hash, so ids
- * chosen to collide cannot be made without the database's key (meta
- * 'id_hash_key'): colliding ids would each cost a row read on lookup. */
+/* id_hash.c — SipHash-2-4, the hash behind the store's id index
+ * (cc_sq_id_hash in store.c builds the index key from it). */
 #include "id_hash.h"
 
 #define ROTL(x, b) (uint64_t)(((x) << (b)) | ((x) >> (64 - (b))))
