@@ -7,6 +7,7 @@
 # delayed labels and a correction by id, a label waiting for its event) done
 # on it and on an ordinary database must give the same counts, reports,
 # show output and rows. verify --deep finds a row whose key was changed.
+# Also the writers' page cache setting (CONCORD_WRITER_CACHE_MIB).
 # Usage: id_collisions.sh CONCORD
 set -euo pipefail
 C=$1
@@ -80,5 +81,16 @@ q "$T/bad.db" "UPDATE events SET id_hash = id_hash + 1 WHERE rowid = 7"
 rc=0; "$C" verify --db "$T/bad.db" --model g --deep > "$T/v" 2>&1 || rc=$?
 [ $rc = 1 ] || fail "verify --deep of a damaged key: exit $rc, expected 1"
 grep -q "events: 1 rows whose id_hash is not their id's key" "$T/v" || fail "verify does not name the damaged key: $(cat "$T/v")"
+
+# the writers' page cache (CONCORD_WRITER_CACHE_MIB, in MiB): a bad value is
+# a usage error that names the variable; a small one still stores the same
+for v in 0 4097 12x; do
+  rc=0; CONCORD_WRITER_CACHE_MIB=$v "$C" ingest --db "$T/cache.db" "$T/a.jsonl" 2> "$T/err" || rc=$?
+  [ $rc = 2 ] || fail "CONCORD_WRITER_CACHE_MIB=$v: exit $rc, expected 2"
+  grep -q "CONCORD_WRITER_CACHE_MIB: '$v' is not a number of MiB from 1 to 4096" "$T/err" || fail "CONCORD_WRITER_CACHE_MIB=$v: $(cat "$T/err")"
+done
+CONCORD_WRITER_CACHE_MIB=1 "$C" ingest --db "$T/cache.db" --model g --classes $CLASSES "$T/events.jsonl" 2> /dev/null ||
+  fail "ingest with a 1 MiB cache"
+[ "$(q "$T/cache.db" "SELECT count(*), count(DISTINCT id) FROM events")" = "60|60" ] || fail "the 1 MiB cache ingest's rows"
 
 [ $fails = 0 ] && echo "id_collisions: ok" || { echo "id_collisions: $fails failures"; exit 1; }
