@@ -225,8 +225,12 @@ static void note_upgrade(void *ctx, const char *path, const char *model, int64_t
                          int64_t total_days)
 {
     (void)ctx;
-    fprintf(stderr, "concord: upgrading %s: model '%s', day %lld of %lld\n",
-            path, model, (long long)done_days, (long long)total_days);
+    if (!model) /* the schema 5 step: rows whose id hash is written */
+        fprintf(stderr, "concord: upgrading %s to find ids by hash: row %lld of %lld\n", path,
+                (long long)done_days, (long long)total_days);
+    else
+        fprintf(stderr, "concord: upgrading %s: model '%s', day %lld of %lld\n",
+                path, model, (long long)done_days, (long long)total_days);
 }
 
 int cli_store_open(struct cc_store **out, const char *path, int flags, cc_error *err)

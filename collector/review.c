@@ -1,6 +1,6 @@
 /* review.c — the review queries behind review.h: one pass over a time range
  * through events_by_time, bounded candidate heaps per list, then the kept
- * events read by id through events_by_id. */
+ * events read by id through the store (events_by_hash). */
 #include "review.h"
 
 #include <math.h>

@@ -14,6 +14,7 @@
 #include <unistd.h>
 
 #include "date.h"
+#include "id_hash.h"
 #include "names_text.h"
 #include "store_slices.h"
 #include "store_sqlite.h"
@@ -31,17 +32,24 @@ static void sq_snapshot_end(cc_store *store);
  * the last publish to a cluster (upgrade_publish_marks), and per-segment
  * summaries (slices, store_slices.h; upgrade_to_v4_slices); 5: every stored
  * summary in layout version 2, its fixed-point sums in two words
- * (metrics/summary.h; upgrade_summary_words). */
+ * (metrics/summary.h; upgrade_summary_words), and ids found through a
+ * 64-bit hash of the id (events.id_hash, index events_by_hash on
+ * (model_id, id_hash)) instead of the text index events_by_id
+ * (upgrade_id_hashes). */
 #define SCHEMA_VERSION 5
 
 
+/* An event is found by its id through events_by_hash: ?9 is the id's hash
+ * (cc_sq_bind_id), and the id itself is compared in the row, so ids whose
+ * hashes collide stay apart. */
+#define BY_ID "WHERE model_id = ?1 AND id_hash = ?9 AND id = ?2"
+
 static const char *const stmt_sql[ST_COUNT] = {
-    [ST_EVENT_INSERT] = "INSERT OR IGNORE INTO events(model_id, id, ts, day, segment, pred, "
-                        "label, probs) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8)",
-    [ST_EVENT_GET] = "SELECT day, label, probs, ts, label_at FROM events "
-                     "WHERE model_id = ?1 AND id = ?2",
-    [ST_EVENT_SET_LABEL] = "UPDATE events SET label = ?3, label_at = ?4 "
-                           "WHERE model_id = ?1 AND id = ?2",
+    [ST_EVENT_EXISTS] = "SELECT 1 FROM events " BY_ID,
+    [ST_EVENT_INSERT] = "INSERT INTO events(model_id, id, ts, day, segment, pred, "
+                        "label, probs, id_hash) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9)",
+    [ST_EVENT_GET] = "SELECT day, label, probs, ts, label_at FROM events " BY_ID,
+    [ST_EVENT_SET_LABEL] = "UPDATE events SET label = ?3, label_at = ?4 " BY_ID,
     [ST_SUMMARY_GET] = "SELECT version, counters FROM summaries WHERE model_id = ?1 AND day = ?2",
     [ST_SUMMARY_PUT] = "INSERT OR REPLACE INTO summaries(model_id, day, version, events, "
                        "labeled, counters) VALUES (?1, ?2, ?3, ?4, ?5, ?6)",
@@ -49,14 +57,30 @@ static const char *const stmt_sql[ST_COUNT] = {
                   "VALUES (?1, ?2, ?3, ?4, ?5, ?6)",
     [ST_PENDING_ADD] = "INSERT OR REPLACE INTO pending_labels(model_id, id, label, received_at) "
                        "VALUES (?1, ?2, ?3, ?4)",
+    [ST_EVENT_READ] = "SELECT ts, segment, label, probs, label_at FROM events " BY_ID,
+};
+
+/* The reads a reader prepares on a file of schema 3 or 4 (readers never
+ * upgrade): ids through the text index events_by_id. */
+static const char *const stmt_sql_v4[ST_COUNT] = {
+    [ST_EVENT_GET] = "SELECT day, label, probs, ts, label_at FROM events "
+                     "WHERE model_id = ?1 AND id = ?2",
     [ST_EVENT_READ] = "SELECT ts, segment, label, probs, label_at FROM events "
                       "WHERE model_id = ?1 AND id = ?2",
 };
 
+/* The fixed SipHash key of the id index. Secrecy buys little: ids chosen
+ * to share a key must share all but their last 4 bytes (else about 2^40
+ * tries each), and the 2^32 endings of one prefix fall on 2^24 keys, so at
+ * most about 256 ids share a key and a lookup reads at most that many rows. */
+static const uint8_t id_hash_key[16] = {0x63, 0x6f, 0x6e, 0x63, 0x6f, 0x72, 0x64, 0x2d,
+                                        0x69, 0x64, 0x2d, 0x68, 0x61, 0x73, 0x68, 0x31};
+
 
 #define EVENTS_COLUMNS                                                                         \
     "model_id INTEGER NOT NULL, id TEXT NOT NULL, ts INTEGER NOT NULL, day INTEGER NOT NULL,"   \
-    " segment TEXT, pred INTEGER NOT NULL, label INTEGER, label_at INTEGER, probs BLOB NOT NULL"
+    " segment TEXT, pred INTEGER NOT NULL, label INTEGER, label_at INTEGER, probs BLOB NOT NULL,"\
+    " id_hash INTEGER NOT NULL DEFAULT 0"
 
 /* Versions 1 and 2 kept events WITHOUT ROWID keyed by (model_id, id). The
  * rows are copied in time order (the order a review reads them), the old
@@ -78,9 +102,12 @@ static const char schema_sql[] =
     "  members INTEGER NOT NULL, classes INTEGER NOT NULL,"
     "  member_names TEXT NOT NULL, class_names TEXT NOT NULL, created_at INTEGER NOT NULL);"
     /* version 3: rows in arrival order; ids in their own index, so ids in
-     * random order (UUIDs) touch only that index's pages, not the rows' */
+     * random order (UUIDs) touch only that index's pages, not the rows';
+     * version 5: that index holds 64-bit hashes of the ids (about 16 bytes
+     * an entry instead of about 50 for a UUID), not unique: store.c settles
+     * duplicates by comparing the id in the row */
     "CREATE TABLE IF NOT EXISTS events(" EVENTS_COLUMNS ");"
-    "CREATE UNIQUE INDEX IF NOT EXISTS events_by_id ON events(model_id, id);"
+    "CREATE INDEX IF NOT EXISTS events_by_hash ON events(model_id, id_hash);"
     "CREATE INDEX IF NOT EXISTS events_by_time ON events(model_id, day, ts);"
     "CREATE TABLE IF NOT EXISTS summaries("
     "  model_id INTEGER NOT NULL, day INTEGER NOT NULL, version INTEGER NOT NULL,"
@@ -570,6 +597,146 @@ static int upgrade_summary_words(sq_store *s, cc_error *err)
     return rc;
 }
 
+/* The key of an id in events_by_hash: the top 40 bits are the SipHash of
+ * the id without its last 4 bytes, the low 24 bits the SipHash of the whole
+ * id (ids of up to 4 bytes: the whole id's hash). Ids that differ only in
+ * their last 4 bytes (ascending ids, e0000001, e0000002, ...) share the top
+ * bits, so a batch of them lands on a few neighbouring index pages as the
+ * text index's appends did, while random ids (UUIDs) spread as with any
+ * hash. Two ids share a key with probability 2^-64, or 2^-24 when they
+ * differ only in their last 4 bytes: the id in the row settles it. */
+int64_t cc_sq_id_hash(const sq_store *s, const char *id, int len)
+{
+    size_t n = len < 0 ? strlen(id) : (size_t)len;
+    uint64_t h = cc_siphash24(id_hash_key, id, n);
+    if (n > 4)
+        h = (cc_siphash24(id_hash_key, id, n - 4) & ~(uint64_t)0xffffff) | (h & 0xffffff);
+    return (int64_t)(h & s->id_mask);
+}
+
+void cc_sq_bind_id(sq_store *s, sqlite3_stmt *st, const char *id, int len)
+{
+    sqlite3_bind_text(st, 2, id, len, SQLITE_STATIC);
+    if (s->version >= 5)
+        sqlite3_bind_int64(st, 9, cc_sq_id_hash(s, id, len));
+}
+
+/* concord_id_hash(id): the same key in SQL, for the upgrade, the
+ * pending-label drain's join and verify's check (every connection of a
+ * schema 5 store has it; a file never needs it to be read). */
+static void sql_id_hash(sqlite3_context *ctx, int argc, sqlite3_value **argv)
+{
+    (void)argc;
+    const sq_store *s = sqlite3_user_data(ctx);
+    const char *id = (const char *)sqlite3_value_text(argv[0]);
+    if (!id) {
+        sqlite3_result_null(ctx);
+        return;
+    }
+    sqlite3_result_int64(ctx, cc_sq_id_hash(s, id, sqlite3_value_bytes(argv[0])));
+}
+
+static int add_id_hash_fn(sq_store *s, cc_error *err)
+{
+    if (sqlite3_create_function(s->db, "concord_id_hash", 1, SQLITE_UTF8 | SQLITE_DETERMINISTIC,
+                                s, sql_id_hash, NULL, NULL) != SQLITE_OK)
+        return db_error(s, err, "registering the id hash");
+    return 0;
+}
+
+/* The width of the id hash: 64 bits, or what meta 'id_hash_bits' says.
+ * Tests make files with a narrow hash (CONCORD_TEST_ID_HASH_BITS at
+ * creation, 1..63) so that ids collide; the width stays with the file. */
+static int load_id_hash_bits(sq_store *s, cc_error *err)
+{
+    sqlite3_stmt *st = NULL;
+    int64_t bits = 64;
+    if (sqlite3_prepare_v2(s->db, "SELECT value FROM meta WHERE key = 'id_hash_bits'", -1, &st,
+                           NULL) == SQLITE_OK) {
+        if (sqlite3_step(st) == SQLITE_ROW)
+            bits = sqlite3_column_int64(st, 0);
+    } else {
+        /* no meta table: a new file */
+        const char *env = getenv("CONCORD_TEST_ID_HASH_BITS");
+        if (env && *env)
+            bits = strtol(env, NULL, 10);
+    }
+    sqlite3_finalize(st);
+    if (bits < 1 || bits > 64)
+        return cc_error_set(err, CC_EIO, "%s: id hash width %lld is not valid (1..64)", s->path,
+                            (long long)bits);
+    s->id_mask = bits == 64 ? UINT64_MAX : ((uint64_t)1 << bits) - 1;
+    return 0;
+}
+
+static int has_column(sq_store *s, const char *table, const char *column)
+{
+    sqlite3_stmt *st = NULL;
+    int yes = 0;
+    if (sqlite3_prepare_v2(s->db, "SELECT 1 FROM pragma_table_info(?1) WHERE name = ?2", -1, &st,
+                           NULL) == SQLITE_OK) {
+        sqlite3_bind_text(st, 1, table, -1, SQLITE_STATIC);
+        sqlite3_bind_text(st, 2, column, -1, SQLITE_STATIC);
+        yes = sqlite3_step(st) == SQLITE_ROW;
+    }
+    sqlite3_finalize(st);
+    return yes;
+}
+
+/* The step to version 5, inside the upgrade's transaction and before
+ * schema_sql (which builds events_by_hash once, over the filled column):
+ * the id_hash column is added where missing (a file of version 3 or 4; the
+ * copy of versions 1 and 2 already has it, filled with 0), every row's
+ * hash is written in rowid chunks with progress about every two seconds,
+ * and the text index events_by_id is dropped. Each part checks what is
+ * there, so the step can run again on a file where it already ran. */
+static int upgrade_id_hashes(sq_store *s, int64_t from_version, cc_error *err)
+{
+    sqlite3_stmt *st = NULL;
+    int rc = 0;
+    if (from_version < 1 || from_version >= 5)
+        return 0;
+    if (!has_column(s, "events", "id_hash") &&
+        (rc = exec(s, "ALTER TABLE events ADD COLUMN id_hash INTEGER NOT NULL DEFAULT 0;", err)))
+        return rc;
+    if ((rc = exec(s, "DROP INDEX IF EXISTS events_by_id;", err)))
+        return rc;
+    int64_t lo = 0, hi = -1, total = 0;
+    if (sqlite3_prepare_v2(s->db, "SELECT min(rowid), max(rowid), count(*) FROM events", -1, &st,
+                           NULL) != SQLITE_OK || sqlite3_step(st) != SQLITE_ROW) {
+        sqlite3_finalize(st);
+        return db_error(s, err, "counting events for the id index");
+    }
+    if (sqlite3_column_type(st, 0) != SQLITE_NULL) {
+        lo = sqlite3_column_int64(st, 0);
+        hi = sqlite3_column_int64(st, 1);
+        total = sqlite3_column_int64(st, 2);
+    }
+    sqlite3_finalize(st);
+    if (sqlite3_prepare_v2(s->db, "UPDATE events SET id_hash = concord_id_hash(id) "
+                                  "WHERE rowid BETWEEN ?1 AND ?2",
+                           -1, &st, NULL) != SQLITE_OK)
+        return db_error(s, err, "hashing event ids");
+    const int64_t chunk = 100000;
+    int64_t done = 0, last = now_ms();
+    if (s->o.on_progress && total > 0)
+        s->o.on_progress(s->o.progress_ctx, s->path, NULL, 0, total);
+    for (int64_t a = lo; a <= hi && !rc; a += chunk) {
+        sqlite3_bind_int64(st, 1, a);
+        sqlite3_bind_int64(st, 2, a + chunk - 1);
+        if (sqlite3_step(st) != SQLITE_DONE)
+            rc = db_error(s, err, "hashing event ids");
+        done += sqlite3_changes(s->db);
+        sqlite3_reset(st);
+        if (s->o.on_progress && now_ms() - last >= 2000) {
+            last = now_ms();
+            s->o.on_progress(s->o.progress_ctx, s->path, NULL, done, total);
+        }
+    }
+    sqlite3_finalize(st);
+    return rc;
+}
+
 /* Creates or upgrades the schema in one write transaction, unless it is
  * current already (then nothing is written). */
 static int bring_up_to_date(sq_store *s, cc_error *err)
@@ -588,17 +755,21 @@ static int bring_up_to_date(sq_store *s, cc_error *err)
     if ((rc = read_version(s, &version, err)) || (rc = check_version(s, version, err)) ||
         (version >= 1 && version < 3 && (rc = exec(s, events_v3_sql, err))) ||
         (version >= 1 && version < 4 && (rc = upgrade_v4_alert_tables(s, err))) ||
-        (rc = exec(s, schema_sql, err)) || (rc = upgrade_publish_marks(s, version, err)) ||
+        (rc = upgrade_id_hashes(s, version, err)) || (rc = exec(s, schema_sql, err)) || (rc = upgrade_publish_marks(s, version, err)) ||
         (rc = exec(s, slices_schema_sql, err)) ||
         (version >= 1 && version < 4 && (rc = upgrade_to_v4_slices(s, err))) ||
         (version >= 1 && version < 5 && (rc = upgrade_summary_words(s, err)))) {
         sq_work_abort(&s->base);
         return rc;
     }
-    char sql[128];
-    snprintf(sql, sizeof sql,
-             "INSERT OR REPLACE INTO meta(key, value) VALUES ('schema_version', '%d');",
-             SCHEMA_VERSION);
+    char sql[256];
+    int n = snprintf(sql, sizeof sql,
+                     "INSERT OR REPLACE INTO meta(key, value) VALUES ('schema_version', '%d');",
+                     SCHEMA_VERSION);
+    if (version == 0 && s->id_mask != UINT64_MAX)
+        snprintf(sql + n, sizeof sql - (size_t)n,
+                 "INSERT OR REPLACE INTO meta(key, value) VALUES ('id_hash_bits', '%d');",
+                 __builtin_popcountll(s->id_mask));
     if ((rc = exec(s, sql, err)) || (rc = exec(s, "COMMIT;", err))) {
         sq_work_abort(&s->base);
         return rc;
@@ -680,6 +851,13 @@ static int open_reader(sq_store *s, cc_error *err)
                         s->db ? sqlite3_errmsg(s->db) : sqlite3_errstr(rc));
 }
 
+/* SQLite's page cache of a writer, in MiB: CONCORD_WRITER_CACHE_MIB (1..4096)
+ * or WRITER_CACHE_MIB. Readers keep 64 MiB. 32 MiB holds the id index of
+ * about 1.5 million events (about 19 MiB at 1 million), so ingest up to there
+ * runs as with 64 MiB and its peak RSS stays under 64 MiB (bench/RESULTS.md,
+ * "Random ids"). */
+#define WRITER_CACHE_MIB 32
+
 static int open_writer(sq_store *s, cc_error *err)
 {
     int flags = SQLITE_OPEN_READWRITE | SQLITE_OPEN_NOMUTEX;
@@ -687,10 +865,23 @@ static int open_writer(sq_store *s, cc_error *err)
         return cc_error_set(err, CC_EIO, "%s: cannot open database: %s", s->path,
                             s->db ? sqlite3_errmsg(s->db) : "out of memory");
     sqlite3_busy_handler(s->db, busy_handler, s);
-    return exec(s, "PRAGMA page_size=16384; PRAGMA journal_mode=WAL; PRAGMA synchronous=NORMAL;"
-                   "PRAGMA foreign_keys=ON; PRAGMA cache_size=-65536;"
-                   "PRAGMA wal_autocheckpoint=8192; PRAGMA journal_size_limit=67108864;",
-                err);
+    long mib = WRITER_CACHE_MIB;
+    const char *env = getenv("CONCORD_WRITER_CACHE_MIB");
+    if (env && *env) {
+        char *end;
+        long v = strtol(env, &end, 10);
+        if (*end || v < 1 || v > 4096)
+            return cc_error_set(err, CC_EUSAGE, "CONCORD_WRITER_CACHE_MIB: '%s' is not a "
+                                                "number of MiB from 1 to 4096", env);
+        mib = v;
+    }
+    char sql[320];
+    snprintf(sql, sizeof sql,
+             "PRAGMA page_size=16384; PRAGMA journal_mode=WAL; PRAGMA synchronous=NORMAL;"
+             "PRAGMA foreign_keys=ON; PRAGMA cache_size=-%ld;"
+             "PRAGMA wal_autocheckpoint=8192; PRAGMA journal_size_limit=67108864;",
+             mib * 1024);
+    return exec(s, sql, err);
 }
 
 int cc_store_open_with(cc_store **out, const char *path, const cc_store_opts *o,
@@ -707,6 +898,7 @@ int cc_store_open_with(cc_store **out, const char *path, const cc_store_opts *o,
     s->base.path = s->path;
     s->o = *o;
     s->lock_fd = -1;
+    s->id_mask = UINT64_MAX;
     s->readonly = (o->flags & CC_STORE_READONLY) != 0;
     if (s->readonly) {
         struct stat st;
@@ -722,6 +914,8 @@ int cc_store_open_with(cc_store **out, const char *path, const cc_store_opts *o,
             goto fail;
         }
         exec(s, "PRAGMA cache_size=-65536;", NULL);
+        if (s->version >= 5 && ((rc = load_id_hash_bits(s, err)) || (rc = add_id_hash_fn(s, err))))
+            goto fail;
     } else {
         /* created owner-only: it will hold webhook receivers; SQLite gives
          * the WAL and its index the database file's mode */
@@ -732,13 +926,16 @@ int cc_store_open_with(cc_store **out, const char *path, const cc_store_opts *o,
             rc = open_errno(s, "cannot open database", err);
             goto fail;
         }
-        if ((rc = open_writer(s, err)) || (rc = bring_up_to_date(s, err)))
+        if ((rc = open_writer(s, err)) || (rc = load_id_hash_bits(s, err)))
+            goto fail;
+        if ((rc = add_id_hash_fn(s, err)) || (rc = bring_up_to_date(s, err)))
             goto fail;
     }
     for (int i = 0; i < ST_COUNT; i++) {
         if (s->readonly && i != ST_EVENT_GET && i != ST_SUMMARY_GET && i != ST_EVENT_READ)
             continue;
-        if (sqlite3_prepare_v3(s->db, stmt_sql[i], -1, SQLITE_PREPARE_PERSISTENT, &s->st[i],
+        const char *sql = s->version < 5 && stmt_sql_v4[i] ? stmt_sql_v4[i] : stmt_sql[i];
+        if (sqlite3_prepare_v3(s->db, sql, -1, SQLITE_PREPARE_PERSISTENT, &s->st[i],
                                NULL) != SQLITE_OK) {
             rc = db_error(s, err, "preparing statements");
             goto fail;
@@ -982,9 +1179,24 @@ static int sq_event_insert(cc_store *store, const cc_model *m, const char *id, i
                           int label, const float *probs, int *inserted, cc_error *err)
 {
     sq_store *s = SQ(store);
-    sqlite3_stmt *st = stmt(s, ST_EVENT_INSERT);
+    int64_t hash = cc_sq_id_hash(s, id, id_len);
+    /* a duplicate: an index entry of the same hash whose row has the same id */
+    sqlite3_stmt *st = stmt(s, ST_EVENT_EXISTS);
     sqlite3_bind_int64(st, 1, m->id);
     sqlite3_bind_text(st, 2, id, id_len, SQLITE_STATIC);
+    sqlite3_bind_int64(st, 9, hash);
+    int step = sqlite3_step(st);
+    sqlite3_reset(st);
+    if (step == SQLITE_ROW) {
+        *inserted = 0;
+        return 0;
+    }
+    if (step != SQLITE_DONE)
+        return db_error(s, err, "looking up event id");
+    st = stmt(s, ST_EVENT_INSERT);
+    sqlite3_bind_int64(st, 1, m->id);
+    sqlite3_bind_text(st, 2, id, id_len, SQLITE_STATIC);
+    sqlite3_bind_int64(st, 9, hash);
     sqlite3_bind_int64(st, 3, ts);
     sqlite3_bind_int64(st, 4, cc_day_of_unix(ts));
     if (segment)
@@ -996,7 +1208,7 @@ static int sq_event_insert(cc_store *store, const cc_model *m, const char *id, i
                       SQLITE_STATIC);
     if (sqlite3_step(st) != SQLITE_DONE)
         return db_error(s, err, "inserting event");
-    *inserted = sqlite3_changes(s->db) > 0;
+    *inserted = 1;
     return 0;
 }
 
@@ -1006,7 +1218,7 @@ static int sq_event_get(cc_store *store, const cc_model *m, const char *id, int 
     sq_store *s = SQ(store);
     sqlite3_stmt *st = stmt(s, ST_EVENT_GET);
     sqlite3_bind_int64(st, 1, m->id);
-    sqlite3_bind_text(st, 2, id, id_len, SQLITE_STATIC);
+    cc_sq_bind_id(s, st, id, id_len);
     int step = sqlite3_step(st);
     *found = 0;
     if (step == SQLITE_DONE)
@@ -1033,7 +1245,7 @@ static int sq_event_set_label(cc_store *store, const cc_model *m, const char *id
     sq_store *s = SQ(store);
     sqlite3_stmt *st = stmt(s, ST_EVENT_SET_LABEL);
     sqlite3_bind_int64(st, 1, m->id);
-    sqlite3_bind_text(st, 2, id, id_len, SQLITE_STATIC);
+    cc_sq_bind_id(s, st, id, id_len);
     sqlite3_bind_int(st, 3, label);
     sqlite3_bind_int64(st, 4, label_at);
     if (sqlite3_step(st) != SQLITE_DONE)
@@ -1287,11 +1499,12 @@ static int sq_pending_label_drain(cc_store *store, const cc_model *m, cc_pending
     sq_store *s = SQ(store);
     sqlite3_stmt *st;
     int rc = 0;
-    /* CROSS JOIN keeps pending_labels the outer table: one events_by_id
+    /* CROSS JOIN keeps pending_labels the outer table: one events_by_hash
      * lookup per waiting label, never a walk over the model's events */
     if (sqlite3_prepare_v2(s->db,
                            "SELECT p.id, p.label, p.received_at FROM pending_labels p "
-                           "CROSS JOIN events e ON e.model_id = p.model_id AND e.id = p.id "
+                           "CROSS JOIN events e ON e.model_id = p.model_id "
+                           "AND e.id_hash = concord_id_hash(p.id) AND e.id = p.id "
                            "WHERE p.model_id = ?1",
                            -1, &st, NULL) != SQLITE_OK)
         return db_error(s, err, "reading pending labels");
@@ -1308,6 +1521,7 @@ static int sq_pending_label_drain(cc_store *store, const cc_model *m, cc_pending
     if (sqlite3_prepare_v2(s->db,
                            "DELETE FROM pending_labels WHERE model_id = ?1 AND EXISTS "
                            "(SELECT 1 FROM events e WHERE e.model_id = ?1 "
+                           "AND e.id_hash = concord_id_hash(pending_labels.id) "
                            "AND e.id = pending_labels.id)",
                            -1, &st, NULL) != SQLITE_OK)
         return db_error(s, err, "clearing pending labels");
@@ -1537,6 +1751,28 @@ static int sq_integrity(cc_store *store, int (*fn)(void *ctx, const char *line),
     sqlite3_finalize(st);
     if (step != SQLITE_ROW && step != SQLITE_DONE)
         return db_error(s, err, "integrity_check");
+    if (s->version < 5)
+        return 0;
+    /* a row whose key is not its id's could not be found by id: its
+     * duplicates would be stored again */
+    int64_t bad = 0;
+    if (sqlite3_prepare_v2(s->db, "SELECT count(*) FROM events WHERE id_hash <> concord_id_hash(id)",
+                           -1, &st, NULL) != SQLITE_OK)
+        return db_error(s, err, "checking the id keys");
+    step = sqlite3_step(st);
+    if (step == SQLITE_ROW)
+        bad = sqlite3_column_int64(st, 0);
+    sqlite3_finalize(st);
+    if (step != SQLITE_ROW)
+        return db_error(s, err, "checking the id keys");
+    if (bad > 0) {
+        char line[160];
+        snprintf(line, sizeof line, "events: %lld rows whose id_hash is not their id's key "
+                                    "(events_by_hash cannot find them by id)", (long long)bad);
+        *ok = 0;
+        if (fn)
+            fn(ctx, line);
+    }
     return 0;
 }
 

@@ -46,7 +46,8 @@ typedef struct cc_store_opts {
     int wait_ms;
     void (*on_wait)(void *ctx, const char *path);
     void *ctx;
-    /* a long schema upgrade's progress (about every two seconds), or NULL */
+    /* a long schema upgrade's progress (about every two seconds), or NULL; model
+     * NULL: the schema 5 step, counting rows instead of days */
     void (*on_progress)(void *ctx, const char *path, const char *model, int64_t done_days,
                         int64_t total_days);
     void *progress_ctx;

@@ -1,6 +1,7 @@
 /* store_review.c — the SQLite backend's reads of event rows for reviews:
  * a time range through events_by_time, one event by id through
- * events_by_id, and the newest labelled day for the label age. */
+ * events_by_hash (events_by_id on a file of schema 3 or 4), and the newest
+ * labelled day for the label age. */
 #include <stdlib.h>
 #include <string.h>
 
@@ -76,7 +77,7 @@ int cc_sq_event_read(cc_store *store, const cc_model *m, const char *id, int *fo
     size_t want = (size_t)m->m * (size_t)m->k * sizeof(float);
     sqlite3_stmt *st = cc_sq_stmt(s, ST_EVENT_READ);
     sqlite3_bind_int64(st, 1, m->id);
-    sqlite3_bind_text(st, 2, id, -1, SQLITE_STATIC);
+    cc_sq_bind_id(s, st, id, -1);
     int step = sqlite3_step(st), rc = 0;
     *found = 0;
     out->segment = NULL;

@@ -183,11 +183,14 @@ int cc_sq_event_segment(cc_store *s, const cc_model *m, const char *id, int id_l
     int rc;
     *found = 0;
     *segment = NULL;
-    if ((rc = prepare(s, "SELECT segment FROM events WHERE model_id = ?1 AND id = ?2", &st,
-                      "reading an event's segment", err)))
+    if ((rc = prepare(s, SQ(s)->version >= 5 ? "SELECT segment FROM events WHERE model_id = ?1 "
+                                           "AND id_hash = ?9 AND id = ?2"
+                                         : "SELECT segment FROM events WHERE model_id = ?1 "
+                                           "AND id = ?2",
+                      &st, "reading an event's segment", err)))
         return rc;
     sqlite3_bind_int64(st, 1, m->id);
-    sqlite3_bind_text(st, 2, id, id_len, SQLITE_STATIC);
+    cc_sq_bind_id(SQ(s), st, id, id_len);
     int step = sqlite3_step(st);
     if (step == SQLITE_ROW) {
         *found = 1;

@@ -19,6 +19,7 @@ enum {
     ST_REJECT,
     ST_PENDING_ADD,
     ST_EVENT_READ,
+    ST_EVENT_EXISTS,
     ST_COUNT
 };
 
@@ -37,6 +38,7 @@ typedef struct sq_store {
     int wait_noted, timed_out;
     int own_snapshot;    /* depth of the read transactions cc_store_snapshot_begin opened */
     int64_t wait_start_ms;
+    uint64_t id_mask;    /* bits of the id hash kept: all but in tests (meta 'id_hash_bits') */
 } sq_store;
 
 #define SQ(store) ((sq_store *)(store))
@@ -51,6 +53,11 @@ int cc_sq_error(sq_store *s, cc_error *err, const char *what);
 int cc_sq_exec(sq_store *s, const char *sql, cc_error *err);
 /* A kept statement, reset and with its bindings cleared. */
 sqlite3_stmt *cc_sq_stmt(sq_store *s, int which);
+/* The id index's hash of the len bytes of id (len < 0: up to its NUL). */
+int64_t cc_sq_id_hash(const sq_store *s, const char *id, int len);
+/* Binds an event id to a statement that finds it: the text as ?2 and, on a
+ * file of schema 5, its hash as ?9 (the statements' BY_ID condition). */
+void cc_sq_bind_id(sq_store *s, sqlite3_stmt *st, const char *id, int len);
 /* 1 when the table exists (a reader may open an older schema). */
 int cc_sq_has_table(sq_store *s, const char *name);
 /* Decodes a stored (version, counters) row of `what` into out (summary.h's

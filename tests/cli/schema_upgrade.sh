@@ -2,8 +2,10 @@
 # schema_upgrade.sh — a database of schema version 2 (events WITHOUT ROWID,
 # keyed by (model_id, id)) is read as it is by the reading commands and
 # converted by the first writing command: afterwards it has the events table
-# of version 3 (a rowid table with the unique index events_by_id; the file is
-# then at the current version, 4), verify --deep passes, the report
+# of version 3 (a rowid table) with version 5's id index (events_by_hash on
+# (model_id, id_hash), each row's id_hash the SipHash of its id, no
+# events_by_id; the file is then at the current version, 5), verify --deep
+# passes, the report
 # equals the one read before the conversion, duplicates are still skipped,
 # labels waiting for events are applied, and the result equals the same work
 # done on a database that was version 3 from the start.
@@ -67,9 +69,10 @@ sum_before=$(sha256sum < "$OLD")
 grep -q " 0 events stored, $rows duplicates skipped" "$T/err" || fail "duplicates after the conversion: $(cat "$T/err")"
 [ "$(q "$OLD" "SELECT value FROM meta WHERE key = 'schema_version'")" = 5 ] || fail "schema version not 5 (the current one)"
 layout "$OLD" | grep -q 'WITHOUT ROWID' && fail "events is still WITHOUT ROWID"
-[ "$(q "$OLD" "SELECT count(*) FROM sqlite_master WHERE type = 'index' AND name IN ('events_by_id', 'events_by_time')")" = 2 ] ||
+[ "$(q "$OLD" "SELECT group_concat(name) FROM (SELECT name FROM sqlite_master WHERE type = 'index' AND name LIKE 'events_%' ORDER BY name)")" = "events_by_hash,events_by_time" ] ||
   fail "indexes after the conversion: $(q "$OLD" "SELECT group_concat(name) FROM sqlite_master WHERE type = 'index'")"
-q "$OLD" "SELECT sql FROM sqlite_master WHERE name = 'events_by_id'" | grep -q 'UNIQUE' || fail "events_by_id is not unique"
+[ "$(q "$OLD" "SELECT count(*) FROM events WHERE id_hash = 0")" = 0 ] || fail "rows without their id hash after the conversion"
+[ "$(q "$OLD" "SELECT count(DISTINCT id_hash) FROM events")" = "$rows" ] || fail "id hashes not distinct after the conversion"
 [ "$(q "$OLD" "SELECT name FROM sqlite_master WHERE name LIKE 'events_v%'")" = "" ] || fail "a temporary table was left"
 [ "$(q "$OLD" "SELECT count(*) FROM events")" = "$rows" ] || fail "row count changed in the conversion"
 "$C" verify --db "$OLD" --model g --deep > /dev/null || fail "verify --deep after the conversion"
@@ -86,7 +89,7 @@ done
 [ "$(q "$OLD" "SELECT count(*) FROM pending_labels")" = 0 ] || fail "waiting labels not applied after the conversion"
 "$C" ingest --db "$OLD" --model g "$T/late.jsonl" 2> "$T/err"
 grep -q " 0 events stored, 25 duplicates skipped" "$T/err" || fail "late duplicates: $(cat "$T/err")"
-"$C" label --db "$OLD" --model g "$T/d/labels.jsonl" 2> /dev/null   # by id, through events_by_id
+"$C" label --db "$OLD" --model g "$T/d/labels.jsonl" 2> /dev/null   # by id, through events_by_hash
 "$C" label --db "$REF" --model g "$T/d/labels.jsonl" 2> /dev/null
 "$C" verify --db "$OLD" --model g --deep > /dev/null || fail "verify --deep at the end"
 "$C" report --db "$OLD" --model g --format json -o "$T/old-end.json"

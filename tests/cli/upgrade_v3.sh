@@ -3,7 +3,8 @@
 # (tests/fixtures/v3.db, schema 3, made by tests/fixtures/make_v3_db.sh with
 # that release's binary) is read as it is by the reading commands, and
 # upgraded in place by the first writing command: afterwards it is schema 5
-# (every summary vector in layout 2),
+# (every summary vector in layout 2; ids found through events_by_hash,
+# tests/cli/upgrade_v4.sh checks the ids),
 # the report equals the one the old release wrote (v3_report.json) and the
 # one read before the upgrade, the slices of every day add up to the model's
 # summary (verify, and the events and labelled columns through sqlite3), the
@@ -75,6 +76,8 @@ grep -q "1 waiting labels applied" "$T/err" || fail "the waiting label was not a
 for t in summaries pruned_days slice_summaries slice_pruned; do
   [ "$(q "$DB" "SELECT count(*) FROM $t WHERE version != 2")" = 0 ] || fail "$t rows left in an older layout"
 done
+[ "$(q "$DB" "SELECT count(*) FROM sqlite_master WHERE name = 'events_by_id'")$(q "$DB" "SELECT count(*) FROM events WHERE id_hash = 0")" = 00 ] ||
+  fail "the ids are not indexed by hash after the upgrade"
 "$C" verify --db "$DB" --model g --deep > "$T/v" || fail "verify after the upgrade: $(grep -v ' ok' "$T/v")"
 grep -q "^slices: 5, .* 0 mismatched, 0 days where the slices do not add up to the model, 0 stray" "$T/v" ||
   fail "verify's slice line: $(grep '^slices' "$T/v")"

@@ -1,7 +1,8 @@
 /* test_pending_drain.c — draining labels that waited for their events:
  * only labels whose event is stored come out (and are cleared), the others
  * keep waiting, and the query starts from pending_labels and looks each
- * event up by events_by_id, never scanning the model's events (its plan is
+ * event up by events_by_hash (schema 5: the id's hash, then the id in the
+ * row), never scanning the model's events (its plan is
  * read with SQLite's EXPLAIN QUERY PLAN while the drain runs, so the check
  * follows the statement store.c really uses). */
 #include <sqlite3.h>
@@ -38,11 +39,11 @@ static void read_plan(drained *d)
     while (plan && sqlite3_step(plan) == SQLITE_ROW) {
         const char *row = (const char *)sqlite3_column_text(plan, 3);
         d->plan_rows++;
-        if (strncmp(row, "SEARCH e ", 9) == 0 && strstr(row, "events_by_id (model_id=? AND id=?)"))
+        if (strncmp(row, "SEARCH e ", 9) == 0 && strstr(row, "events_by_hash (model_id=? AND id_hash=?)"))
             d->searches_by_id++;
         /* a walk over events: a scan, or a search by model_id alone */
         if (strncmp(row, "SCAN e", 6) == 0 ||
-            (strncmp(row, "SEARCH e ", 9) == 0 && !strstr(row, "AND id=?)")))
+            (strncmp(row, "SEARCH e ", 9) == 0 && !strstr(row, "AND id_hash=?)")))
             d->walks_events++;
         if (d->plan_rows == 1)
             d->outer_is_pending = strncmp(row, "SEARCH p ", 9) == 0;
@@ -99,7 +100,8 @@ int main(void)
     CHECK(cc_store_pending_label_count(s, model) == 1); /* x1 still waits */
 
     /* the plan (SQLite's EXPLAIN QUERY PLAN): the outer loop reads the
-     * model's pending labels, events are only searched by (model_id, id) */
+     * model's pending labels, events are only searched by (model_id,
+     * id_hash) */
     CHECK(d.plan_rows >= 2);
     CHECK(d.searches_by_id == 1);
     CHECK(d.walks_events == 0);

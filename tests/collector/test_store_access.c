@@ -141,9 +141,10 @@ int main(void)
     sqlite3_exec(cc_store_db(w), "UPDATE events SET label = 7 WHERE id = 'e3'", NULL, NULL, NULL);
     CHECK(cc_store_class_faults(w, model, NULL, NULL, &faults, &err) == 0 && faults == 1);
     sqlite3_exec(cc_store_db(w), "UPDATE events SET label = NULL WHERE id = 'e3';"
-                                 "INSERT INTO events(model_id, id, ts, day, pred, label, probs) "
-                                 "SELECT model_id, 'e1', 0, 12, 0, 7, probs FROM events "
-                                 "WHERE id = 'e3'", NULL, NULL, NULL);
+                                 "INSERT INTO events(model_id, id, ts, day, pred, label, probs, "
+                                 "id_hash) SELECT model_id, 'e1', 0, 12, 0, 7, probs, "
+                                 "concord_id_hash('e1') FROM events WHERE id = 'e3'",
+                 NULL, NULL, NULL);
     CHECK(cc_store_class_faults(w, model, on_fault, NULL, &faults, &err) == 0 && faults == 1 &&
           faults_seen == 1);
     CHECK(cc_store_integrity(w, NULL, NULL, &ok, &err) == 0 && ok == 1);

@@ -2,7 +2,7 @@
  * database written here: eight events of three members and three classes
  * whose categories, counts and orderings were worked out by hand (the
  * comments give each event's averaged output). Also checks that the scan
- * uses the (model, day, ts) index and the event lookup events_by_id. */
+ * uses the (model, day, ts) index and the event lookup events_by_hash. */
 #include <math.h>
 #include <sqlite3.h>
 #include <stdio.h>
@@ -311,17 +311,18 @@ int main(void)
     check_int(&log, "unknown id", cc_review_event_get(s, m, "nope", &e, &err), -CC_ENOTFOUND,
               "review.h");
 
-    /* the scan goes through events_by_time, the lookup through events_by_id
-     * (the SQL below repeats collector/review.c's) */
+    /* the scan goes through events_by_time, the lookup through events_by_hash
+     * (the SQL below repeats collector/review.c's and store.c's BY_ID) */
     sqlite3 *db = cc_store_db(s);
     check_int(&log, "scan uses events_by_time",
               plan_uses(db, "SELECT id, ts, label, probs FROM events WHERE model_id = 1 AND "
                             "day BETWEEN 1 AND 2 AND ts BETWEEN 1 AND 2 AND (NULL IS NULL OR "
                             "segment = NULL)", "events_by_time"),
               1, "SQLite EXPLAIN QUERY PLAN");
-    check_int(&log, "lookup uses events_by_id",
+    check_int(&log, "lookup uses events_by_hash",
               plan_uses(db, "SELECT ts, segment, label, probs, label_at FROM events WHERE "
-                            "model_id = 1 AND id = 'e1'", "events_by_id"),
+                            "model_id = 1 AND id_hash = 12345 AND id = 'e1'",
+                        "events_by_hash (model_id=? AND id_hash=?)"),
               1, "SQLite EXPLAIN QUERY PLAN");
 
     cc_model_free(m);
