@@ -363,31 +363,38 @@ static int flush(cc_ingest *ing, cc_error *err)
 {
     for (int i = 0; i < ing->n_models; i++) {
         model_state *ms = &ing->models[i];
-        cc_summary *day_sum = NULL;
         int rc = 0;
         for (int j = 0; j < ms->n_days && !rc; j++) {
             if (!ms->days[j].dirty)
                 continue;
-            if (!day_sum && !(day_sum = cc_summary_create(ms->model->m, ms->model->k))) {
-                rc = cc_error_set(err, CC_ENOMEM, "out of memory");
-                break;
-            }
-            cc_summary_clear(day_sum);
-            int64_t day = ms->days[j].day;
-            for (int k = j; k < ms->n_days && !rc; k++) {
+            /* The day's first delta, once its slice row is written, gathers
+             * the day's other slice deltas and is added to the model's row:
+             * no extra summary (at 64 x 256 each is 20 MiB). */
+            day_delta *first = &ms->days[j];
+            int64_t day = first->day;
+            rc = cc_store_slice_summary_add(ing->store, ms->model, day, first->slice,
+                                            first->delta, err);
+            for (int k = j + 1; k < ms->n_days && !rc; k++) {
                 day_delta *dd = &ms->days[k];
                 if (!dd->dirty || dd->day != day)
                     continue;
                 rc = cc_store_slice_summary_add(ing->store, ms->model, day, dd->slice, dd->delta,
                                                 err);
-                cc_summary_merge(day_sum, dd->delta);
+                if (!rc && cc_summary_merge(first->delta, dd->delta)) {
+                    char date[11];
+                    cc_format_date(day, date);
+                    rc = cc_error_set(err, CC_EIO, "%s: summary counter overflow at model '%s', "
+                                                   "%s; nothing was written",
+                                      cc_store_path(ing->store), ms->model->name, date);
+                }
                 cc_summary_clear(dd->delta);
                 dd->dirty = 0;
             }
             if (!rc)
-                rc = cc_store_summary_add(ing->store, ms->model, day, day_sum, err);
+                rc = cc_store_summary_add(ing->store, ms->model, day, first->delta, err);
+            cc_summary_clear(first->delta);
+            first->dirty = 0;
         }
-        cc_summary_free(day_sum);
         if (rc)
             return rc;
     }

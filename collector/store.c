@@ -1347,16 +1347,29 @@ static int summary_put(sq_store *s, const cc_model *m, int64_t day, const cc_sum
     return step == SQLITE_DONE ? 0 : db_error(s, err, "writing summary");
 }
 
+/* The store's one scratch summary, of m's shape: read, merged and rewritten
+ * by the summary adds of days and of slices, one at a time (at 64 x 256 a
+ * summary is 20 MiB, so each add does not make its own). NULL, with err
+ * set, when out of memory. */
+cc_summary *cc_sq_scratch(sq_store *s, const cc_model *m, cc_error *err)
+{
+    const cc_layout *have = s->scratch ? cc_summary_layout(s->scratch) : NULL;
+    if (!have || have->m != m->m || have->k != m->k) {
+        cc_summary_free(s->scratch);
+        if (!(s->scratch = cc_summary_create(m->m, m->k))) {
+            cc_error_set(err, CC_ENOMEM, "out of memory");
+            return NULL;
+        }
+    }
+    return s->scratch;
+}
+
 static int sq_summary_add(cc_store *store, const cc_model *m, int64_t day, const cc_summary *delta,
                          cc_error *err)
 {
     sq_store *s = SQ(store);
-    const cc_layout *have = s->scratch ? cc_summary_layout(s->scratch) : NULL;
-    if (!have || have->m != m->m || have->k != m->k) {
-        cc_summary_free(s->scratch);
-        if (!(s->scratch = cc_summary_create(m->m, m->k)))
-            return cc_error_set(err, CC_ENOMEM, "out of memory");
-    }
+    if (!cc_sq_scratch(s, m, err))
+        return -CC_ENOMEM;
     int rc = sq_summary_get(&s->base, m, day, s->scratch, err);
     if (!rc)
         rc = cc_sq_merge(store, m, day, 0, s->scratch, delta, err);

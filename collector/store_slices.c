@@ -371,15 +371,14 @@ static int put_row(cc_store *s, const cc_model *m, int pruned, int64_t day, int6
 int cc_sq_slice_summary_add(cc_store *s, const cc_model *m, int64_t day, int64_t slice,
                                const cc_summary *delta, cc_error *err)
 {
-    cc_summary *sum = cc_summary_create(m->m, m->k);
+    cc_summary *sum = cc_sq_scratch(SQ(s), m, err);
     if (!sum)
-        return cc_error_set(err, CC_ENOMEM, "out of memory");
+        return -CC_ENOMEM;
     int rc = cc_sq_slice_summary_get(s, m, day, slice, sum, err);
     if (!rc)
         rc = cc_sq_merge(s, m, day, slice, sum, delta, err);
     if (!rc)
         rc = put_row(s, m, 0, day, slice, sum, 0, err);
-    cc_summary_free(sum);
     return rc;
 }
 

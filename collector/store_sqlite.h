@@ -28,7 +28,7 @@ typedef struct sq_store {
     sqlite3 *db;
     char *path;
     sqlite3_stmt *st[ST_COUNT];
-    cc_summary *scratch; /* reused by cc_store_summary_add */
+    cc_summary *scratch; /* reused by the summary adds (cc_sq_scratch) */
     cc_store_opts o;
     int readonly;
     int64_t version;     /* schema version of the file */
@@ -68,6 +68,9 @@ int cc_sq_decode_summary(cc_store *s, const cc_model *m, const void *blob, int b
                          cc_summary *out, cc_error *err);
 /* dst += src, or an error "summary counter overflow" naming the model, day
  * and slice; never writes a wrapped counter. */
+/* The store's scratch summary of m's shape (store.c); NULL when out of memory. */
+cc_summary *cc_sq_scratch(sq_store *s, const cc_model *m, cc_error *err);
+
 int cc_sq_merge(cc_store *s, const cc_model *m, int64_t day, int64_t slice, cc_summary *dst,
                 const cc_summary *src, cc_error *err);
 /* Steps st (bound, not yet stepped) and appends its first column to
