@@ -70,13 +70,19 @@ double cc_fleiss_kappa(int64_t n, int m, int64_t sumsq, const int64_t *class_tot
 {
     if (n <= 0 || m < 2 || k < 1)
         return NAN;
-    int64_t ratings = n * (int64_t)m, seen = 0;
+    /* n m ratings and their class totals must be exact integers to check
+     * that they add up; past int64 (more than about 1.8e18 ratings) the
+     * statistic is not computed */
+    int64_t ratings, seen = 0;
+    if (__builtin_mul_overflow(n, (int64_t)m, &ratings))
+        return NAN;
     for (int j = 0; j < k; j++) {
         if (class_totals[j] < 0)
             return NAN;
         if (class_totals[j] == ratings)
             return NAN;
-        seen += class_totals[j];
+        if (__builtin_add_overflow(seen, class_totals[j], &seen))
+            return NAN;
     }
     if (seen != ratings)
         return NAN;

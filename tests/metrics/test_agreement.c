@@ -55,6 +55,12 @@ static const fleiss_row fleiss_edge_rows[] = {
      "hand-computed from Fleiss 1971: P_bar 1, P_e 0.5"},
     {"m = 2, items (a,a),(a,b),(b,b),(b,a)", 4, 2, 2, 12, {4, 4}, 0.0, 1e-12,
      "hand-computed from Fleiss 1971: P_bar 0.5, P_e 0.5"},
+    /* n m past int64: the totals cannot be checked, so no value (common practice:
+     * undefined rather than computed from wrapped integers) */
+    {"2^62 items of 5 raters (n m past int64)", INT64_C(1) << 62, 5, 2, INT64_MAX,
+     {INT64_MAX, INT64_MAX}, NAN, 0, "n m = 5 * 2^62 > 2^63 - 1: not computed"},
+    {"class totals whose sum passes int64", INT64_C(1) << 61, 3, 2, INT64_MAX,
+     {INT64_MAX - 1, INT64_MAX - 1}, NAN, 0, "sum of totals > 2^63 - 1: not computed"},
 };
 
 /* Fleiss (1971) count table: rows = items, columns = classes. */
