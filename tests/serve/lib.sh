@@ -7,6 +7,10 @@
 start_server() {
   local log=$1 i=0
   shift
+  # the log exists before the server starts: the background job opens it
+  # only when it runs, and on a loaded machine the first read below can come
+  # first (a failed sed would end a caller running under set -e -o pipefail)
+  : > "$log"
   "$CONCORD" serve "$@" 2> "$log" &
   SPID=$!
   SPORT=
