@@ -18,7 +18,7 @@ const char help_report[] =
     "                      [--by day|week|all] [--format text|json|html] [--no-review]\n"
     "                      [--review-max N|all] [--rules FILE] [--segment S | --by-segment]\n"
     "                      [-o FILE]\n"
-    "       concord report --db FILE --model NAME --by hour --from TIME --to TIME\n"
+    "       concord report --db FILE|--store URL --model NAME --by hour --from TIME --to TIME\n"
     "                      [--format text|json|html] [--no-review] [--review-max N|all]\n"
     "                      [--rules FILE] [-o FILE]\n\n"
     "Diversity of the members (disagreement, Cohen's and Fleiss' kappa), uncertainty of\n"
