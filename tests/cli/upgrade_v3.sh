@@ -29,30 +29,10 @@ chmod 600 "$DB"
 [ "$(q "$DB" "SELECT count(*) FROM pruned_days WHERE version = 1")" -gt 0 ] || fail "the fixture has no layout 1 pruned days"
 
 # the JSON reports compared without the keys this release adds at the top
-# ("segment", "slices"), which the old release did not write. The old
-# release's numbers were cJSON's: a 15-digit text accepted when it read back
-# within a relative DBL_EPSILON (cJSON 1.7.15, compare_double); numbers now
-# read back exactly, so a number may differ from the fixture's by that much.
+# ("segment", "slices"), which the old release did not write; numbers within
+# cJSON's relative DBL_EPSILON (old_report_same.py says why)
 same_report() {
-  /usr/bin/python3 - "$1" "$2" <<'PY'
-import json, sys
-a, b = (json.load(open(p)) for p in sys.argv[1:3])
-for d in (a, b):
-    d.pop("segment", None)
-    d.pop("slices", None)
-EPS = sys.float_info.epsilon
-def same(x, y):
-    if isinstance(x, dict):
-        return isinstance(y, dict) and list(x) == list(y) and all(same(x[k], y[k]) for k in x)
-    if isinstance(x, list):
-        return isinstance(y, list) and len(x) == len(y) and all(map(same, x, y))
-    if isinstance(x, float) or isinstance(y, float):
-        num = (int, float)
-        return (isinstance(x, num) and isinstance(y, num) and not isinstance(x, bool)
-                and not isinstance(y, bool) and abs(x - y) <= max(abs(x), abs(y)) * EPS)
-    return x == y
-sys.exit(0 if same(a, b) else 1)
-PY
+  /usr/bin/python3 "$HERE/old_report_same.py" "$1" "$2" --drop segment --drop slices
 }
 
 # readers: as before, without slices; nothing written

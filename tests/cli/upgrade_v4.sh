@@ -30,27 +30,10 @@ ids_g=$(q "$DB" "SELECT id FROM events WHERE model_id = (SELECT model_id FROM mo
 ids_h=$(q "$DB" "SELECT id FROM events WHERE model_id = (SELECT model_id FROM models WHERE name = 'h') ORDER BY id")
 [ "$(echo "$ids_h" | wc -l)" = 10 ] || fail "the fixture's model h does not have 10 events"
 
-# The old release's numbers were cJSON's: a 15-digit text accepted when it
-# read back within a relative DBL_EPSILON (cJSON 1.7.15, compare_double);
-# numbers now read back exactly, so a number may differ from the fixture's
-# by that much (as in upgrade_v3.sh).
+# numbers within cJSON's relative DBL_EPSILON of the old release's
+# (old_report_same.py says why); every key compared
 same_json() {
-  /usr/bin/python3 - "$1" "$2" <<'PY'
-import json, sys
-a, b = (json.load(open(p)) for p in sys.argv[1:3])
-EPS = sys.float_info.epsilon
-def same(x, y):
-    if isinstance(x, dict):
-        return isinstance(y, dict) and list(x) == list(y) and all(same(x[k], y[k]) for k in x)
-    if isinstance(x, list):
-        return isinstance(y, list) and len(x) == len(y) and all(map(same, x, y))
-    if isinstance(x, float) or isinstance(y, float):
-        num = (int, float)
-        return (isinstance(x, num) and isinstance(y, num) and not isinstance(x, bool)
-                and not isinstance(y, bool) and abs(x - y) <= max(abs(x), abs(y)) * EPS)
-    return x == y
-sys.exit(0 if same(a, b) else 1)
-PY
+  /usr/bin/python3 "$HERE/old_report_same.py" "$1" "$2"
 }
 
 # readers: as before (show by id through events_by_id); nothing written
